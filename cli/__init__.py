@@ -1,0 +1,1 @@
+"""The ``wakeyard`` command: run a case locally, or start the service parts."""

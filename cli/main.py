@@ -1,0 +1,62 @@
+"""``wakeyard`` subcommands. Exit codes of ``run``: 0 done, 2 invalid spec, 3 run failed."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(prog="wakeyard", description="Queued 2D incompressible flow simulations.")
+    sub = parser.add_subparsers(dest="command", required=True)
+    p_run = sub.add_parser("run", help="compute one case on this machine")
+    p_run.add_argument("spec", type=Path, help="job spec (JSON)")
+    p_run.add_argument("--out", type=Path, required=True, help="folder for the result files")
+    p_run.add_argument("--quiet", action="store_true", help="no progress bar")
+    args = parser.parse_args(argv)
+    if args.command == "run":
+        return _run(args.spec, args.out, args.quiet)
+    return 1
+
+
+def _run(spec_path: Path, out: Path, quiet: bool) -> int:
+    import solver
+
+    try:
+        data = json.loads(spec_path.read_text())
+    except (OSError, json.JSONDecodeError) as err:
+        print(f"error: cannot read {spec_path}: {err}", file=sys.stderr)
+        return 2
+    try:
+        spec = solver.load(data)
+        solver.check_limits(spec, solver.Limits())
+    except solver.SpecError as err:
+        for field, message in err.problems:
+            print(f"invalid spec: {field}: {message}", file=sys.stderr)
+        return 2
+    bar = None
+    if not quiet:
+        from tqdm import tqdm
+
+        bar = tqdm(total=1000, unit="‰", bar_format="{l_bar}{bar}| {elapsed}<{remaining} {postfix}")
+
+    def progress(p: solver.Progress) -> None:
+        if bar is not None:
+            bar.n = int(1000 * p.fraction)
+            bar.set_postfix_str(p.message or f"t = {p.time:.4g} s")
+
+    try:
+        summary = solver.run(spec, out, progress=progress)
+    except solver.RunFailed as err:
+        if bar is not None:
+            bar.close()
+        print(f"run failed: {err}", file=sys.stderr)
+        return 3
+    if bar is not None:
+        bar.n = 1000
+        bar.close()
+    print(json.dumps({k: summary[k] for k in ("bodies", "strouhal_number", "pressure_drop", "mesh",
+                                               "wall_time_seconds") if k in summary}, indent=2))
+    return 0

@@ -1,0 +1,93 @@
+"""Statistics of force histories: whole-cycle windows, Strouhal number, periodicity."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+
+def up_crossings(t: np.ndarray, signal: np.ndarray, level: float) -> np.ndarray:
+    """Times where ``signal`` crosses ``level`` upwards, linearly interpolated."""
+    s = signal - level
+    i = np.nonzero((s[:-1] < 0) & (s[1:] >= 0))[0]
+    return t[i] - s[i] * (t[i + 1] - t[i]) / (s[i + 1] - s[i])
+
+
+@dataclass
+class Cycles:
+    """Whole oscillation cycles found in a signal (``starts`` has one more entry than cycles)."""
+
+    starts: np.ndarray
+
+    @property
+    def count(self) -> int:
+        return max(len(self.starts) - 1, 0)
+
+    @property
+    def periods(self) -> np.ndarray:
+        return np.diff(self.starts)
+
+
+def find_cycles(t: np.ndarray, signal: np.ndarray, min_relative_amplitude: float = 1e-3) -> Cycles:
+    """Cycles of the last half of the record, delimited by up-crossings of its mean.
+
+    A signal whose swing is below ``min_relative_amplitude`` of its size (or
+    below 1e-8) is treated as steady: no cycles.
+    """
+    if len(t) < 8:
+        return Cycles(np.array([]))
+    tail = t >= t[0] + 0.5 * (t[-1] - t[0])
+    s = signal[tail]
+    swing = float(np.ptp(s))
+    if swing < max(min_relative_amplitude * float(np.abs(s).max()), 1e-8):
+        return Cycles(np.array([]))
+    return Cycles(up_crossings(t[tail], s, float(s.mean())))
+
+
+def window_stats(values: np.ndarray) -> dict[str, float]:
+    """Mean, extremes, half the peak-to-peak swing and the RMS of the fluctuation."""
+    mean = float(values.mean())
+    return {"mean": mean, "min": float(values.min()), "max": float(values.max()),
+            "amplitude": float(0.5 * np.ptp(values)), "rms": float(np.sqrt(np.mean((values - mean) ** 2)))}
+
+
+def analysis_window(t: np.ndarray, cycles: Cycles, last: int = 5) -> np.ndarray:
+    """Mask of the samples in the last ``last`` whole cycles, else the last half of the record."""
+    if cycles.count >= 1:
+        a, b = cycles.starts[-min(last, cycles.count) - 1], cycles.starts[-1]
+        return (t >= a) & (t <= b)
+    return t >= t[0] + 0.5 * (t[-1] - t[0])
+
+
+def is_periodic(t: np.ndarray, signal: np.ndarray, cycles: int, tolerance: float) -> bool:
+    """True when the last ``cycles`` cycles agree in period, mean and amplitude within ``tolerance``.
+
+    Differences are relative to the mean period and to the amplitude.
+    """
+    found = find_cycles(t, signal)
+    if found.count < cycles + 1:
+        return False
+    starts = found.starts[-cycles - 1:]
+    periods = np.diff(starts)
+    means, amps = [], []
+    for a, b in zip(starts[:-1], starts[1:]):
+        part = signal[(t >= a) & (t <= b)]
+        means.append(part.mean())
+        amps.append(0.5 * np.ptp(part))
+    amp = max(float(np.mean(amps)), 1e-30)
+    return bool(np.ptp(periods) <= tolerance * periods.mean()
+                and np.ptp(means) <= tolerance * amp and np.ptp(amps) <= tolerance * amp)
+
+
+def strouhal(t: np.ndarray, lift: np.ndarray, length: float, velocity: float) -> dict[str, float | str | None]:
+    """Shedding frequency from whole lift cycles; the spread of the periods states its resolution."""
+    cycles = find_cycles(t, lift)
+    if cycles.count < 2:
+        return {"strouhal_number": None, "frequency": None, "frequency_resolution": None, "cycles": cycles.count,
+                "method": "up-crossings of the mean lift"}
+    last = cycles.periods[-min(5, cycles.count):]
+    f = 1.0 / float(last.mean())
+    spread = float(last.std()) * f * f if len(last) > 1 else float(np.diff(t).max()) * f * f
+    return {"strouhal_number": f * length / velocity, "frequency": f, "frequency_resolution": spread,
+            "cycles": int(len(last)), "method": "up-crossings of the mean lift"}

@@ -1,0 +1,77 @@
+"""Everything a spec needs before the first solve: mesh, spaces, operator, force and probe functionals."""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.sparse as sp
+
+from . import meshing
+from .boundary import body_dofs, channel_conditions
+from .forces import BodyForces
+from .navier_stokes import NavierStokes
+from .probes import probe_matrix
+from .spec import JobSpec
+from .taylor_hood import TaylorHood
+
+
+@dataclass
+class Case:
+    spec: JobSpec
+    mesh: meshing.ChannelMesh
+    th: TaylorHood
+    ns: NavierStokes
+    forces: BodyForces
+    coefficient_scale: dict[str, float]
+    pressure_probes: sp.csr_matrix | None
+    velocity_probes: sp.csr_matrix | None
+    timings: dict[str, float] = field(default_factory=dict)
+
+    @classmethod
+    def build(cls, spec: JobSpec) -> Case:
+        t0 = time.perf_counter()
+        cm = meshing.build(spec)
+        t1 = time.perf_counter()
+        th = TaylorHood(cm.mesh, spec.elements)
+        ns = NavierStokes(th, spec.viscosity(), channel_conditions(th, cm, spec))
+        rho, U = spec.fluid.density, spec.reference_velocity()
+        forces = BodyForces(ns, body_dofs(th, cm, spec), rho)
+        scale = {b.name: 2.0 / (rho * U**2 * spec.reference_length(i)) for i, b in enumerate(spec.bodies)}
+        dp = spec.probes.pressure_drop
+        pressure = probe_matrix(th.pressure, cm.parent, np.array(dp).T) if dp else None
+        vel = spec.probes.velocity
+        velocity = probe_matrix(th.velocity, cm.parent, np.array(vel).T) if vel else None
+        t2 = time.perf_counter()
+        return cls(spec, cm, th, ns, forces, scale, pressure, velocity, {"mesh": t1 - t0, "setup": t2 - t1})
+
+    @property
+    def cells(self) -> int:
+        return int(self.mesh.mesh.t.shape[1])
+
+    def force_row(self, t: float, x: np.ndarray, convection: np.ndarray, dudt: np.ndarray | None) -> list[float]:
+        """One forces.csv row: time, per body Fx, Fy, cD, cL, then the pressure drop."""
+        row = [t]
+        for name, (fx, fy) in self.forces.evaluate(x, convection, dudt).items():
+            c = self.coefficient_scale[name]
+            row += [fx, fy, c * fx, c * fy]
+        if self.pressure_probes is not None:
+            pa, pb = self.pressure_probes @ self.th.split(x)[2]
+            row.append(self.spec.fluid.density * float(pa - pb))
+        return row
+
+    def probe_velocities(self, x: np.ndarray) -> list[float]:
+        ux, uy, _ = self.th.split(x)
+        assert self.velocity_probes is not None
+        return list(np.ravel(np.c_[self.velocity_probes @ ux, self.velocity_probes @ uy]))
+
+    def cfl(self, x: np.ndarray, dt: float) -> float:
+        """Largest |u| dt / h over the cells, h the cell's shortest edge divided by the velocity degree."""
+        mesh = self.mesh.parent
+        p = mesh.p[:, mesh.t]
+        edges = np.linalg.norm(p - np.roll(p, 1, axis=1), axis=0).min(axis=0)
+        degree = 2 if self.spec.elements == "P2P1" else 3
+        ux, uy, _ = self.th.split(x)
+        speed = np.hypot(ux, uy)[self.th.velocity.element_dofs].max(axis=0)
+        return float((speed * dt * degree / edges).max())

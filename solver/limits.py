@@ -1,0 +1,33 @@
+"""Size limits a shared machine puts on a case, checked before anything is meshed."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from . import meshing
+from .errors import SpecError
+from .spec import JobSpec
+
+
+@dataclass(frozen=True)
+class Limits:
+    max_dofs: int = 2_000_000
+    max_steps: int = 1_000_000
+
+
+def check_limits(spec: JobSpec, limits: Limits) -> None:
+    """Raise :class:`SpecError` naming the field when ``spec`` is too big for ``limits``."""
+    problems = []
+    dofs = meshing.estimate_dofs(spec)
+    if dofs > limits.max_dofs:
+        problems.append(("mesh", f"the mesh would have about {dofs:,} unknowns, over the limit of "
+                                 f"{limits.max_dofs:,}: choose a coarser preset or larger sizes"))
+    a = spec.analysis
+    if a.mode == "transient":
+        steps = math.ceil(a.end_time / a.time_step - 1e-9)
+        if steps > limits.max_steps:
+            problems.append(("analysis.time_step", f"{steps:,} steps (end_time / time_step) exceed the limit of "
+                                                   f"{limits.max_steps:,}"))
+    if problems:
+        raise SpecError(problems)

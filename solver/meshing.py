@@ -1,0 +1,239 @@
+"""Channel meshes from a job spec: gmsh builds curved (quadratic) triangles refined at bodies and in the wake.
+
+The result is a :class:`ChannelMesh`: the scikit-fem mesh, its straight-sided
+parent (for locating points) and boundary facets by name ("inlet", "outlet",
+"walls" and one entry per body).
+"""
+
+from __future__ import annotations
+
+import math
+import threading
+from dataclasses import dataclass
+
+import numpy as np
+from skfem import MeshTri, MeshTri2
+
+from . import _polygons
+from .shapes import Circle, Ellipse, Naca4, Polygon, Rectangle
+from .spec import JobSpec
+
+# Sizes as fractions of the reference length D: (at bodies, in the wake, far field).
+PRESETS = {"coarse": (1 / 20, 1 / 3, 1 / 1.2), "medium": (1 / 40, 1 / 6, 1 / 2.4), "fine": (1 / 80, 1 / 12, 1 / 4.8)}
+
+_gmsh_lock = threading.Lock()  # gmsh keeps global state
+
+
+@dataclass
+class MeshSizes:
+    body: float
+    wake: float
+    far: float
+    wake_length: float
+
+
+@dataclass
+class ChannelMesh:
+    mesh: MeshTri2 | MeshTri
+    parent: MeshTri
+    facets: dict[str, np.ndarray]
+
+
+def sizes(spec: JobSpec) -> MeshSizes:
+    """Element sizes of a spec: preset fractions of the smallest body, overridden by explicit sizes."""
+    m, ch = spec.mesh, spec.channel
+    d = min((b.reference_length() for b in spec.bodies), default=ch.height / 4)
+    fb, fw, ff = PRESETS[m.preset]
+    far = min(m.far_size or ff * d, ch.height / 4, ch.length / 4)
+    body = min(m.body_size or fb * d, far)
+    wake = min(max(m.wake_size or fw * d, body), far)
+    wake_length = m.wake_length if m.wake_length is not None else min(ch.length, 12 * d)
+    return MeshSizes(body * m.scale, wake * m.scale, far * m.scale, wake_length)
+
+
+def estimate_cells(spec: JobSpec) -> int:
+    """Rough triangle count, used to refuse oversized meshes before meshing."""
+    s = sizes(spec)
+    ch = spec.channel
+    area = ch.length * ch.height
+    cells = 2.3 * area / s.far**2
+    for body in spec.bodies:
+        pts = body.outline()
+        extent = float(np.ptp(pts[:, 1])) + 2 * s.wake
+        perimeter = float(np.linalg.norm(np.diff(np.vstack([pts, pts[:1]]), axis=0), axis=1).sum())
+        wake_area = min(s.wake_length, ch.length) * min(extent * 2, ch.height)
+        cells += 2.3 * (wake_area / s.wake**2 + perimeter * 4 * s.body / s.body**2)
+    return int(cells)
+
+
+def estimate_dofs(spec: JobSpec) -> int:
+    """Rough count of unknowns: Taylor-Hood P2/P1 has about 4.5 per cell, P3/P2 about 9.5."""
+    return int(estimate_cells(spec) * (4.5 if spec.elements == "P2P1" else 9.5))
+
+
+def build(spec: JobSpec) -> ChannelMesh:
+    """Mesh the channel of ``spec`` with its bodies cut out."""
+    with _gmsh_lock:
+        p, t = _generate(spec, sizes(spec))
+    order2 = t.shape[0] == 6
+    vertices = np.unique(t[:3])
+    parent_index = -np.ones(p.shape[1], dtype=np.int64)
+    parent_index[vertices] = np.arange(len(vertices))
+    parent = MeshTri(np.ascontiguousarray(p[:, vertices]), np.ascontiguousarray(parent_index[t[:3]]))
+    mesh = MeshTri2(p, _sorted_quadratic(t)) if order2 else parent
+    return ChannelMesh(mesh, parent, _tag_boundaries(mesh, spec))
+
+
+def _sorted_quadratic(t: np.ndarray) -> np.ndarray:
+    """Order each cell's vertices by index, moving the edge nodes along.
+
+    Cubic elements orient their two edge DoFs by the vertex order, so
+    neighbouring cells must agree on it; scikit-fem does this for straight
+    meshes but not for quadratic ones.
+    """
+    n = t.shape[1]
+    mid = np.zeros((n, 3, 3), dtype=t.dtype)
+    for k, (i, j) in enumerate([(0, 1), (1, 2), (2, 0)]):
+        mid[:, i, j] = mid[:, j, i] = t[3 + k]
+    perm = np.argsort(t[:3], axis=0)
+    cols = np.arange(n)
+    out = np.empty_like(t)
+    out[:3] = t[perm, cols]
+    for k, (i, j) in enumerate([(0, 1), (1, 2), (2, 0)]):
+        out[3 + k] = mid[cols, perm[i], perm[j]]
+    return out
+
+
+def _generate(spec: JobSpec, s: MeshSizes) -> tuple[np.ndarray, np.ndarray]:
+    import gmsh
+
+    gmsh.initialize(interruptible=False)
+    try:
+        gmsh.option.setNumber("General.Terminal", 0)
+        gmsh.option.setNumber("General.NumThreads", 1)
+        gmsh.model.add("channel")
+        occ = gmsh.model.occ
+        ch = spec.channel
+        box = occ.addRectangle(0, 0, 0, ch.length, ch.height)
+        holes = [(2, _add_body(occ, body, s.body)) for body in spec.bodies]
+        if holes:
+            occ.cut([(2, box)], holes)
+        occ.synchronize()
+        _size_fields(gmsh, spec, s)
+        for name, value in [("Mesh.MeshSizeExtendFromBoundary", 0), ("Mesh.MeshSizeFromPoints", 0),
+                            ("Mesh.MeshSizeFromCurvature", 0), ("Mesh.Algorithm", 6),
+                            ("Mesh.HighOrderOptimize", 0)]:
+            gmsh.option.setNumber(name, value)
+        gmsh.model.mesh.generate(2)
+        if spec.mesh.curved:
+            gmsh.model.mesh.setOrder(2)
+        tags, xyz, _ = gmsh.model.mesh.getNodes()
+        etypes, _, enodes = gmsh.model.mesh.getElements(2)
+    finally:
+        gmsh.finalize()
+    nper = 6 if spec.mesh.curved else 3
+    index = np.empty(int(tags.max()) + 1, dtype=np.int64)
+    index[tags.astype(np.int64)] = np.arange(len(tags))
+    t = index[np.concatenate(enodes).astype(np.int64)].reshape(-1, nper).T
+    used = np.unique(t)
+    remap = -np.ones(len(tags), dtype=np.int64)
+    remap[used] = np.arange(len(used))
+    return np.ascontiguousarray(xyz.reshape(-1, 3)[used, :2].T), np.ascontiguousarray(remap[t])
+
+
+def _add_body(occ, body, h: float) -> int:
+    """Add one body as an OCC surface and return its tag; curves stay exact for curved cells."""
+    if isinstance(body, Circle):
+        return occ.addDisk(*body.center, 0, body.radius, body.radius)
+    if isinstance(body, Ellipse):
+        a, b = body.width / 2, body.height / 2
+        tag = occ.addDisk(*body.center, 0, max(a, b), min(a, b))
+        angle = body.angle + (0 if a >= b else 90)
+        occ.rotate([(2, tag)], *body.center, 0, 0, 0, 1, math.radians(angle))
+        return tag
+    if isinstance(body, Rectangle):
+        w, hh = body.width, body.height
+        r = min(body.corner_radius, 0.499 * min(w, hh))
+        tag = occ.addRectangle(body.center[0] - w / 2, body.center[1] - hh / 2, 0, w, hh, roundedRadius=r)
+        occ.rotate([(2, tag)], *body.center, 0, 0, 0, 1, math.radians(body.angle))
+        return tag
+    if isinstance(body, Naca4):
+        pts = body.surface(max(64, 2 * int(_perimeter(body.outline()) / h)))
+        tags = [occ.addPoint(x, y, 0) for x, y in pts]
+        curve = occ.addSpline(tags + [tags[0]])
+        return occ.addPlaneSurface([occ.addCurveLoop([curve])])
+    if isinstance(body, Polygon):
+        pts = body.outline()
+        tags = [occ.addPoint(x, y, 0) for x, y in pts]
+        lines = [occ.addLine(tags[i], tags[(i + 1) % len(tags)]) for i in range(len(tags))]
+        return occ.addPlaneSurface([occ.addCurveLoop(lines)])
+    raise TypeError(f"unknown body shape {body!r}")
+
+
+def _perimeter(pts: np.ndarray) -> float:
+    return float(np.linalg.norm(np.diff(np.vstack([pts, pts[:1]]), axis=0), axis=1).sum())
+
+
+def _size_fields(gmsh, spec: JobSpec, s: MeshSizes) -> None:
+    field = gmsh.model.mesh.field
+    ch = spec.channel
+    fields = []
+    if spec.bodies:
+        outer = {tag for _, tag in gmsh.model.getBoundary([(2, t) for _, t in gmsh.model.getEntities(2)],
+                                                          oriented=False)}
+        body_curves = []
+        for tag in outer:
+            xmin, ymin, _, xmax, ymax, _ = gmsh.model.getBoundingBox(1, tag)
+            tol = 1e-5 * min(ch.length, ch.height)
+            on_side = xmax < tol or xmin > ch.length - tol or ymax < tol or ymin > ch.height - tol
+            if not on_side:
+                body_curves.append(tag)
+        dist = field.add("Distance")
+        field.setNumbers(dist, "CurvesList", body_curves)
+        field.setNumber(dist, "Sampling", 400)
+        near = field.add("Threshold")
+        field.setNumber(near, "InField", dist)
+        field.setNumber(near, "SizeMin", s.body)
+        field.setNumber(near, "SizeMax", s.far)
+        field.setNumber(near, "DistMin", 0.5 * s.body)
+        field.setNumber(near, "DistMax", 0.5 * s.body + 8 * (s.far - s.body))
+        fields.append(near)
+        outlines = np.vstack([b.outline() for b in spec.bodies])
+        (x0, y0), (x1, y1) = outlines.min(axis=0), outlines.max(axis=0)
+        spread = 0.5 * (y1 - y0) + s.wake
+        box = field.add("Box")
+        field.setNumber(box, "VIn", s.wake)
+        field.setNumber(box, "VOut", s.far)
+        field.setNumber(box, "XMin", max(0.0, x0 - 2 * s.wake))
+        field.setNumber(box, "XMax", min(ch.length, x1 + s.wake_length))
+        field.setNumber(box, "YMin", max(0.0, y0 - spread))
+        field.setNumber(box, "YMax", min(ch.height, y1 + spread))
+        field.setNumber(box, "Thickness", 4 * s.wake)
+        fields.append(box)
+    const = field.add("MathEval")
+    field.setString(const, "F", repr(s.far))
+    fields.append(const)
+    smallest = field.add("Min")
+    field.setNumbers(smallest, "FieldsList", fields)
+    field.setAsBackgroundMesh(smallest)
+
+
+def _tag_boundaries(mesh: MeshTri, spec: JobSpec) -> dict[str, np.ndarray]:
+    """Name boundary facets by where their midpoints lie; body facets go to the nearest body."""
+    ch = spec.channel
+    facets = mesh.boundary_facets()
+    mid = mesh.p[:, mesh.facets[:, facets]].mean(axis=1)
+    tol = 1e-8 * max(ch.length, ch.height)
+    inlet = np.abs(mid[0]) < tol
+    outlet = np.abs(mid[0] - ch.length) < tol
+    walls = ~inlet & ~outlet & ((np.abs(mid[1]) < tol) | (np.abs(mid[1] - ch.height) < tol))
+    tagged = {"inlet": facets[inlet], "outlet": facets[outlet], "walls": facets[walls]}
+    rest = ~(inlet | outlet | walls)
+    if spec.bodies:
+        dist = np.array([_polygons.distance(b.outline(512), mid[:, rest].T) for b in spec.bodies])
+        owner = dist.argmin(axis=0)
+        for i, body in enumerate(spec.bodies):
+            tagged[body.name] = facets[rest][owner == i]
+    elif rest.any():
+        raise RuntimeError("the mesh has boundary facets that belong to no side and no body")
+    return tagged

@@ -1,0 +1,115 @@
+"""Result files: forces.csv, summary.json, status.json, field snapshots (npz, VTU + PVD).
+
+Every file is written to a temporary name and renamed, so a reader never sees
+half a file and a killed run leaves the last complete version behind.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import os
+from pathlib import Path
+from typing import Any
+
+import meshio
+import numpy as np
+import scipy.sparse as sp
+
+from .taylor_hood import TaylorHood
+
+
+def write_atomic(path: Path, data: bytes | str) -> None:
+    tmp = path.with_name(f".{path.name}.tmp")
+    tmp.write_bytes(data.encode() if isinstance(data, str) else data)
+    os.replace(tmp, path)
+
+
+def write_json(path: Path, obj: Any) -> None:
+    write_atomic(path, json.dumps(obj, indent=2, allow_nan=False, default=_plain) + "\n")
+
+
+def _plain(value: Any) -> Any:
+    if isinstance(value, np.generic):
+        return value.item()
+    raise TypeError(f"cannot write {type(value).__name__} to JSON")
+
+
+def force_columns(body_names: list[str], pressure_drop: bool) -> list[str]:
+    cols = ["time"]
+    for name in body_names:
+        cols += [f"{name}_fx", f"{name}_fy", f"{name}_cd", f"{name}_cl"]
+    return cols + (["pressure_drop"] if pressure_drop else [])
+
+
+def write_forces(path: Path, columns: list[str], rows: list[list[float]]) -> None:
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow(columns)
+    writer.writerows([[f"{v:.12g}" for v in row] for row in rows])
+    write_atomic(path, buf.getvalue())
+
+
+def read_forces(path: Path) -> tuple[list[str], np.ndarray]:
+    with open(path) as f:
+        columns = f.readline().strip().split(",")
+    data = np.loadtxt(path, delimiter=",", skiprows=1, ndmin=2)
+    return columns, data.reshape(-1, len(columns))
+
+
+class Snapshots:
+    """Field snapshots: compact npz for pictures and resumption, VTU with a PVD time index for ParaView."""
+
+    def __init__(self, out: Path, th: TaylorHood, density: float):
+        self.dir = out / "fields"
+        self.dir.mkdir(parents=True, exist_ok=True)
+        self.th = th
+        basis = th.velocity
+        self.points = np.c_[basis.doflocs.T, np.zeros(th.nu)]
+        dofs = basis.element_dofs
+        self.cells = [("triangle6", dofs[:6].T)] if th.elements == "P2P1" else [("triangle", dofs[:3].T)]
+        self.pressure_to_velocity = density * _pressure_on_velocity_nodes(th)
+        # a resumed run keeps the snapshots written before its checkpoint
+        self.index = sorted((float(np.load(f)["time"]), f.stem) for f in self.dir.glob("step_*.npz"))
+
+    def save(self, k: int, t: float, x: np.ndarray) -> dict[str, np.ndarray]:
+        th = self.th
+        ux, uy, p = th.split(x)
+        fields = {"ux": ux, "uy": uy, "pressure": self.pressure_to_velocity @ p, "vorticity": th.vorticity(ux, uy)}
+        stem = f"step_{k:06d}"
+        np.savez_compressed(self.dir / f"{stem}.npz", time=t, **fields)
+        mesh = meshio.Mesh(self.points, self.cells, point_data={
+            "velocity": np.c_[ux, uy, np.zeros_like(ux)], "pressure": fields["pressure"],
+            "vorticity": fields["vorticity"], "speed": np.hypot(ux, uy)})
+        tmp = self.dir / f".{stem}.vtu"
+        meshio.write(tmp, mesh, file_format="vtu", binary=True)
+        os.replace(tmp, self.dir / f"{stem}.vtu")
+        self.index = [(tt, s) for tt, s in self.index if tt < t - 1e-12] + [(t, stem)]
+        self._write_pvd()
+        return fields
+
+    def _write_pvd(self) -> None:
+        items = "\n".join(f'    <DataSet timestep="{t:.10g}" file="{s}.vtu"/>' for t, s in self.index)
+        write_atomic(self.dir / "flow.pvd", '<?xml version="1.0"?>\n<VTKFile type="Collection" version="0.1">\n'
+                     f"  <Collection>\n{items}\n  </Collection>\n</VTKFile>\n")
+
+
+def _pressure_on_velocity_nodes(th: TaylorHood) -> sp.csr_matrix:
+    """Matrix that evaluates the pressure at the velocity nodes (files share one set of points)."""
+    vb, pb = th.velocity, th.pressure
+    rows, cols, vals = [], [], []
+    # evaluate every pressure basis function at the velocity element's reference nodes
+    refs = vb.elem.doflocs.T
+    for k in range(pb.Nbfun):
+        phi = pb.elem.lbasis(refs, k)[0]
+        for j in range(vb.Nbfun):
+            rows.append(vb.element_dofs[j])
+            cols.append(pb.element_dofs[k])
+            vals.append(np.full(vb.element_dofs.shape[1], phi[j]))
+    rows, cols, vals = map(np.concatenate, (rows, cols, vals))
+    keep = np.abs(vals) > 1e-14
+    m = sp.coo_matrix((vals[keep], (rows[keep], cols[keep])), shape=(vb.N, pb.N)).tocsr()
+    # shared nodes were summed once per cell: divide by the number of cells that wrote each node
+    counts = np.bincount(vb.element_dofs.ravel(), minlength=vb.N)
+    return sp.diags(1.0 / counts) @ m

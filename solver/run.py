@@ -1,0 +1,288 @@
+"""Run one case to completion and write its result files: the entry point the CLI and the worker share."""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import time
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from . import analysis, output, pictures
+from .case import Case
+from .errors import Cancelled, Diverged, WallTimeExceeded
+from .spec import JobSpec, load
+from .steady import solve_steady
+from .transient import Stepper
+
+MAX_PICTURES = 12
+
+
+@dataclass
+class Progress:
+    step: int
+    total_steps: int
+    time: float
+    end_time: float
+    message: str = ""
+
+    @property
+    def fraction(self) -> float:
+        return min(self.step / self.total_steps, 1.0) if self.total_steps else 0.0
+
+
+ProgressCallback = Callable[[Progress], None]
+
+
+def run(spec: JobSpec | dict[str, Any], out: str | Path, *, progress: ProgressCallback | None = None,
+        should_stop: Callable[[], bool] | None = None, wall_time_limit: float | None = None,
+        resume: bool = True) -> dict[str, Any]:
+    """Compute ``spec`` and write forces.csv, summary.json, fields/ and pictures to ``out``.
+
+    ``should_stop`` is polled between steps (cancellation); a transient run
+    checkpoints every ``analysis.checkpoint_interval`` steps and, with
+    ``resume``, continues from the last checkpoint in ``out``. status.json
+    always tells how the run ended. Returns the summary.
+
+    Raises
+    ------
+    SpecError
+        Invalid spec (nothing is written).
+    RunFailed
+        Diverged, WallTimeExceeded or Cancelled; partial results stay in ``out``.
+    """
+    spec = load(spec)
+    out = Path(out)
+    out.mkdir(parents=True, exist_ok=True)
+    started = time.perf_counter()
+    deadline = started + wall_time_limit if wall_time_limit else math.inf
+    output.write_json(out / "status.json", {"state": "running"})
+    output.write_atomic(out / "spec.json", spec.model_dump_json(indent=2))
+    try:
+        case = Case.build(spec)
+        if spec.analysis.mode == "steady":
+            summary = _steady(case, out, progress)
+        else:
+            summary = _Transient(case, out, progress, should_stop, deadline, resume).run()
+        summary["wall_time_seconds"] = time.perf_counter() - started
+        output.write_json(out / "summary.json", summary)
+        output.write_json(out / "status.json", {"state": "succeeded"})
+        return summary
+    except Cancelled as err:
+        output.write_json(out / "status.json", {"state": "cancelled", "message": str(err)})
+        raise
+    except Exception as err:
+        output.write_json(out / "status.json", {"state": "failed", "message": str(err) or type(err).__name__})
+        raise
+
+
+def _common_summary(case: Case) -> dict[str, Any]:
+    spec = case.spec
+    return {"title": spec.title, "mode": spec.analysis.mode, "elements": spec.elements,
+            "reynolds_number": spec.reynolds(), "reference": {
+                "velocity": spec.reference_velocity(),
+                "lengths": {b.name: spec.reference_length(i) for i, b in enumerate(spec.bodies)}},
+            "mesh": {"cells": case.cells, "dofs": case.th.ndofs}, "timings": dict(case.timings)}
+
+
+def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[str, Any]:
+    spec = case.spec
+    t0 = time.perf_counter()
+
+    def report(k: int, update: float) -> None:
+        if progress:
+            progress(Progress(k, spec.analysis.max_newton_iterations, 0.0, 0.0,
+                              f"Newton iteration {k}: relative update {update:.2e}"))
+
+    x, newton = solve_steady(case.ns, spec.analysis.newton_tolerance, spec.analysis.max_newton_iterations, report)
+    solve = time.perf_counter() - t0
+    row = case.force_row(0.0, x, case.ns.convection(x), None)
+    columns = output.force_columns([b.name for b in spec.bodies], case.pressure_probes is not None)
+    output.write_forces(out / "forces.csv", columns, [row])
+    summary = _common_summary(case)
+    summary["bodies"] = [{"name": b.name, "fx": row[1 + 4 * i], "fy": row[2 + 4 * i],
+                          "drag_coefficient": row[3 + 4 * i], "lift_coefficient": row[4 + 4 * i],
+                          "recirculation_length": _recirculation_length(case, x, i)}
+                         for i, b in enumerate(spec.bodies)]
+    summary["pressure_drop"] = row[-1] if case.pressure_probes is not None else None
+    if case.velocity_probes is not None:
+        summary["velocity_probes"] = np.reshape(case.probe_velocities(x), (-1, 2)).tolist()
+    summary["newton"] = {"iterations": newton.iterations, "residual": newton.residual,
+                         "continuation": newton.continuation_steps}
+    t1 = time.perf_counter()
+    output.Snapshots(out, case.th, spec.fluid.density).save(0, 0.0, x)
+    _pictures(case, out, [0])
+    summary["timings"].update({"solve": solve, "output": time.perf_counter() - t1})
+    return summary
+
+
+def _recirculation_length(case: Case, x: np.ndarray, body: int) -> float:
+    """Length of the reversed-flow zone behind a body along its centre line (0 when there is none)."""
+    from .probes import probe_matrix
+
+    b = case.spec.bodies[body]
+    pts = b.outline()
+    x_back, y_c = float(pts[:, 0].max()), float(b.reference_point()[1])
+    xs = np.linspace(x_back, case.spec.channel.length, 2000)[1:]
+    ux = probe_matrix(case.th.velocity, case.mesh.parent, np.vstack([xs, np.full_like(xs, y_c)])) @ case.th.split(x)[0]
+    if ux[0] >= 0:
+        return 0.0
+    i = int(np.argmax(ux >= 0))
+    if ux[i] < 0:
+        return float(xs[-1] - x_back)
+    x_r = xs[i - 1] - ux[i - 1] * (xs[i] - xs[i - 1]) / (ux[i] - ux[i - 1])
+    return float(x_r - x_back)
+
+
+def _pictures(case: Case, out: Path, steps: list[int]) -> None:
+    """Field pictures of up to MAX_PICTURES saved snapshots, one colour scale for the whole run."""
+    steps = sorted(set(steps))
+    pick = np.unique(np.linspace(0, len(steps) - 1, min(MAX_PICTURES, len(steps))).round().astype(int))
+    loaded = [np.load(out / "fields" / f"step_{steps[i]:06d}.npz") for i in pick]
+    fields = [{k: f[k] for k in ("ux", "uy", "pressure", "vorticity")} for f in loaded]
+    limits = pictures.color_limits(fields)
+    tri = pictures.triangulation(case.th.velocity.doflocs, case.th.velocity.element_dofs)
+    folder = out / "pictures"
+    folder.mkdir(exist_ok=True)
+    transient = case.spec.analysis.mode == "transient"
+    for i, f, raw in zip(pick, fields, loaded):
+        t = float(raw["time"]) if transient else None
+        for name in pictures.FIELDS:
+            pictures.field_picture(folder / f"{name}_{steps[i]:06d}.png", case.spec, tri, f, name, limits[name], t)
+
+
+class _Transient:
+    """The time loop with outputs, checkpoints, cancellation and the periodic-state stop."""
+
+    def __init__(self, case: Case, out: Path, progress: ProgressCallback | None,
+                 should_stop: Callable[[], bool] | None, deadline: float, resume: bool):
+        self.case, self.out, self.progress, self.should_stop = case, out, progress, should_stop
+        self.deadline, self.resume = deadline, resume
+        a = case.spec.analysis
+        self.dt = a.time_step
+        self.total = int(math.ceil(a.end_time / a.time_step - 1e-9))
+        interval = a.output_interval or a.end_time / 20
+        self.output_every = max(1, int(round(interval / self.dt)))
+        self.columns = output.force_columns([b.name for b in case.spec.bodies], case.pressure_probes is not None)
+        self.rows: list[list[float]] = []
+        self.snapshots: list[int] = []
+        self.fingerprint = hashlib.sha256(case.spec.model_dump_json().encode()).hexdigest()
+
+    def run(self) -> dict[str, Any]:
+        case, a = self.case, self.case.spec.analysis
+        t_solve = time.perf_counter()
+        stepper = self._start()
+        snaps = output.Snapshots(self.out, case.th, case.spec.fluid.density)
+        if stepper.n == 0:
+            snaps.save(0, 0.0, stepper.x)
+            self.snapshots = [0]
+        ended_by = "end_time"
+        last_report = 0.0
+        max_cfl = 0.0
+        try:
+            while stepper.n < self.total:
+                if self.should_stop and self.should_stop():
+                    raise Cancelled(f"cancelled at t = {stepper.t:.6g} s (step {stepper.n})")
+                if time.perf_counter() > self.deadline:
+                    raise WallTimeExceeded(f"wall-time limit reached at t = {stepper.t:.6g} s (step {stepper.n})")
+                result = stepper.step()
+                row = case.force_row(stepper.t, result.x, result.convection, result.dudt)
+                if not np.all(np.isfinite(row)) or not np.isfinite(result.x).all() or self._blown_up(result.x):
+                    self._diverged(stepper)
+                self.rows.append(row)
+                if stepper.n % self.output_every == 0 or stepper.n == self.total:
+                    snaps.save(stepper.n, stepper.t, result.x)
+                    self.snapshots.append(stepper.n)
+                    max_cfl = max(max_cfl, case.cfl(result.x, self.dt))
+                if stepper.n % a.checkpoint_interval == 0:
+                    self._checkpoint(stepper)
+                if a.until_periodic and stepper.n % 20 == 0 and self._periodic():
+                    ended_by = "periodic"
+                    snaps.save(stepper.n, stepper.t, result.x)
+                    self.snapshots.append(stepper.n)
+                    break
+                now = time.perf_counter()
+                if self.progress and now - last_report > 0.5:
+                    last_report = now
+                    self.progress(Progress(stepper.n, self.total, stepper.t, a.end_time))
+        finally:
+            if self.rows:
+                output.write_forces(self.out / "forces.csv", self.columns, self.rows)
+        solve = time.perf_counter() - t_solve
+        t_out = time.perf_counter()
+        data = np.array(self.rows)
+        pictures.force_plot(self.out / "forces.png", self.columns, data, [b.name for b in case.spec.bodies])
+        _pictures(case, self.out, self.snapshots)
+        summary = _common_summary(case)
+        summary.update(self._statistics(data))
+        summary.update({"ended_by": ended_by, "steps": stepper.n, "time_step": self.dt, "scheme": a.scheme,
+                        "simulated_time": stepper.t, "max_cfl": max_cfl,
+                        "factorisations": stepper.factorisations})
+        summary["timings"].update({"solve": solve, "seconds_per_step": solve / max(stepper.n, 1),
+                                   "output": time.perf_counter() - t_out})
+        (self.out / "checkpoint.npz").unlink(missing_ok=True)
+        return summary
+
+    def _start(self) -> Stepper:
+        case, a = self.case, self.case.spec.analysis
+        path = self.out / "checkpoint.npz"
+        if self.resume and path.exists():
+            ck = np.load(path, allow_pickle=False)
+            if str(ck["fingerprint"]) == self.fingerprint:
+                self.rows = ck["rows"].tolist()
+                self.snapshots = ck["snapshots"].tolist()
+                return Stepper(case.ns, a.scheme, self.dt, ck["x"], float(ck["t"]), ck["x_old"], int(ck["step"]))
+        return Stepper(case.ns, a.scheme, self.dt, case.ns.stokes(0.0))
+
+    def _checkpoint(self, stepper: Stepper) -> None:
+        tmp = self.out / ".checkpoint.npz"
+        with open(tmp, "wb") as f:
+            np.savez(f, x=stepper.x, x_old=stepper.x_old, t=stepper.t, step=stepper.n,
+                     rows=np.array(self.rows), snapshots=np.array(self.snapshots, dtype=int),
+                     fingerprint=self.fingerprint)
+        tmp.replace(self.out / "checkpoint.npz")
+        output.write_forces(self.out / "forces.csv", self.columns, self.rows)
+
+    def _blown_up(self, x: np.ndarray) -> bool:
+        ux, uy, _ = self.case.th.split(x)
+        limit = 100 * max(self.case.spec.inflow.peak() * self.case.spec.inflow.time_law.nominal(), 1e-12)
+        return bool(np.abs(ux).max() > limit or np.abs(uy).max() > limit)
+
+    def _diverged(self, stepper: Stepper) -> None:
+        cfl = self.case.cfl(stepper.x_old, self.dt)
+        suggestion = self.dt * min(0.5, 0.4 / cfl) if cfl > 0 else self.dt / 2
+        raise Diverged(f"the solution blew up at t = {stepper.t:.6g} s (step {stepper.n}) with scheme "
+                       f"{stepper.scheme}; CFL number before the blow-up about {cfl:.2f}; "
+                       f"try analysis.time_step = {suggestion:.3g} or the bdf2-implicit scheme")
+
+    def _periodic(self) -> bool:
+        up = self.case.spec.analysis.until_periodic
+        if not self.case.spec.bodies or up is None:
+            return False
+        data = np.array(self.rows)
+        return analysis.is_periodic(data[:, 0], data[:, 4], up.cycles, up.tolerance)
+
+    def _statistics(self, data: np.ndarray) -> dict[str, Any]:
+        spec = self.case.spec
+        t = data[:, 0]
+        lift_ref = data[:, 4] if spec.bodies else t * 0
+        cycles = analysis.find_cycles(t, lift_ref)
+        window = analysis.analysis_window(t, cycles)
+        bodies = []
+        for i, b in enumerate(spec.bodies):
+            st = analysis.strouhal(t, data[:, 4 + 4 * i], spec.reference_length(i), spec.reference_velocity())
+            bodies.append({"name": b.name,
+                           "drag_coefficient": analysis.window_stats(data[window, 3 + 4 * i]),
+                           "lift_coefficient": analysis.window_stats(data[window, 4 + 4 * i]),
+                           "strouhal_number": st["strouhal_number"]})
+        shedding = analysis.strouhal(t, lift_ref, spec.reference_length(0), spec.reference_velocity()) \
+            if spec.bodies else {"strouhal_number": None}
+        pdrop = analysis.window_stats(data[window, -1]) if self.case.pressure_probes is not None else None
+        return {"bodies": bodies, "strouhal_number": shedding["strouhal_number"], "shedding": shedding,
+                "pressure_drop": pdrop,
+                "window": {"start": float(t[window][0]), "end": float(t[window][-1]),
+                           "whole_cycles": int(min(cycles.count, 5))}}

@@ -1,0 +1,284 @@
+"""The job spec: one pydantic model shared by the solver, the API, the worker and the page.
+
+``load`` turns untrusted JSON into a checked :class:`JobSpec` or raises
+:class:`~solver.errors.SpecError` naming every bad field.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Literal
+
+import numpy as np
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+
+from . import _polygons
+from .errors import SpecError
+from .shapes import Body, Point
+
+_Positive = Field(gt=0, allow_inf_nan=False)
+
+
+class _Model(BaseModel):
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+
+
+class Channel(_Model):
+    """The flow box: inflow at x=0, outflow at x=length, walls at y=0 and y=height."""
+
+    length: float = Field(2.2, gt=0, le=1e4)
+    height: float = Field(0.41, gt=0, le=1e4)
+    walls: Literal["no-slip", "slip"] = "no-slip"
+
+
+class Reference(_Model):
+    """Scales for the Reynolds number and the coefficients (defaults: mean inflow, body size)."""
+
+    velocity: float | None = Field(None, gt=0)
+    length: float | None = Field(None, gt=0)
+
+
+class Fluid(_Model):
+    """Either density and kinematic viscosity, or a Reynolds number on the reference scales."""
+
+    density: float = Field(1.0, gt=0)
+    viscosity: float | None = Field(None, gt=0, description="kinematic viscosity, m^2/s")
+    reynolds: float | None = Field(None, gt=0, le=1e5)
+    reference: Reference = Reference()
+
+    @model_validator(mode="after")
+    def _one_of(self) -> Fluid:
+        if self.viscosity is not None and self.reynolds is not None:
+            raise ValueError("give either viscosity or reynolds, not both")
+        if self.viscosity is None and self.reynolds is None:
+            self.viscosity = 1e-3
+        return self
+
+
+class TimeLaw(_Model):
+    """Factor on the inflow over time: constant, mean + amplitude*sin(2*pi*t/period), or a table."""
+
+    kind: Literal["constant", "sine", "table"] = "constant"
+    period: float | None = Field(None, gt=0)
+    amplitude: float = 1.0
+    mean: float = 0.0
+    points: list[tuple[float, float]] | None = Field(None, min_length=2, max_length=10000)
+
+    @model_validator(mode="after")
+    def _complete(self) -> TimeLaw:
+        if self.kind == "sine" and self.period is None:
+            raise ValueError("a sine time law needs a period")
+        if self.kind == "table":
+            if not self.points:
+                raise ValueError("a table time law needs points [[t, factor], ...]")
+            if np.any(np.diff([t for t, _ in self.points]) <= 0):
+                raise ValueError("table times must increase")
+        return self
+
+    def factor(self, t: float) -> float:
+        if self.kind == "sine":
+            return self.mean + self.amplitude * math.sin(2 * math.pi * t / self.period)  # type: ignore[operator]
+        if self.kind == "table":
+            ts, fs = zip(*self.points)  # type: ignore[misc]
+            return float(np.interp(t, ts, fs))
+        return 1.0
+
+    def nominal(self) -> float:
+        """The factor's size that scales coefficients (never its instantaneous value)."""
+        if self.kind == "sine":
+            return abs(self.mean) + abs(self.amplitude)
+        if self.kind == "table":
+            return max(abs(f) for _, f in self.points)  # type: ignore[union-attr]
+        return 1.0
+
+
+class Inflow(_Model):
+    """Velocity profile at x=0; give the peak or the mean velocity."""
+
+    profile: Literal["parabolic", "uniform"] = "parabolic"
+    peak_velocity: float | None = Field(None, gt=0, le=1e4)
+    mean_velocity: float | None = Field(None, gt=0, le=1e4)
+    ramp_time: float = Field(0.0, ge=0)
+    time_law: TimeLaw = TimeLaw()
+
+    @model_validator(mode="after")
+    def _one_of(self) -> Inflow:
+        if self.peak_velocity is not None and self.mean_velocity is not None:
+            raise ValueError("give either peak_velocity or mean_velocity, not both")
+        if self.peak_velocity is None and self.mean_velocity is None:
+            self.peak_velocity = 0.3
+        return self
+
+    def peak(self) -> float:
+        if self.peak_velocity is not None:
+            return self.peak_velocity
+        return self.mean_velocity * (1.5 if self.profile == "parabolic" else 1.0)  # type: ignore[operator]
+
+    def mean(self) -> float:
+        return self.peak() * (2 / 3 if self.profile == "parabolic" else 1.0)
+
+    def factor(self, t: float) -> float:
+        """Time factor: smooth ramp from rest times the time law."""
+        ramp = 1.0
+        if self.ramp_time > 0 and t < self.ramp_time:
+            ramp = 0.5 * (1 - math.cos(math.pi * t / self.ramp_time))
+        return ramp * self.time_law.factor(t)
+
+
+class MeshSettings(_Model):
+    """Mesh density: a preset, optional explicit sizes (metres) and a global scale factor."""
+
+    preset: Literal["coarse", "medium", "fine"] = "medium"
+    body_size: float | None = Field(None, gt=0)
+    wake_size: float | None = Field(None, gt=0)
+    far_size: float | None = Field(None, gt=0)
+    wake_length: float | None = Field(None, ge=0, description="length of the refined wake behind the bodies")
+    scale: float = Field(1.0, gt=0.05, le=20, description="multiplies every size (mesh studies)")
+    curved: bool = True
+
+
+class UntilPeriodic(_Model):
+    """Stop a transient run once the lift signal repeats itself."""
+
+    cycles: int = Field(3, ge=2, le=50)
+    tolerance: float = Field(0.01, gt=0, le=0.5)
+
+
+class Analysis(_Model):
+    mode: Literal["steady", "transient"] = "steady"
+    scheme: Literal["euler-imex", "bdf2-imex", "bdf2-implicit"] = "bdf2-imex"
+    time_step: float = Field(1e-3, gt=0)
+    end_time: float = Field(1.0, gt=0)
+    output_interval: float | None = Field(None, gt=0, description="simulated time between field snapshots")
+    checkpoint_interval: int = Field(200, ge=1, description="steps between checkpoints")
+    until_periodic: UntilPeriodic | None = None
+    newton_tolerance: float = Field(1e-10, gt=0, lt=1)
+    max_newton_iterations: int = Field(30, ge=1, le=200)
+
+
+class Probes(_Model):
+    pressure_drop: tuple[Point, Point] | None = None
+    velocity: list[Point] = Field(default_factory=list, max_length=50)
+
+
+class JobSpec(_Model):
+    """A complete 2D flow case. Every field has a default, so ``{}`` is an empty channel."""
+
+    title: str = Field("", max_length=200)
+    channel: Channel = Channel()
+    bodies: list[Body] = Field(default_factory=list, max_length=20)
+    fluid: Fluid = Fluid()
+    inflow: Inflow = Inflow()
+    mesh: MeshSettings = MeshSettings()
+    elements: Literal["P2P1", "P3P2"] = "P2P1"
+    analysis: Analysis = Analysis()
+    probes: Probes = Probes()
+
+    @model_validator(mode="after")
+    def _name_bodies(self) -> JobSpec:
+        for i, body in enumerate(self.bodies):
+            if not body.name:
+                body.name = f"body{i + 1}"
+        return self
+
+    def nominal_velocity(self) -> float:
+        """Mean inflow velocity scaled by the time law's nominal factor."""
+        return self.inflow.mean() * self.inflow.time_law.nominal()
+
+    def reference_velocity(self) -> float:
+        return self.fluid.reference.velocity or self.nominal_velocity()
+
+    def reference_length(self, body: int = 0) -> float:
+        if self.fluid.reference.length:
+            return self.fluid.reference.length
+        if self.bodies:
+            return self.bodies[body].reference_length()
+        return self.channel.height
+
+    def viscosity(self) -> float:
+        """Kinematic viscosity in m^2/s."""
+        if self.fluid.reynolds is not None:
+            return self.reference_velocity() * self.reference_length() / self.fluid.reynolds
+        return self.fluid.viscosity  # type: ignore[return-value]
+
+    def reynolds(self) -> float:
+        return self.reference_velocity() * self.reference_length() / self.viscosity()
+
+
+def _check_geometry(spec: JobSpec) -> list[tuple[str, str]]:
+    """Cross-field rules pydantic cannot express on one field."""
+    problems: list[tuple[str, str]] = []
+    L, H = spec.channel.length, spec.channel.height
+    outlines = [b.outline() for b in spec.bodies]
+    for i, (body, pts) in enumerate(zip(spec.bodies, outlines)):
+        where = f"bodies.{i}"
+        x0, y0 = pts.min(axis=0)
+        x1, y1 = pts.max(axis=0)
+        if x0 <= 0 or y0 <= 0 or x1 >= L or y1 >= H:
+            problems.append((where, f"{body.name} spans x {x0:.4g}..{x1:.4g}, y {y0:.4g}..{y1:.4g}, "
+                                    f"which is not strictly inside the channel 0..{L:g} x 0..{H:g}"))
+        elif min(x0, y0, L - x1, H - y1) < 1e-3 * H:
+            problems.append((where, f"{body.name} is closer than {1e-3 * H:.3g} to the channel boundary"))
+        if body.shape == "polygon" and not _polygons.is_simple(pts):
+            problems.append((f"{where}.points", "the polygon's edges cross each other"))
+        for j in range(i):
+            if _polygons.overlap(outlines[j], pts, gap=1e-3 * H):
+                problems.append((where, f"{body.name} overlaps or touches {spec.bodies[j].name}"))
+    names = [b.name for b in spec.bodies]
+    for i, name in enumerate(names):
+        if name in names[:i]:
+            problems.append((f"bodies.{i}.name", f"name {name!r} is used twice"))
+    probe_points = {}
+    if spec.probes.pressure_drop:
+        probe_points.update({f"probes.pressure_drop.{k}": p for k, p in enumerate(spec.probes.pressure_drop)})
+    probe_points.update({f"probes.velocity.{k}": p for k, p in enumerate(spec.probes.velocity)})
+    for where, (x, y) in probe_points.items():
+        if not (0 <= x <= L and 0 <= y <= H):
+            problems.append((where, f"point ({x:g}, {y:g}) is outside the channel 0..{L:g} x 0..{H:g}"))
+        for body, pts in zip(spec.bodies, outlines):
+            point = np.array([[x, y]])
+            if _polygons.contains(pts, point)[0] and _polygons.distance(pts, point)[0] > 1e-6 * H:
+                problems.append((where, f"point ({x:g}, {y:g}) lies inside body {body.name}"))
+    a = spec.analysis
+    if a.mode == "transient" and a.end_time < a.time_step:
+        problems.append(("analysis.end_time", f"end time {a.end_time:g} is shorter than one time step {a.time_step:g}"))
+    if spec.fluid.reynolds is not None and not spec.bodies and spec.fluid.reference.length is None:
+        problems.append(("fluid.reference.length", "a Reynolds number without bodies needs a reference length"))
+    return problems
+
+
+def load(data: dict[str, Any] | JobSpec) -> JobSpec:
+    """Validate untrusted data into a :class:`JobSpec`.
+
+    Raises
+    ------
+    SpecError
+        With one ``(field path, message)`` per problem, e.g. ``("bodies.0.radius", ...)``.
+
+    Examples
+    --------
+    >>> load({"bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": 0.05}]}).reynolds()
+    20.0
+    """
+    try:
+        spec = data if isinstance(data, JobSpec) else JobSpec.model_validate(data)
+    except ValidationError as err:
+        raise SpecError([(_path(e["loc"]), _message(e)) for e in err.errors()]) from None
+    problems = _check_geometry(spec)
+    if problems:
+        raise SpecError(problems)
+    return spec
+
+
+def _path(loc: tuple[Any, ...]) -> str:
+    # drop the discriminator tags pydantic inserts for tagged unions ("bodies.0.circle.radius")
+    parts = [str(p) for p in loc if p not in ("circle", "rectangle", "ellipse", "naca4", "polygon")]
+    return ".".join(parts) or "(spec)"
+
+
+def _message(error: dict[str, Any]) -> str:
+    msg = str(error["msg"]).removeprefix("Value error, ")
+    if "input" in error and error["type"] not in ("missing", "extra_forbidden"):
+        shown = repr(error["input"])
+        msg = f"{msg} (got {shown[:60]})"
+    return msg

@@ -1,0 +1,69 @@
+"""Job spec validation: bad input names the field and the rule."""
+
+import pytest
+
+from solver import Limits, SpecError, check_limits, load
+
+CYLINDER = {"shape": "circle", "center": [0.2, 0.2], "radius": 0.05}
+
+
+def problems(data):
+    with pytest.raises(SpecError) as err:
+        load(data)
+    return dict(err.value.problems)
+
+
+def test_three_line_spec_gets_defaults():
+    spec = load({"bodies": [CYLINDER]})
+    assert spec.bodies[0].name == "body1"
+    assert spec.inflow.mean() == pytest.approx(0.2)  # 2/3 of the default peak 0.3
+    assert spec.reynolds() == pytest.approx(20.0)
+
+
+def test_reynolds_number_sets_viscosity_from_reference_scales():
+    spec = load({"bodies": [CYLINDER], "fluid": {"reynolds": 100}, "inflow": {"peak_velocity": 1.5}})
+    assert spec.viscosity() == pytest.approx(1.0 * 0.1 / 100)
+
+
+def test_time_law_amplitude_not_instant_value_sets_reference_velocity():
+    spec = load({"inflow": {"mean_velocity": 2.0, "profile": "uniform",
+                            "time_law": {"kind": "sine", "period": 1.0, "amplitude": 0.5}}})
+    assert spec.nominal_velocity() == pytest.approx(1.0)
+    assert spec.inflow.factor(0.25) == pytest.approx(0.5)
+
+
+@pytest.mark.parametrize(("data", "field", "words"), [
+    ({"bodies": [{**CYLINDER, "radius": -1}]}, "bodies.0.radius", "greater than 0"),
+    ({"fluid": {"viscosity": 0}}, "fluid.viscosity", "greater than 0"),
+    ({"analysis": {"time_step": -1e-3}}, "analysis.time_step", "greater than 0"),
+    ({"bodies": [{**CYLINDER, "radius": 0.3}]}, "bodies.0", "not strictly inside the channel"),
+    ({"bodies": [CYLINDER, {**CYLINDER, "center": [0.25, 0.2]}]}, "bodies.1", "overlaps"),
+    ({"bodies": [CYLINDER], "probes": {"pressure_drop": [[0.2, 0.2], [0.5, 0.2]]}},
+     "probes.pressure_drop.0", "inside body"),
+    ({"analysis": {"mode": "transient", "time_step": 0.1, "end_time": 0.01}}, "analysis.end_time", "shorter"),
+    ({"colour": "red"}, "colour", "not permitted"),
+    ({"bodies": [{"shape": "naca4", "code": "24x2", "chord": 0.1, "leading_edge": [0.1, 0.2]}]},
+     "bodies.0.code", "pattern"),
+    ({"bodies": [{"shape": "polygon", "points": [[0.3, 0.1], [0.4, 0.2], [0.4, 0.1], [0.3, 0.2]]}]},
+     "bodies.0.points", "cross"),
+    ({"fluid": {"viscosity": 1e-3, "reynolds": 100}}, "fluid", "not both"),
+    ({"channel": {"length": "long"}}, "channel.length", "number"),
+])
+def test_bad_input_names_field(data, field, words):
+    found = problems(data)
+    assert field in found, found
+    assert words in found[field]
+
+
+def test_limits_name_the_estimated_size():
+    spec = load({"bodies": [CYLINDER], "mesh": {"preset": "fine", "scale": 0.1}})
+    with pytest.raises(SpecError) as err:
+        check_limits(spec, Limits(max_dofs=100_000))
+    field, message = err.value.problems[0]
+    assert field == "mesh" and "unknowns" in message and "100,000" in message
+
+
+def test_step_limit():
+    spec = load({"analysis": {"mode": "transient", "time_step": 1e-4, "end_time": 10}})
+    with pytest.raises(SpecError, match="100,000 steps"):
+        check_limits(spec, Limits(max_steps=1000))
