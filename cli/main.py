@@ -4,8 +4,14 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 from pathlib import Path
+
+# One BLAS thread per process: the sparse direct solves gain nothing from more, and several
+# workers share the box. Must be set before numpy is first imported.
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
 
 
 def main(argv: list[str] | None = None) -> int:

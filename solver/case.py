@@ -12,6 +12,7 @@ from . import meshing
 from .boundary import body_dofs, channel_conditions
 from .forces import BodyForces
 from .navier_stokes import NavierStokes
+from .output import force_columns
 from .probes import probe_matrix
 from .spec import JobSpec
 from .taylor_hood import TaylorHood
@@ -51,7 +52,7 @@ class Case:
         return int(self.mesh.mesh.t.shape[1])
 
     def force_row(self, t: float, x: np.ndarray, convection: np.ndarray, dudt: np.ndarray | None) -> list[float]:
-        """One forces.csv row: time, per body Fx, Fy, cD, cL, then the pressure drop."""
+        """One forces.csv row: time, per body Fx, Fy, cD, cL, the pressure drop, probe velocities."""
         row = [t]
         for name, (fx, fy) in self.forces.evaluate(x, convection, dudt).items():
             c = self.coefficient_scale[name]
@@ -59,12 +60,14 @@ class Case:
         if self.pressure_probes is not None:
             pa, pb = self.pressure_probes @ self.th.split(x)[2]
             row.append(self.spec.fluid.density * float(pa - pb))
+        if self.velocity_probes is not None:
+            ux, uy, _ = self.th.split(x)
+            row += np.ravel(np.c_[self.velocity_probes @ ux, self.velocity_probes @ uy]).tolist()
         return row
 
-    def probe_velocities(self, x: np.ndarray) -> list[float]:
-        ux, uy, _ = self.th.split(x)
-        assert self.velocity_probes is not None
-        return list(np.ravel(np.c_[self.velocity_probes @ ux, self.velocity_probes @ uy]))
+    def columns(self) -> list[str]:
+        return force_columns([b.name for b in self.spec.bodies], self.pressure_probes is not None,
+                             len(self.spec.probes.velocity))
 
     def cfl(self, x: np.ndarray, dt: float) -> float:
         """Largest |u| dt / h over the cells, h the cell's shortest edge divided by the velocity degree."""

@@ -36,11 +36,15 @@ def _plain(value: Any) -> Any:
     raise TypeError(f"cannot write {type(value).__name__} to JSON")
 
 
-def force_columns(body_names: list[str], pressure_drop: bool) -> list[str]:
+def force_columns(body_names: list[str], pressure_drop: bool, velocity_probes: int = 0) -> list[str]:
+    """forces.csv header: time, four columns per body, the pressure drop, then probe velocities."""
     cols = ["time"]
     for name in body_names:
         cols += [f"{name}_fx", f"{name}_fy", f"{name}_cd", f"{name}_cl"]
-    return cols + (["pressure_drop"] if pressure_drop else [])
+    cols += ["pressure_drop"] if pressure_drop else []
+    for k in range(1, velocity_probes + 1):
+        cols += [f"probe{k}_ux", f"probe{k}_uy"]
+    return cols
 
 
 def write_forces(path: Path, columns: list[str], rows: list[list[float]]) -> None:

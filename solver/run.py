@@ -15,6 +15,7 @@ import numpy as np
 from . import analysis, output, pictures
 from .case import Case
 from .errors import Cancelled, Diverged, WallTimeExceeded
+from .probes import probe_matrix
 from .spec import JobSpec, load
 from .steady import solve_steady
 from .transient import Stepper
@@ -101,16 +102,16 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
     x, newton = solve_steady(case.ns, spec.analysis.newton_tolerance, spec.analysis.max_newton_iterations, report)
     solve = time.perf_counter() - t0
     row = case.force_row(0.0, x, case.ns.convection(x), None)
-    columns = output.force_columns([b.name for b in spec.bodies], case.pressure_probes is not None)
-    output.write_forces(out / "forces.csv", columns, [row])
+    output.write_forces(out / "forces.csv", case.columns(), [row])
     summary = _common_summary(case)
     summary["bodies"] = [{"name": b.name, "fx": row[1 + 4 * i], "fy": row[2 + 4 * i],
                           "drag_coefficient": row[3 + 4 * i], "lift_coefficient": row[4 + 4 * i],
                           "recirculation_length": _recirculation_length(case, x, i)}
                          for i, b in enumerate(spec.bodies)]
-    summary["pressure_drop"] = row[-1] if case.pressure_probes is not None else None
+    nb = 1 + 4 * len(spec.bodies)
+    summary["pressure_drop"] = row[nb] if case.pressure_probes is not None else None
     if case.velocity_probes is not None:
-        summary["velocity_probes"] = np.reshape(case.probe_velocities(x), (-1, 2)).tolist()
+        summary["velocity_probes"] = np.reshape(row[-2 * len(spec.probes.velocity):], (-1, 2)).tolist()
     summary["newton"] = {"iterations": newton.iterations, "residual": newton.residual,
                          "continuation": newton.continuation_steps}
     t1 = time.perf_counter()
@@ -122,8 +123,6 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
 
 def _recirculation_length(case: Case, x: np.ndarray, body: int) -> float:
     """Length of the reversed-flow zone behind a body along its centre line (0 when there is none)."""
-    from .probes import probe_matrix
-
     b = case.spec.bodies[body]
     pts = b.outline()
     x_back, y_c = float(pts[:, 0].max()), float(b.reference_point()[1])
@@ -167,7 +166,7 @@ class _Transient:
         self.total = int(math.ceil(a.end_time / a.time_step - 1e-9))
         interval = a.output_interval or a.end_time / 20
         self.output_every = max(1, int(round(interval / self.dt)))
-        self.columns = output.force_columns([b.name for b in case.spec.bodies], case.pressure_probes is not None)
+        self.columns = case.columns()
         self.rows: list[list[float]] = []
         self.snapshots: list[int] = []
         self.fingerprint = hashlib.sha256(case.spec.model_dump_json().encode()).hexdigest()
@@ -281,7 +280,8 @@ class _Transient:
                            "strouhal_number": st["strouhal_number"]})
         shedding = analysis.strouhal(t, lift_ref, spec.reference_length(0), spec.reference_velocity()) \
             if spec.bodies else {"strouhal_number": None}
-        pdrop = analysis.window_stats(data[window, -1]) if self.case.pressure_probes is not None else None
+        nb = 1 + 4 * len(spec.bodies)
+        pdrop = analysis.window_stats(data[window, nb]) if self.case.pressure_probes is not None else None
         return {"bodies": bodies, "strouhal_number": shedding["strouhal_number"], "shedding": shedding,
                 "pressure_drop": pdrop,
                 "window": {"start": float(t[window][0]), "end": float(t[window][-1]),

@@ -152,7 +152,7 @@ class Analysis(_Model):
     output_interval: float | None = Field(None, gt=0, description="simulated time between field snapshots")
     checkpoint_interval: int = Field(200, ge=1, description="steps between checkpoints")
     until_periodic: UntilPeriodic | None = None
-    newton_tolerance: float = Field(1e-10, gt=0, lt=1)
+    newton_tolerance: float = Field(1e-8, gt=0, lt=1, description="relative size of the last Newton update")
     max_newton_iterations: int = Field(30, ge=1, le=200)
 
 

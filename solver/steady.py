@@ -19,7 +19,7 @@ class NewtonReport:
     continuation_steps: list[float]
 
 
-def newton(ns: NavierStokes, x0: np.ndarray, tol: float = 1e-10, max_iterations: int = 30,
+def newton(ns: NavierStokes, x0: np.ndarray, tol: float = 1e-8, max_iterations: int = 30,
            on_iteration: Callable[[int, float], None] | None = None) -> tuple[np.ndarray, int, float]:
     """Newton iterations on the stationary equations; ``x0`` must carry the boundary values.
 
@@ -45,7 +45,7 @@ def newton(ns: NavierStokes, x0: np.ndarray, tol: float = 1e-10, max_iterations:
     raise Diverged(f"Newton did not converge in {max_iterations} iterations (last relative update {step:.3g})")
 
 
-def solve_steady(ns: NavierStokes, tol: float = 1e-10, max_iterations: int = 30,
+def solve_steady(ns: NavierStokes, tol: float = 1e-8, max_iterations: int = 30,
                  on_iteration: Callable[[int, float], None] | None = None) -> tuple[np.ndarray, NewtonReport]:
     """Stationary flow: plain Newton from Stokes, else continuation from a smaller Reynolds number.
 

@@ -28,6 +28,19 @@ def test_poiseuille_is_reproduced_exactly():
     assert np.abs(p - 8 * nu * Um / H**2 * (1.0 - xp)).max() < 1e-10
 
 
+def test_velocity_probes_read_the_parabola(tmp_path):
+    from solver import run
+
+    spec = {"channel": {"length": 1.0, "height": 0.4}, "fluid": {"viscosity": 0.01}, "mesh": {"preset": "coarse"},
+            "probes": {"velocity": [[0.5, 0.1], [0.73, 0.33]]}}
+    summary = run(spec, tmp_path)
+    for (x, y), (u, v) in zip(spec["probes"]["velocity"], summary["velocity_probes"]):
+        assert u == pytest.approx(4 * 0.3 * y * (0.4 - y) / 0.4**2, abs=1e-10)
+        assert v == pytest.approx(0.0, abs=1e-10)
+    header = (tmp_path / "forces.csv").read_text().splitlines()[0]
+    assert header == "time,probe1_ux,probe1_uy,probe2_ux,probe2_uy"
+
+
 def kovasznay(x, y, re=40.0):
     lam = re / 2 - np.sqrt(re**2 / 4 + 4 * np.pi**2)
     u = 1 - np.exp(lam * x) * np.cos(2 * np.pi * y)
