@@ -54,7 +54,7 @@ def bench_steps(preset: str, scheme: str, dt: float, steps: int) -> None:
         r = stepper.step()
         case.force_row(stepper.t, r.x, r.convection, r.dudt)
     per_step = (time.perf_counter() - t0) / steps
-    lu = stepper.preconditioner if scheme == "bdf2-implicit" else stepper.solver
+    lu = stepper.factoriser if scheme == "bdf2-implicit" else stepper.solver
     rhs = np.random.default_rng(0).random(len(lu.free))
     t0 = time.perf_counter()
     for _ in range(10):

@@ -8,7 +8,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import Diverged
-from .linear import ConstrainedSolver
+from .linear import RepeatedSolver
 from .navier_stokes import NavierStokes
 
 
@@ -29,19 +29,24 @@ def newton(ns: NavierStokes, x0: np.ndarray, tol: float = 1e-8, max_iterations: 
     x = x0.copy()
     free = ns.free
     first = None
-    for k in range(1, max_iterations + 1):
-        r = ns.steady_residual(x)[free]
-        norm = float(np.linalg.norm(r))
-        first = first or max(norm, 1e-300)
-        if not np.isfinite(norm) or norm > 10 * first:
-            raise Diverged(f"Newton iteration diverged at iteration {k} (residual {norm:.3g})")
-        dx = ConstrainedSolver(ns.jacobian(x), free).solve_free(r)
-        x[free] -= dx
-        step = float(np.linalg.norm(dx)) / max(float(np.linalg.norm(x)), 1e-300)
-        if on_iteration:
-            on_iteration(k, step)
-        if step < tol:
-            return x, k, float(np.linalg.norm(ns.steady_residual(x)[free]))
+    lu = RepeatedSolver(free)
+    try:
+        for k in range(1, max_iterations + 1):
+            r = ns.steady_residual(x)[free]
+            norm = float(np.linalg.norm(r))
+            first = first or max(norm, 1e-300)
+            if not np.isfinite(norm) or norm > 10 * first:
+                raise Diverged(f"Newton iteration diverged at iteration {k} (residual {norm:.3g})")
+            lu.factor(ns.jacobian(x))
+            dx = lu.solve_free(r)
+            x[free] -= dx
+            step = float(np.linalg.norm(dx)) / max(float(np.linalg.norm(x)), 1e-300)
+            if on_iteration:
+                on_iteration(k, step)
+            if step < tol:
+                return x, k, float(np.linalg.norm(ns.steady_residual(x)[free]))
+    finally:
+        lu.close()
     raise Diverged(f"Newton did not converge in {max_iterations} iterations (last relative update {step:.3g})")
 
 
