@@ -11,7 +11,13 @@ of a step to one forward/back substitution with stored factors.
 
 from __future__ import annotations
 
+import os
+
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")  # as the worker runs; set before numpy loads
+
 import argparse
+import resource
 import tempfile
 import time
 
@@ -93,6 +99,8 @@ def main() -> None:
     if args.full:
         bench_2d2("coarse", "bdf2-imex", 5e-4)
         bench_2d2("coarse", "bdf2-implicit", 5e-3)
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(f"peak memory of this process: {peak:.0f} MB")
 
 
 if __name__ == "__main__":

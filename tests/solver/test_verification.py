@@ -1,0 +1,37 @@
+"""Grid convergence index against the worked example of Celik et al. (2008), J. Fluids Eng. 130, 078001,
+Table 1 (three grids of 18000, 8000 and 4500 cells in 2D)."""
+
+import math
+
+import pytest
+
+from solver.verification import grid_convergence
+
+
+def test_celik_2008_worked_example():
+    h = tuple((1 / n) ** 0.5 for n in (18000, 8000, 4500))  # 2D: h = (1/N)^(1/2), so r21 = 1.5, r32 = 1.333
+    g = grid_convergence(h, (6.063, 5.972, 5.863))
+    # published (Celik et al. 2008, Table 1): p = 1.53, phi_ext21 = 6.1685, e_a21 = 1.5 %, e_ext21 = 1.7 %,
+    # GCI_fine21 = 2.2 %
+    assert g.observed_order == pytest.approx(1.53, abs=0.005)
+    assert g.extrapolated == pytest.approx(6.1685, abs=5e-4)
+    assert 100 * g.approximate_error == pytest.approx(1.5, abs=0.05)
+    assert 100 * g.extrapolated_error == pytest.approx(1.7, abs=0.05)
+    assert 100 * g.gci_fine == pytest.approx(2.2, abs=0.05)
+    assert g.monotone
+
+
+def test_oscillatory_convergence_is_flagged():
+    g = grid_convergence((1.0, 2.0, 4.0), (1.0, 1.1, 0.9))
+    assert not g.monotone
+
+
+def test_exact_second_order_data_extrapolates_to_the_limit():
+    h = (0.5, 1.0, 2.0)
+    g = grid_convergence(h, tuple(3.0 + 0.2 * x**2 for x in h))
+    assert g.observed_order == pytest.approx(2.0, rel=1e-9)
+    assert g.extrapolated == pytest.approx(3.0, rel=1e-12)
+
+
+def test_identical_values_give_no_order():
+    assert math.isnan(grid_convergence((1.0, 2.0, 4.0), (2.0, 2.0, 2.0)).observed_order)
