@@ -16,17 +16,17 @@ import os
 for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")  # as the worker runs; set before numpy loads
 
-import argparse
-import resource
-import tempfile
-import time
+import argparse  # noqa: E402
+import resource  # noqa: E402
+import tempfile  # noqa: E402
+import time  # noqa: E402
 
-import numpy as np
+import numpy as np  # noqa: E402
 
-import solver
-from solver import analysis
-from solver.case import Case
-from solver.transient import Stepper
+import solver  # noqa: E402
+from solver import analysis  # noqa: E402
+from solver.case import Case  # noqa: E402
+from solver.transient import Stepper  # noqa: E402
 
 CYLINDER = {"name": "cylinder", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}
 PROBES = {"pressure_drop": [[0.15, 0.2], [0.25, 0.2]]}
