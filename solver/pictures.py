@@ -50,7 +50,9 @@ def field_picture(path: Path, spec: JobSpec, tri: Triangulation, fields: dict[st
     values = np.hypot(fields["ux"], fields["uy"]) if name == "speed" else fields[name]
     L, H = spec.channel.length, spec.channel.height
     width = 10.0
-    fig, ax = plt.subplots(figsize=(width, max(1.6, width * H / L * 1.05 + 0.9)), layout="constrained")
+    height = min(8.0, 8.0 * H / L + 1.0)  # axes about 8 in wide at equal aspect, plus margins
+    fig, ax = plt.subplots(figsize=(width, height))
+    fig.subplots_adjust(left=0.07, right=0.98, bottom=0.62 / height, top=1 - 0.38 / height)
     art = ax.tripcolor(tri, values, shading="gouraud", cmap=cmap, vmin=limits[0], vmax=limits[1])
     for body in spec.bodies:
         ax.fill(*body.outline().T, facecolor="#d9d9d9", edgecolor="#333333", linewidth=0.6)
@@ -62,7 +64,7 @@ def field_picture(path: Path, spec: JobSpec, tri: Triangulation, fields: dict[st
     title = spec.title or "flow"
     ax.set_title(f"{title}: {label.split(' [')[0].lower()}" + (f" at t = {time:.4g} s" if time is not None else ""),
                  fontsize=10)
-    fig.colorbar(art, ax=ax, label=label, shrink=0.9, pad=0.01)
+    fig.colorbar(art, ax=ax, label=label, fraction=0.05, pad=0.015)
     fig.savefig(path, dpi=110)
     plt.close(fig)
 
