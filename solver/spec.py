@@ -133,7 +133,8 @@ class MeshSettings(_Model):
     wake_size: float | None = Field(None, gt=0)
     far_size: float | None = Field(None, gt=0)
     wake_length: float | None = Field(None, ge=0, description="length of the refined wake behind the bodies")
-    scale: float = Field(1.0, gt=0.05, le=20, description="multiplies every size (mesh studies)")
+    scale: float = Field(1.0, gt=0.05, le=20, description="multiplies every size")
+    refinements: int = Field(0, ge=0, le=4, description="uniform splits of every cell into four (mesh studies)")
     curved: bool = True
 
 

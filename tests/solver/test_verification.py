@@ -35,3 +35,23 @@ def test_exact_second_order_data_extrapolates_to_the_limit():
 
 def test_identical_values_give_no_order():
     assert math.isnan(grid_convergence((1.0, 2.0, 4.0), (2.0, 2.0, 2.0)).observed_order)
+
+
+def test_mesh_study_extrapolates_2d1_drag_towards_reference(tmp_path):
+    # Schäfer & Turek 1996, benchmark 2D-1: cD = 5.57953523384 (high-accuracy value, widely quoted)
+    from solver import run
+    from solver.study import convergence, expand
+
+    reference = 5.57953523384
+    base = {"bodies": [{"name": "cylinder", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+            "mesh": {"preset": "coarse", "scale": 2.0}}
+    points = expand({"kind": "mesh-convergence", "base": base, "levels": 3})
+    assert [v["mesh.refinements"] for v, _ in points] == [0, 1, 2]
+    summaries = [run(spec, tmp_path / str(k)) for k, (_, spec) in enumerate(points)]
+    cells = [s["mesh"]["cells"] for s in summaries]
+    assert cells[1] == 4 * cells[0] and cells[2] == 4 * cells[1]  # constant refinement ratio 2
+    result = convergence(summaries, area=2.2 * 0.41 - math.pi * 0.05**2)["cylinder.cd"]
+    finest = summaries[-1]["bodies"][0]["drag_coefficient"]
+    assert abs(result["extrapolated"] - reference) < abs(finest - reference)
+    assert result["observed_order"] > 2
+    assert result["gci_fine"] < 1e-4

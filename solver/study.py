@@ -1,0 +1,191 @@
+"""Parameter studies: a base case plus varied fields (sweeps) or systematically refined meshes.
+
+A study expands into ordinary job specs; its results are the points' summaries
+put side by side, and for a mesh-convergence study the grid convergence index
+of every summary value (see :mod:`solver.verification`).
+"""
+
+from __future__ import annotations
+
+import copy
+import itertools
+import math
+from typing import Any, Literal
+
+import numpy as np
+from pydantic import Field, ValidationError, model_validator
+
+from .errors import SpecError
+from .spec import JobSpec, _message, _Model, _path, load
+from .verification import grid_convergence
+
+
+class Range(_Model):
+    start: float
+    stop: float
+    count: int = Field(ge=2, le=100)
+    spacing: Literal["linear", "geometric"] = "linear"
+
+    @model_validator(mode="after")
+    def _positive_for_geometric(self) -> Range:
+        if self.spacing == "geometric" and (self.start <= 0 or self.stop <= 0):
+            raise ValueError("a geometric range needs positive start and stop")
+        return self
+
+    def values(self) -> list[float]:
+        space = np.geomspace if self.spacing == "geometric" else np.linspace
+        return [float(v) for v in space(self.start, self.stop, self.count)]
+
+
+class Vary(_Model):
+    """One varied field, by its dotted path in the job spec (e.g. ``bodies.1.center.0``)."""
+
+    path: str = Field(min_length=1, max_length=200, pattern=r"^[A-Za-z_][A-Za-z0-9_]*(\.[A-Za-z0-9_]+)*$")
+    values: list[float] | None = Field(None, min_length=1, max_length=100)
+    range: Range | None = None
+
+    @model_validator(mode="after")
+    def _one_of(self) -> Vary:
+        if (self.values is None) == (self.range is None):
+            raise ValueError("give either values or range")
+        return self
+
+    def points(self) -> list[float]:
+        return self.values if self.values is not None else self.range.values()  # type: ignore[union-attr]
+
+
+class StudySpec(_Model):
+    """A sweep over one or two fields, or a mesh-convergence study of one case."""
+
+    kind: Literal["sweep", "mesh-convergence"] = "sweep"
+    title: str = Field("", max_length=200)
+    base: dict[str, Any] = Field(default_factory=dict)
+    vary: list[Vary] = Field(default_factory=list, max_length=2)
+    levels: int = Field(3, ge=3, le=5, description="meshes in a convergence study, each cell split in four")
+
+    @model_validator(mode="after")
+    def _consistent(self) -> StudySpec:
+        if self.kind == "sweep" and not self.vary:
+            raise ValueError("a sweep needs at least one entry in vary")
+        if self.kind == "mesh-convergence" and self.vary:
+            raise ValueError("a mesh-convergence study varies the mesh itself; leave vary empty")
+        return self
+
+
+MAX_POINTS = 200
+
+
+def expand(study: StudySpec | dict[str, Any]) -> list[tuple[dict[str, float], JobSpec]]:
+    """The study's points: ``(varied values, job spec)``.
+
+    A mesh-convergence study splits every cell of the base mesh into four,
+    ``levels - 1`` times (refinement ratio 2), coarsest first.
+
+    Raises
+    ------
+    SpecError
+        Naming the study field, e.g. ``vary.0.path`` or ``points.3.bodies.0``.
+
+    Examples
+    --------
+    >>> pts = expand({"base": {}, "vary": [{"path": "inflow.peak_velocity", "values": [0.1, 0.2]}]})
+    >>> [(v, s.inflow.peak()) for v, s in pts]
+    [({'inflow.peak_velocity': 0.1}, 0.1), ({'inflow.peak_velocity': 0.2}, 0.2)]
+    """
+    if not isinstance(study, StudySpec):
+        try:
+            study = StudySpec.model_validate(study)
+        except ValidationError as err:
+            raise SpecError([(_path(e["loc"]), _message(e)) for e in err.errors()]) from None
+    try:
+        base = load(study.base)
+    except SpecError as err:
+        raise SpecError([(f"base.{f}", m) for f, m in err.problems]) from None
+    data = base.model_dump(mode="json")
+    if study.kind == "mesh-convergence":
+        axes = [("mesh.refinements", [base.mesh.refinements + k for k in range(study.levels)])]
+    else:
+        axes = [(v.path, v.points()) for v in study.vary]
+        for i, (path, _) in enumerate(axes):
+            _check_path(data, path, f"vary.{i}.path")
+    combos = list(itertools.product(*[vals for _, vals in axes]))
+    if len(combos) > MAX_POINTS:
+        raise SpecError([("vary", f"{len(combos)} points exceed the limit of {MAX_POINTS} per study")])
+    points, problems = [], []
+    for k, combo in enumerate(combos):
+        case = copy.deepcopy(data)
+        values = {}
+        for (path, _), value in zip(axes, combo):
+            _set(case, path, value)
+            values[path] = value
+        try:
+            points.append((values, load(case)))
+        except SpecError as err:
+            problems += [(f"points.{k}.{f}", f"{m} (at {values})") for f, m in err.problems]
+    if problems:
+        raise SpecError(problems)
+    return points
+
+
+def _check_path(data: dict[str, Any], path: str, where: str) -> None:
+    node: Any = data
+    for part in path.split("."):
+        if isinstance(node, list) and part.isdigit() and int(part) < len(node):
+            node = node[int(part)]
+        elif isinstance(node, dict) and part in node:
+            node = node[part]
+        else:
+            raise SpecError([(where, f"{path!r} is not a field of the base case")])
+    if node is not None and (isinstance(node, bool) or not isinstance(node, int | float)):
+        raise SpecError([(where, f"{path!r} is not a numeric field (it holds {node!r})")])
+
+
+def _set(data: dict[str, Any], path: str, value: float) -> None:
+    *parents, last = path.split(".")
+    node: Any = data
+    for part in parents:
+        node = node[int(part)] if isinstance(node, list) else node[part]
+    if isinstance(node, list):
+        node[int(last)] = value
+    else:
+        node[last] = value
+
+
+def summary_values(summary: dict[str, Any]) -> dict[str, float]:
+    """Flat numeric values of a job summary for tables and plots (transient: means and amplitudes)."""
+    out: dict[str, float] = {}
+    for body in summary.get("bodies", []):
+        for key, short in (("drag_coefficient", "cd"), ("lift_coefficient", "cl")):
+            v = body.get(key)
+            if isinstance(v, dict):
+                out[f"{body['name']}.{short}_mean"] = v["mean"]
+                out[f"{body['name']}.{short}_amplitude"] = v["amplitude"]
+            elif v is not None:
+                out[f"{body['name']}.{short}"] = v
+    dp = summary.get("pressure_drop")
+    if isinstance(dp, dict):
+        out["pressure_drop_mean"] = dp["mean"]
+    elif dp is not None:
+        out["pressure_drop"] = dp
+    if summary.get("strouhal_number") is not None:
+        out["strouhal_number"] = summary["strouhal_number"]
+    return out
+
+
+def convergence(summaries: list[dict[str, Any]], area: float) -> dict[str, dict[str, float | bool]]:
+    """Grid convergence of every summary value from the three finest of ``summaries`` (any order).
+
+    The representative cell size is ``sqrt(area / cells)`` (Celik et al. 2008).
+    """
+    ranked = sorted(summaries, key=lambda s: -s["mesh"]["cells"])[:3]
+    if len(ranked) < 3:
+        return {}
+    h = tuple(math.sqrt(area / s["mesh"]["cells"]) for s in ranked)
+    values = [summary_values(s) for s in ranked]
+    out = {}
+    for key in values[0]:
+        if all(key in v for v in values):
+            g = grid_convergence(h, tuple(v[key] for v in values))  # type: ignore[arg-type]
+            out[key] = {"observed_order": g.observed_order, "extrapolated": g.extrapolated,
+                        "gci_fine": g.gci_fine, "monotone": g.monotone}
+    return out
