@@ -65,7 +65,7 @@ def field_picture(path: Path, spec: JobSpec, tri: Triangulation, fields: dict[st
     ax.set_title(f"{title}: {label.split(' [')[0].lower()}" + (f" at t = {time:.4g} s" if time is not None else ""),
                  fontsize=10)
     fig.colorbar(art, ax=ax, label=label, fraction=0.05, pad=0.015)
-    fig.savefig(path, dpi=110)
+    fig.savefig(path, dpi=110, bbox_inches="tight", pad_inches=0.12)
     plt.close(fig)
 
 
