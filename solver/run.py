@@ -217,7 +217,8 @@ class _Transient:
         pictures.force_plot(self.out / "forces.png", self.columns, data, [b.name for b in case.spec.bodies])
         _pictures(case, self.out, self.snapshots)
         summary = _common_summary(case)
-        summary.update(self._statistics(data))
+        whole = a.until_periodic.cycles if ended_by == "periodic" else 5  # the cycles found to repeat
+        summary.update(self._statistics(data, whole))
         summary.update({"ended_by": ended_by, "steps": stepper.n, "time_step": self.dt, "scheme": a.scheme,
                         "simulated_time": stepper.t, "max_cfl": max_cfl,
                         "factorisations": stepper.factorisations})
@@ -265,12 +266,12 @@ class _Transient:
         data = np.array(self.rows)
         return analysis.is_periodic(data[:, 0], data[:, 4], up.cycles, up.tolerance)
 
-    def _statistics(self, data: np.ndarray) -> dict[str, Any]:
+    def _statistics(self, data: np.ndarray, whole_cycles: int) -> dict[str, Any]:
         spec = self.case.spec
         t = data[:, 0]
         lift_ref = data[:, 4] if spec.bodies else t * 0
         cycles = analysis.find_cycles(t, lift_ref)
-        window = analysis.analysis_window(t, cycles)
+        window = analysis.analysis_window(t, cycles, whole_cycles)
         bodies = []
         for i, b in enumerate(spec.bodies):
             st = analysis.strouhal(t, data[:, 4 + 4 * i], spec.reference_length(i), spec.reference_velocity())
@@ -285,4 +286,4 @@ class _Transient:
         return {"bodies": bodies, "strouhal_number": shedding["strouhal_number"], "shedding": shedding,
                 "pressure_drop": pdrop,
                 "window": {"start": float(t[window][0]), "end": float(t[window][-1]),
-                           "whole_cycles": int(min(cycles.count, 5))}}
+                           "whole_cycles": int(min(cycles.count, whole_cycles))}}
