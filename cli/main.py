@@ -21,10 +21,32 @@ def main(argv: list[str] | None = None) -> int:
     p_run.add_argument("spec", type=Path, help="job spec (JSON)")
     p_run.add_argument("--out", type=Path, required=True, help="folder for the result files")
     p_run.add_argument("--quiet", action="store_true", help="no progress bar")
+    p_serve = sub.add_parser("serve", help="the web service and its workers on this machine")
+    p_serve.add_argument("--host", default="127.0.0.1")
+    p_serve.add_argument("--port", type=int, default=8000)
+    p_serve.add_argument("--data", type=Path, help="data folder (default: WAKEYARD_DATA_DIR or ./data)")
+    p_serve.add_argument("--workers", type=int,
+                         help="worker processes (default: WAKEYARD_WORKERS or the cores; 0: only the API)")
+    p_worker = sub.add_parser("worker", help="only workers (more boxes sharing the broker and database)")
+    p_worker.add_argument("--data", type=Path)
+    p_worker.add_argument("--workers", type=int)
+    p_token = sub.add_parser("token", help="API tokens")
+    token_sub = p_token.add_subparsers(dest="token_command", required=True)
+    p_create = token_sub.add_parser("create", help="create a token and print it (shown only once)")
+    p_create.add_argument("name")
+    p_create.add_argument("--admin", action="store_true", help="may cancel and delete anyone's jobs")
+    p_create.add_argument("--data", type=Path)
     args = parser.parse_args(argv)
     if args.command == "run":
         return _run(args.spec, args.out, args.quiet)
-    return 1
+    from . import service
+
+    service.configure(getattr(args, "data", None), getattr(args, "workers", None))
+    if args.command == "serve":
+        return service.serve(args.host, args.port)
+    if args.command == "worker":
+        return service.worker()
+    return service.create_token(args.name, args.admin)
 
 
 def _run(spec_path: Path, out: Path, quiet: bool) -> int:

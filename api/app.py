@@ -1,0 +1,73 @@
+"""The FastAPI application: API routes first, then the web page mounted at "/"."""
+
+from __future__ import annotations
+
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
+from pathlib import Path
+from typing import Any
+
+from fastapi import FastAPI
+from fastapi.exceptions import RequestValidationError
+from fastapi.staticfiles import StaticFiles
+
+import solver
+from worker.app import make_celery  # producer side only (BLAS pinning on import is harmless here)
+
+from . import routes_files, routes_jobs, routes_ops
+from .dispatch import Dispatcher
+from .limits import BodyLimit
+from .problems import SpecProblems, spec_problems_handler, validation_handler
+from .reaper import Reaper
+from .settings import Settings
+from .store import Store
+
+WEB = Path(__file__).resolve().parent.parent / "web"
+
+
+def create_app(settings: Settings | None = None) -> FastAPI:
+    """Build the app for ``settings`` (default: from WAKEYARD_* environment variables)."""
+    settings = settings or Settings()
+    settings.jobs_dir.mkdir(parents=True, exist_ok=True)
+    store = Store(settings.db_url)
+    celery = make_celery(settings)
+    dispatch = Dispatcher(celery, settings.queue)
+    reaper = Reaper(settings, store, dispatch)
+
+    @asynccontextmanager
+    async def lifespan(_: FastAPI) -> AsyncIterator[None]:
+        reaper.start()
+        yield
+        reaper.close()
+        dispatch.close()
+
+    app = FastAPI(title="wakeyard", version=solver.__version__, lifespan=lifespan,
+                  description="Queued 2D incompressible flow simulations. Results of 2D laminar runs are a study "
+                              "aid, not design loads; codes, standards and licensed engineers decide.")
+    app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
+    app.state.reaper = reaper
+    app.add_exception_handler(SpecProblems, spec_problems_handler)
+    app.add_exception_handler(RequestValidationError, validation_handler)
+    app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
+    for module in (routes_jobs, routes_files, routes_ops):
+        app.include_router(module.router)
+    _document_spec(app)
+    WEB.mkdir(exist_ok=True)
+    app.mount("/", StaticFiles(directory=WEB, html=True), name="web")
+    return app
+
+
+def _document_spec(app: FastAPI) -> None:
+    """Put the solver's JobSpec schema (and its sub-models) into the OpenAPI components."""
+    base = app.openapi
+
+    def openapi() -> dict[str, Any]:
+        if app.openapi_schema is None:
+            schema = base()
+            spec = solver.JobSpec.model_json_schema(ref_template="#/components/schemas/{model}")
+            components = schema.setdefault("components", {}).setdefault("schemas", {})
+            components.update(spec.pop("$defs", {}))
+            components["JobSpec"] = spec
+        return schema if app.openapi_schema is None else app.openapi_schema
+
+    app.openapi = openapi  # type: ignore[method-assign]

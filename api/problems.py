@@ -1,0 +1,42 @@
+"""One error shape for every bad request: ``{"detail": [{"field", "message"}]}`` with status 422."""
+
+from __future__ import annotations
+
+from fastapi import Request
+from fastapi.exceptions import RequestValidationError
+from fastapi.responses import JSONResponse
+
+CAUTION = ("2D laminar results are a study aid, not design loads; applicable codes and standards and a licensed "
+           "engineer decide anything that matters.")
+
+
+class SpecProblems(Exception):
+    """Raised by routes for input the solver (or the service's limits) refuses."""
+
+    def __init__(self, problems: list[tuple[str, str]], status: int = 422):
+        self.problems, self.status = problems, status
+        super().__init__("; ".join(f"{f}: {m}" for f, m in problems))
+
+
+def _field(loc: tuple[object, ...]) -> str:
+    parts = [str(p) for p in loc]
+    if parts and parts[0] == "body":
+        parts = parts[1:]
+    return ".".join(parts) or "(body)"
+
+
+async def spec_problems_handler(_: Request, exc: Exception) -> JSONResponse:
+    assert isinstance(exc, SpecProblems)
+    return JSONResponse({"detail": [{"field": f, "message": m} for f, m in exc.problems]}, status_code=exc.status)
+
+
+async def validation_handler(_: Request, exc: Exception) -> JSONResponse:
+    assert isinstance(exc, RequestValidationError)
+    detail = []
+    for e in exc.errors():
+        field, msg = _field(tuple(e.get("loc", ()))), str(e.get("msg", "invalid"))
+        if e.get("type") == "json_invalid":
+            field = "(body)"
+            msg = f"not valid JSON at character {e['loc'][-1]}: {e.get('ctx', {}).get('error', msg)}"
+        detail.append({"field": field, "message": msg})
+    return JSONResponse({"detail": detail}, status_code=422)

@@ -1,0 +1,65 @@
+"""The lease: re-queue jobs whose worker went silent, re-send wake-ups that a broker may have lost, prune the
+embedded broker's delivered messages. Runs in a thread of the API process."""
+
+from __future__ import annotations
+
+import logging
+import threading
+from collections.abc import Callable
+from datetime import datetime, timedelta
+
+from sqlalchemy import create_engine, text
+from sqlalchemy.exc import OperationalError
+
+from .settings import Settings
+from .store import Store
+
+log = logging.getLogger(__name__)
+
+
+class Reaper:
+    def __init__(self, settings: Settings, store: Store, dispatch: Callable[[str], None]):
+        self.settings, self.store, self.dispatch = settings, store, dispatch
+        self.stop = threading.Event()
+        self.thread = threading.Thread(target=self._loop, name="wakeyard-reaper", daemon=True)
+        embedded = settings.celery_broker.startswith("sqla+")
+        self.broker_db = create_engine(settings.celery_broker.removeprefix("sqla+")) if embedded else None
+
+    def start(self) -> None:
+        for job_id in self.store.queued_ids():  # messages may have been lost while we were down
+            self.dispatch(job_id)
+        self.thread.start()
+
+    def close(self) -> None:
+        self.stop.set()
+        self.thread.join(timeout=10)
+        if self.broker_db is not None:
+            self.broker_db.dispose()
+
+    def _loop(self) -> None:
+        while not self.stop.wait(self.settings.reaper_seconds):
+            try:
+                self.tick()
+            except Exception:  # keep the lease alive through database or broker trouble
+                log.exception("lease check failed")
+
+    def tick(self) -> None:
+        for job_id in self.store.expire_leases(self.settings.lease_seconds, self.settings.max_attempts):
+            log.warning("job %s lost its worker: re-queued", job_id)
+            self.dispatch(job_id)
+        counts = self.store.counts()
+        if counts.get("queued") and not counts.get("running"):  # idle with work waiting: wake-ups were lost
+            for job_id in self.store.queued_ids()[: self.settings.workers]:
+                self.dispatch(job_id)
+        if self.broker_db is not None:
+            self._prune()
+
+    def _prune(self) -> None:
+        """The SQLAlchemy transport keeps delivered messages forever; drop those older than an hour."""
+        cutoff = datetime.now() - timedelta(hours=1)  # the transport stores local naive times
+        try:
+            with self.broker_db.begin() as conn:
+                conn.execute(text("DELETE FROM kombu_message WHERE visible = 0 AND timestamp < :cutoff"),
+                             {"cutoff": cutoff})
+        except OperationalError:  # no message table until the first message is sent
+            log.debug("no broker table to prune yet")

@@ -1,0 +1,90 @@
+"""Result files, streamed from the job's folder; nothing outside that folder is ever served."""
+
+from __future__ import annotations
+
+import mimetypes
+import tempfile
+import zipfile
+from collections.abc import Iterator
+from pathlib import Path
+from typing import IO, Annotated, Any
+
+from fastapi import APIRouter, Depends, HTTPException, Request
+from fastapi.responses import FileResponse, StreamingResponse
+
+from .auth import User, current_user
+from .problems import CAUTION
+
+router = APIRouter(prefix="/api/v1/jobs", tags=["files"])
+ARCHIVE = "fields.zip"
+HIDDEN = {"checkpoint.npz"}  # the solver's restart state, not a result
+TYPES = {".csv": "text/csv", ".json": "application/json", ".png": "image/png", ".vtu": "application/xml",
+         ".pvd": "application/xml", ".npz": "application/octet-stream", ".zip": "application/zip"}
+
+
+def _content_type(path: str) -> str:
+    return TYPES.get(Path(path).suffix.lower()) or mimetypes.guess_type(path)[0] or "application/octet-stream"
+
+
+def _folder(request: Request, job_id: str) -> Path:
+    if request.app.state.store.get(job_id) is None:
+        raise HTTPException(404, f"no job {job_id}")
+    return (request.app.state.settings.jobs_dir / job_id).resolve()
+
+
+def _shown(folder: Path, path: Path) -> bool:
+    """A result file: a regular file really inside ``folder`` (no symlink out), not hidden or internal."""
+    return path.is_file() and path.resolve().is_relative_to(folder) and path.name not in HIDDEN and not any(
+        part.startswith(".") for part in path.relative_to(folder).parts)
+
+
+def _visible(folder: Path) -> list[Path]:
+    return sorted(p for p in folder.rglob("*") if _shown(folder, p)) if folder.is_dir() else []
+
+
+def _field_files(folder: Path) -> list[Path]:
+    return [p for p in _visible(folder / "fields") if p.suffix in (".vtu", ".pvd")]
+
+
+@router.get("/{job_id}/files", summary="List a job's result files")
+def list_files(request: Request, job_id: str, _: Annotated[User, Depends(current_user)]) -> dict[str, Any]:
+    folder = _folder(request, job_id)
+    base = f"/api/v1/jobs/{job_id}/files"
+    files = [{"path": p.relative_to(folder).as_posix(), "size": p.stat().st_size,
+              "content_type": _content_type(p.name), "url": f"{base}/{p.relative_to(folder).as_posix()}"}
+             for p in _visible(folder)]
+    if _field_files(folder):
+        files.append({"path": ARCHIVE, "size": None, "content_type": "application/zip", "url": f"{base}/{ARCHIVE}"})
+    return {"files": files, "caution": CAUTION}
+
+
+@router.get("/{job_id}/files/{path:path}", summary="Download one result file (fields.zip: all VTU/PVD files)")
+def get_file(request: Request, job_id: str, path: str, _: Annotated[User, Depends(current_user)]) -> Any:
+    folder = _folder(request, job_id)
+    if path == ARCHIVE:
+        return _archive(folder, job_id)
+    target = (folder / path).resolve()
+    if not target.is_relative_to(folder) or target == folder:
+        raise HTTPException(404, f"no file {path!r} in job {job_id}")
+    if not _shown(folder, target):
+        raise HTTPException(404, f"no file {path!r} in job {job_id} (yet)")
+    return FileResponse(target, media_type=_content_type(target.name))
+
+
+def _archive(folder: Path, job_id: str) -> StreamingResponse:
+    """Zip the VTU/PVD files into a spooled temporary file (memory first, disk when large) and stream it."""
+    files = _field_files(folder)
+    if not files:
+        raise HTTPException(404, f"job {job_id} has no VTU files (yet)")
+    spool = tempfile.SpooledTemporaryFile(max_size=32 * 2**20)  # noqa: SIM115 - closed by _chunks
+    with zipfile.ZipFile(spool, "w", zipfile.ZIP_DEFLATED) as zf:
+        for p in files:
+            zf.write(p, p.relative_to(folder / "fields").as_posix())
+    spool.seek(0)
+    return StreamingResponse(_chunks(spool), media_type="application/zip",
+                             headers={"Content-Disposition": f'attachment; filename="{job_id}-fields.zip"'})
+
+
+def _chunks(f: IO[bytes]) -> Iterator[bytes]:
+    with f:
+        yield from iter(lambda: f.read(1 << 16), b"")

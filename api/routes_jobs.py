@@ -1,0 +1,169 @@
+"""Job resources: create, list, read, cancel, delete, clone. Validation is the solver's own (``solver.load``)."""
+
+from __future__ import annotations
+
+import logging
+import shutil
+from datetime import datetime
+from typing import Annotated, Any, Literal
+
+from fastapi import APIRouter, Body, Depends, HTTPException, Query, Request
+from fastapi.responses import JSONResponse
+
+import solver
+
+from .auth import User, current_user
+from .problems import CAUTION, SpecProblems
+from .settings import Settings
+from .store import Job, Store
+
+log = logging.getLogger(__name__)
+router = APIRouter(prefix="/api/v1/jobs", tags=["jobs"])
+SPEC_BODY = {"requestBody": {"required": True,
+                             "content": {"application/json": {"schema": {"$ref": "#/components/schemas/JobSpec"}}}}}
+PARTIAL_BODY = {"requestBody": {"required": False, "content": {"application/json": {"schema": {
+    "type": "object", "description": "any part of a job spec; merged over the original job's spec"}}}}}
+MAX_TAGS, MAX_TAG_LENGTH = 20, 64
+State = Literal["queued", "running", "succeeded", "failed", "cancelled"]
+Tags = Annotated[list[str] | None, Query(description=f"up to {MAX_TAGS} labels for filtering")]
+
+
+def links(job_id: str) -> dict[str, str]:
+    base = f"/api/v1/jobs/{job_id}"
+    return {"self": base, "files": f"{base}/files", "cancel": f"{base}/cancel", "clone": f"{base}/clone"}
+
+
+def _stamp(moment: datetime | None) -> str | None:
+    return moment.isoformat() if moment else None
+
+
+def view(job: Job) -> dict[str, Any]:
+    """The job as the contract shows it."""
+    return {"id": job.id, "state": job.state, "owner": job.owner, "title": job.title, "tags": job.tags,
+            "spec": job.spec,
+            "progress": {"fraction": job.progress_fraction, "step": job.progress_step, "time": job.progress_time,
+                         "eta_seconds": job.eta_seconds},
+            "created_at": _stamp(job.created_at), "started_at": _stamp(job.started_at),
+            "finished_at": _stamp(job.finished_at), "heartbeat_at": _stamp(job.heartbeat_at),
+            "attempts": job.attempts, "worker_host": job.worker_host, "cancel_requested": job.cancel_requested,
+            "summary": job.summary, "error": job.error, "links": links(job.id), "caution": CAUTION}
+
+
+def _store(request: Request) -> Store:
+    return request.app.state.store
+
+
+def _settings(request: Request) -> Settings:
+    return request.app.state.settings
+
+
+def _validated(data: Any, settings: Settings) -> dict[str, Any]:
+    """The solver's checks plus the service's size limits; returns the normalised spec."""
+    if not isinstance(data, dict):
+        raise SpecProblems([("(body)", f"must be a JSON object (the job spec), got {type(data).__name__}")])
+    try:
+        spec = solver.load(data)
+        solver.check_limits(spec, solver.Limits(max_dofs=settings.max_dofs, max_steps=settings.max_steps))
+    except solver.SpecError as err:
+        raise SpecProblems(err.problems) from None
+    return spec.model_dump(mode="json")
+
+
+def _check_tags(tags: list[str]) -> list[str]:
+    if len(tags) > MAX_TAGS:
+        raise SpecProblems([("tags", f"{len(tags)} tags, over the limit of {MAX_TAGS}")])
+    for i, tag in enumerate(tags):
+        if not 0 < len(tag) <= MAX_TAG_LENGTH:
+            raise SpecProblems([(f"tags.{i}", f"a tag has 1 to {MAX_TAG_LENGTH} characters (got {len(tag)})")])
+    return tags
+
+
+def _submit(request: Request, user: User, spec: dict[str, Any], tags: list[str]) -> JSONResponse:
+    store, settings = _store(request), _settings(request)
+    active = store.active_count(user.name)
+    if active >= settings.max_active_per_user:
+        raise HTTPException(429, f"{user.name} already has {active} queued or running jobs, the limit per user is "
+                                 f"{settings.max_active_per_user}: wait for some to finish or cancel them")
+    job = store.create(user.name, spec, tags)
+    request.app.state.dispatch(job.id)
+    return JSONResponse({"id": job.id, "state": job.state, "links": links(job.id)}, status_code=202,
+                        headers={"Location": links(job.id)["self"]})
+
+
+def _own(request: Request, job_id: str, user: User) -> Job:
+    job = _store(request).get(job_id)
+    if job is None:
+        raise HTTPException(404, f"no job {job_id}")
+    if job.owner != user.name and not user.admin:
+        raise HTTPException(403, f"job {job_id} belongs to {job.owner}; only its owner or an admin may change it")
+    return job
+
+
+def merge(base: dict[str, Any], edits: dict[str, Any]) -> dict[str, Any]:
+    """Deep-merge ``edits`` over ``base``: objects merge key by key, anything else (lists too) replaces."""
+    out = dict(base)
+    for key, value in edits.items():
+        out[key] = merge(out[key], value) if isinstance(value, dict) and isinstance(out.get(key), dict) else value
+    return out
+
+
+@router.post("", status_code=202, openapi_extra=SPEC_BODY, summary="Queue a job")
+def create_job(request: Request, user: Annotated[User, Depends(current_user)],
+               data: Annotated[Any, Body()], tags: Tags = None) -> JSONResponse:
+    return _submit(request, user, _validated(data, _settings(request)), _check_tags(tags or []))
+
+
+@router.get("", summary="List jobs, newest first")
+def list_jobs(request: Request, _: Annotated[User, Depends(current_user)], state: State | None = None,
+              owner: str | None = None, tag: str | None = None,
+              limit: Annotated[int, Query(ge=1, le=500)] = 50,
+              cursor: Annotated[str | None, Query(description="next_cursor of the previous page")] = None,
+              ) -> dict[str, Any]:
+    before = None
+    if cursor is not None:
+        if not cursor.isdigit():
+            raise SpecProblems([("cursor", "use the next_cursor value of the previous page")])
+        before = int(cursor)
+    jobs = _store(request).list_jobs(state, owner, tag, limit, before)
+    nxt = str(jobs[-1].seq) if len(jobs) == limit else None
+    return {"jobs": [view(j) for j in jobs], "next_cursor": nxt}
+
+
+@router.get("/{job_id}", summary="Read one job")
+def read_job(request: Request, job_id: str, _: Annotated[User, Depends(current_user)]) -> JSONResponse:
+    job = _store(request).get(job_id)
+    if job is None:
+        raise HTTPException(404, f"no job {job_id}")
+    return JSONResponse(view(job))  # already JSON types: skip FastAPI's re-validation (status reads are hot)
+
+
+@router.post("/{job_id}/cancel", summary="Cancel a queued or running job")
+def cancel_job(request: Request, job_id: str, user: Annotated[User, Depends(current_user)]) -> dict[str, Any]:
+    job = _own(request, job_id, user)
+    if job.state not in ("queued", "running"):
+        raise HTTPException(409, f"job {job_id} is already {job.state}")
+    _store(request).cancel(job_id)
+    return view(_store(request).get(job_id) or job)
+
+
+@router.delete("/{job_id}", status_code=204, summary="Delete a job and its files")
+def delete_job(request: Request, job_id: str, user: Annotated[User, Depends(current_user)]) -> None:
+    _own(request, job_id, user)
+    store = _store(request)
+    store.cancel(job_id)  # a queued job must not start while we delete it
+    if not store.delete(job_id):
+        raise HTTPException(409, f"job {job_id} is running; it has been asked to stop: delete it again once its "
+                                 "state is cancelled")
+    shutil.rmtree(_settings(request).jobs_dir / job_id, ignore_errors=True)
+
+
+@router.post("/{job_id}/clone", status_code=202, openapi_extra=PARTIAL_BODY, summary="Queue a copy with edits")
+def clone_job(request: Request, job_id: str, user: Annotated[User, Depends(current_user)],
+              edits: Annotated[Any, Body()] = None, tags: Tags = None) -> JSONResponse:
+    job = _store(request).get(job_id)
+    if job is None:
+        raise HTTPException(404, f"no job {job_id}")
+    if edits is not None and not isinstance(edits, dict):
+        raise SpecProblems([("(body)", "must be a JSON object with the parts of the spec to change")])
+    spec = _validated(merge(job.spec, edits or {}), _settings(request))
+    return _submit(request, user, spec, _check_tags(tags or job.tags))

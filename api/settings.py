@@ -1,0 +1,40 @@
+"""Service settings, read from ``WAKEYARD_*`` environment variables so the API, workers and compose share them."""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from pydantic import Field
+from pydantic_settings import BaseSettings, SettingsConfigDict
+
+
+class Settings(BaseSettings):
+    model_config = SettingsConfigDict(env_prefix="WAKEYARD_", extra="ignore")
+
+    data_dir: Path = Field(Path("data"), description="job store, embedded broker and result files live here")
+    database_url: str = Field("", description="SQLAlchemy URL; empty = SQLite file in data_dir")
+    broker_url: str = Field("", description="Celery broker; empty = SQLAlchemy transport on a SQLite file in data_dir")
+    queue: str = "wakeyard"
+    workers: int = Field(default_factory=lambda: os.cpu_count() or 1, ge=0, description="0: serve starts none")
+    max_dofs: int = Field(500_000, ge=1)
+    max_steps: int = Field(200_000, ge=1)
+    max_wall_time: float = Field(6 * 3600.0, gt=0, description="seconds one attempt of a job may run")
+    max_active_per_user: int = Field(20, ge=1, description="queued + running jobs one owner may have")
+    max_body_bytes: int = Field(256 * 1024, ge=1024)
+    heartbeat_seconds: float = Field(1.0, gt=0, description="progress/heartbeat write and cancel poll interval")
+    lease_seconds: float = Field(60.0, gt=0, description="a running job whose heartbeat is older is re-queued")
+    reaper_seconds: float = Field(5.0, gt=0, description="how often the API looks for expired leases")
+    max_attempts: int = Field(3, ge=1)
+
+    @property
+    def jobs_dir(self) -> Path:
+        return self.data_dir / "jobs"
+
+    @property
+    def db_url(self) -> str:
+        return self.database_url or f"sqlite:///{(self.data_dir / 'jobs.sqlite').resolve()}"
+
+    @property
+    def celery_broker(self) -> str:
+        return self.broker_url or f"sqla+sqlite:///{(self.data_dir / 'broker.sqlite').resolve()}"

@@ -1,0 +1,318 @@
+"""The job store (SQLAlchemy 2): the single source of truth for job state; broker messages only wake workers.
+
+Every state change is a compare-and-set ``UPDATE ... WHERE state = ...`` so that duplicate broker
+deliveries, a re-queued job whose old worker is still alive, and concurrent API calls never
+overwrite each other: the row is claimed with a random ``claim`` fencing token.
+"""
+
+from __future__ import annotations
+
+import math
+import secrets
+import time
+import uuid
+from dataclasses import dataclass
+from datetime import UTC, datetime, timedelta
+from typing import Any
+
+from sqlalchemy import (
+    JSON,
+    Boolean,
+    DateTime,
+    Float,
+    ForeignKey,
+    Integer,
+    String,
+    Text,
+    TypeDecorator,
+    create_engine,
+    delete,
+    event,
+    func,
+    select,
+    text,
+    update,
+)
+from sqlalchemy.engine import Engine
+from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column, sessionmaker
+
+ACTIVE = ("queued", "running")
+
+
+def utcnow() -> datetime:
+    return datetime.now(UTC)
+
+
+class UTCDateTime(TypeDecorator[datetime]):
+    """Naive UTC in the database (sortable text in SQLite), aware UTC in Python."""
+
+    impl = DateTime
+    cache_ok = True
+
+    def process_bind_param(self, value: datetime | None, dialect: Any) -> datetime | None:
+        return value.astimezone(UTC).replace(tzinfo=None) if value is not None else None
+
+    def process_result_value(self, value: datetime | None, dialect: Any) -> datetime | None:
+        return value.replace(tzinfo=UTC) if value is not None else None
+
+
+class Base(DeclarativeBase):
+    pass
+
+
+class Job(Base):
+    __tablename__ = "jobs"
+
+    seq: Mapped[int] = mapped_column(Integer, primary_key=True, autoincrement=True)
+    id: Mapped[str] = mapped_column(String(32), unique=True, index=True)
+    state: Mapped[str] = mapped_column(String(16), index=True)
+    owner: Mapped[str] = mapped_column(String(100), index=True)
+    title: Mapped[str] = mapped_column(String(200), default="")
+    spec: Mapped[dict[str, Any]] = mapped_column(JSON)
+    tags: Mapped[list[str]] = mapped_column(JSON, default=list)
+    created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+    started_at: Mapped[datetime | None] = mapped_column(UTCDateTime)
+    finished_at: Mapped[datetime | None] = mapped_column(UTCDateTime)
+    heartbeat_at: Mapped[datetime | None] = mapped_column(UTCDateTime)
+    attempts: Mapped[int] = mapped_column(Integer, default=0)
+    claim: Mapped[str | None] = mapped_column(String(32))
+    worker_host: Mapped[str | None] = mapped_column(String(200))
+    cancel_requested: Mapped[bool] = mapped_column(Boolean, default=False)
+    progress_fraction: Mapped[float] = mapped_column(Float, default=0.0)
+    progress_step: Mapped[int] = mapped_column(Integer, default=0)
+    progress_time: Mapped[float] = mapped_column(Float, default=0.0)
+    eta_seconds: Mapped[float | None] = mapped_column(Float)
+    summary: Mapped[dict[str, Any] | None] = mapped_column(JSON)
+    error: Mapped[str | None] = mapped_column(Text)
+
+
+class JobTag(Base):
+    """One row per (job, tag): portable tag filtering on SQLite and PostgreSQL."""
+
+    __tablename__ = "job_tags"
+
+    job_seq: Mapped[int] = mapped_column(ForeignKey("jobs.seq", ondelete="CASCADE"), primary_key=True)
+    tag: Mapped[str] = mapped_column(String(64), primary_key=True, index=True)
+
+
+class Token(Base):
+    __tablename__ = "tokens"
+
+    name: Mapped[str] = mapped_column(String(100), primary_key=True)
+    digest: Mapped[str] = mapped_column(String(64), unique=True, index=True)
+    admin: Mapped[bool] = mapped_column(Boolean, default=False)
+    created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+
+
+class WorkerSeen(Base):
+    __tablename__ = "workers"
+
+    name: Mapped[str] = mapped_column(String(200), primary_key=True)
+    seen_at: Mapped[datetime] = mapped_column(UTCDateTime)
+
+
+@dataclass
+class Claimed:
+    id: str
+    claim: str
+    spec: dict[str, Any]
+    attempts: int
+
+
+def make_engine(url: str) -> Engine:
+    """Engine with SQLite tuned for several processes (WAL, waiting on locks instead of failing)."""
+    if url.startswith("sqlite"):
+        engine = create_engine(url, connect_args={"timeout": 30, "check_same_thread": False})
+
+        @event.listens_for(engine, "connect")
+        def _pragmas(conn: Any, _record: Any) -> None:
+            cur = conn.cursor()
+            cur.execute("PRAGMA journal_mode=WAL")
+            cur.execute("PRAGMA synchronous=NORMAL")  # with WAL: durable across crashes, fsync only at checkpoints
+            cur.execute("PRAGMA busy_timeout=30000")
+            cur.execute("PRAGMA foreign_keys=ON")
+            cur.close()
+
+        return engine
+    return create_engine(url, pool_pre_ping=True)
+
+
+class Store:
+    """Job-store operations used by the API, the workers and the lease reaper."""
+
+    def __init__(self, url: str):
+        self.engine = make_engine(url)
+        Base.metadata.create_all(self.engine)
+        self.session = sessionmaker(self.engine, expire_on_commit=False)
+        self._tokens_checked = -math.inf  # monotonic time of the last "no tokens" answer
+        self._tokens_exist = False
+        self._token_users: dict[str, tuple[str, bool]] = {}
+
+    # --- API side -------------------------------------------------------------------------------------
+    def create(self, owner: str, spec: dict[str, Any], tags: list[str]) -> Job:
+        job = Job(id=uuid.uuid4().hex, state="queued", owner=owner, title=str(spec.get("title", ""))[:200],
+                  spec=spec, tags=tags, created_at=utcnow(), attempts=0, cancel_requested=False,
+                  progress_fraction=0.0, progress_step=0, progress_time=0.0)
+        with self.session.begin() as s:
+            s.add(job)
+            s.flush()
+            s.add_all(JobTag(job_seq=job.seq, tag=t) for t in set(tags))
+        return job
+
+    def get(self, job_id: str) -> Job | None:
+        with self.session() as s:
+            return s.scalar(select(Job).where(Job.id == job_id))
+
+    def list_jobs(self, state: str | None, owner: str | None, tag: str | None, limit: int,
+             before_seq: int | None) -> list[Job]:
+        q = select(Job).order_by(Job.seq.desc()).limit(limit)
+        if state:
+            q = q.where(Job.state == state)
+        if owner:
+            q = q.where(Job.owner == owner)
+        if tag:
+            q = q.where(Job.seq.in_(select(JobTag.job_seq).where(JobTag.tag == tag)))
+        if before_seq is not None:
+            q = q.where(Job.seq < before_seq)
+        with self.session() as s:
+            return list(s.scalars(q))
+
+    def active_count(self, owner: str) -> int:
+        with self.session() as s:
+            return s.scalar(select(func.count()).where(Job.owner == owner, Job.state.in_(ACTIVE))) or 0
+
+    def cancel(self, job_id: str) -> str | None:
+        """Cancel a queued job at once, flag a running one for its worker; returns the new state."""
+        with self.session.begin() as s:
+            done = s.execute(update(Job).where(Job.id == job_id, Job.state == "queued")
+                             .values(state="cancelled", cancel_requested=True, finished_at=utcnow(),
+                                     error="cancelled before it started")).rowcount
+            if not done:
+                s.execute(update(Job).where(Job.id == job_id, Job.state == "running").values(cancel_requested=True))
+            return s.scalar(select(Job.state).where(Job.id == job_id))
+
+    def delete(self, job_id: str) -> bool:
+        """Delete a job that is not running (a running job must be cancelled first)."""
+        with self.session.begin() as s:
+            seq = s.scalar(select(Job.seq).where(Job.id == job_id, Job.state != "running"))
+            if seq is None:
+                return False
+            s.execute(delete(JobTag).where(JobTag.job_seq == seq))
+            s.execute(delete(Job).where(Job.seq == seq))
+            return True
+
+    def counts(self) -> dict[str, int]:
+        with self.session() as s:
+            return dict(s.execute(select(Job.state, func.count()).group_by(Job.state)).all())
+
+    def workers_seen(self, within: float) -> int:
+        since = utcnow() - timedelta(seconds=within)
+        with self.session() as s:
+            return s.scalar(select(func.count()).where(WorkerSeen.seen_at >= since)) or 0
+
+    def ping(self) -> None:
+        with self.engine.connect() as conn:
+            conn.execute(text("SELECT 1"))
+
+    # --- worker side ----------------------------------------------------------------------------------
+    def claim_next(self, host: str, tries: int = 8) -> Claimed | None:
+        """Claim the next job (fair share: oldest job of the owner with the fewest running) by compare-and-set."""
+        running = (select(Job.owner, func.count().label("n")).where(Job.state == "running")
+                   .group_by(Job.owner).subquery())
+        pick = (select(Job.id).outerjoin(running, running.c.owner == Job.owner).where(Job.state == "queued")
+                .order_by(func.coalesce(running.c.n, 0), Job.seq).limit(1))
+        for _ in range(tries):
+            with self.session.begin() as s:
+                job_id = s.scalar(pick)
+                if job_id is None:
+                    return None
+                claim, now = secrets.token_hex(16), utcnow()
+                won = s.execute(update(Job).where(Job.id == job_id, Job.state == "queued")
+                                .values(state="running", claim=claim, attempts=Job.attempts + 1, worker_host=host,
+                                        started_at=func.coalesce(Job.started_at, now), heartbeat_at=now,
+                                        eta_seconds=None)).rowcount
+                if won:
+                    job = s.scalar(select(Job).where(Job.id == job_id))
+                    return Claimed(job.id, claim, job.spec, job.attempts)
+        return None
+
+    def heartbeat(self, job_id: str, claim: str, values: dict[str, Any]) -> tuple[bool, bool]:
+        """Record progress; returns (still ours, cancel requested)."""
+        with self.session.begin() as s:
+            ours = s.execute(update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running")
+                             .values(heartbeat_at=utcnow(), **values)).rowcount == 1
+            cancel = bool(s.scalar(select(Job.cancel_requested).where(Job.id == job_id)))
+            return ours, cancel
+
+    def finish(self, job_id: str, claim: str, state: str, summary: dict[str, Any] | None = None,
+               error: str | None = None, progress: dict[str, Any] | None = None) -> bool:
+        values: dict[str, Any] = {**(progress or {}), "state": state, "finished_at": utcnow(), "summary": summary,
+                                  "error": error, "eta_seconds": None}
+        with self.session.begin() as s:
+            return s.execute(update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running")
+                             .values(**values)).rowcount == 1
+
+    def worker_alive(self, name: str) -> None:
+        with self.session.begin() as s:
+            if not s.execute(update(WorkerSeen).where(WorkerSeen.name == name).values(seen_at=utcnow())).rowcount:
+                s.add(WorkerSeen(name=name, seen_at=utcnow()))
+
+    # --- lease ----------------------------------------------------------------------------------------
+    def expire_leases(self, lease_seconds: float, max_attempts: int) -> list[str]:
+        """Re-queue running jobs whose heartbeat stopped; give up after ``max_attempts``. Returns re-queued ids."""
+        cutoff = utcnow() - timedelta(seconds=lease_seconds)
+        requeued = []
+        with self.session() as s:
+            stale = s.execute(select(Job.id, Job.claim, Job.attempts, Job.worker_host, Job.cancel_requested)
+                              .where(Job.state == "running", Job.heartbeat_at < cutoff)).all()
+        for job_id, claim, attempts, host, cancel in stale:
+            lost = f"the worker on {host} stopped sending heartbeats for over {lease_seconds:g} s"
+            if cancel:
+                values = {"state": "cancelled", "finished_at": utcnow(), "error": f"cancelled ({lost})"}
+            elif attempts >= max_attempts:
+                values = {"state": "failed", "finished_at": utcnow(),
+                          "error": f"gave up after {attempts} attempts: {lost}"}
+            else:
+                values = {"state": "queued", "claim": None, "eta_seconds": None}
+            with self.session.begin() as s:
+                won = s.execute(update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running")
+                                .values(**values)).rowcount
+            if won and values["state"] == "queued":
+                requeued.append(job_id)
+        return requeued
+
+    def queued_ids(self) -> list[str]:
+        with self.session() as s:
+            return list(s.scalars(select(Job.id).where(Job.state == "queued").order_by(Job.seq)))
+
+    # --- tokens ---------------------------------------------------------------------------------------
+    def add_token(self, name: str, digest: str, admin: bool) -> None:
+        with self.session.begin() as s:
+            s.add(Token(name=name, digest=digest, admin=admin, created_at=utcnow()))
+
+    def find_token(self, digest: str) -> Token | None:
+        with self.session() as s:
+            return s.scalar(select(Token).where(Token.digest == digest))
+
+    def token_user(self, digest: str) -> tuple[str, bool] | None:
+        """(name, admin) for a token digest; known tokens are remembered (tokens are never revoked)."""
+        if digest not in self._token_users:
+            row = self.find_token(digest)
+            if row is None:
+                return None
+            self._token_users[digest] = (row.name, row.admin)
+        return self._token_users[digest]
+
+    def has_token_named(self, name: str) -> bool:
+        with self.session() as s:
+            return s.get(Token, name) is not None
+
+    def tokens_required(self) -> bool:
+        """Once a token exists, tokens stay required; until then ask the database at most once a second."""
+        if not self._tokens_exist and time.monotonic() - self._tokens_checked > 1.0:
+            self._tokens_exist, self._tokens_checked = self.has_tokens(), time.monotonic()
+        return self._tokens_exist
+
+    def has_tokens(self) -> bool:
+        with self.session() as s:
+            return s.scalar(select(func.count()).select_from(Token)) > 0

@@ -1,0 +1,172 @@
+"""Service benchmark: job creations/s, status reads/s, submit-to-start latency and the service's overhead.
+
+Starts ``wakeyard serve`` on 127.0.0.1 (a free port, a temporary data folder) and sends a bounded number of
+requests to it; nothing leaves the machine. Redis figures use DB 6 of the local Redis (flushed before and
+after). Run: ``python bench/service_bench.py`` (about two minutes on two cores).
+"""
+
+from __future__ import annotations
+
+import copy
+import http.client
+import json
+import os
+import signal
+import socket
+import statistics
+import subprocess
+import sys
+import tempfile
+import threading
+import time
+from concurrent.futures import ThreadPoolExecutor
+from datetime import datetime
+from pathlib import Path
+from typing import Any
+
+import httpx
+import redis
+
+import solver
+
+REDIS_URL = "redis://127.0.0.1:6379/6"
+CREATIONS, READS, CLIENTS, LATENCY_JOBS = 400, 2000, 8, 5
+CASE: dict[str, Any] = {
+    "title": "pipe in a cooling duct (benchmark)", "channel": {"length": 1.0, "height": 0.41},
+    "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+    "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2}, "mesh": {"preset": "coarse", "scale": 2.0},
+    "analysis": {"mode": "transient", "time_step": 0.01, "end_time": 0.3, "output_interval": 0.1}}
+
+
+def case(end_time: float) -> dict[str, Any]:
+    spec = copy.deepcopy(CASE)
+    spec["analysis"]["end_time"] = end_time
+    return spec
+
+
+class Service:
+    """``wakeyard serve`` in a child process; stopped with Ctrl-C (SIGINT) like a person would."""
+
+    def __init__(self, folder: Path, workers: int, broker: str = ""):
+        with socket.socket() as s:
+            s.bind(("127.0.0.1", 0))
+            self.port = s.getsockname()[1]
+        env = {**os.environ, "WAKEYARD_BROKER_URL": broker, "WAKEYARD_MAX_ACTIVE_PER_USER": "100000",
+               "WAKEYARD_HEARTBEAT_SECONDS": "0.25"}
+        folder.mkdir(parents=True, exist_ok=True)
+        self.log = folder / "serve.log"
+        self.proc = subprocess.Popen([sys.executable, "-c", "import sys; from cli.main import main; sys.exit(main())",
+                                      "serve", "--port", str(self.port), "--data",
+                                      str(folder), "--workers", str(workers)], env=env,
+                                     stdout=self.log.open("w"), stderr=subprocess.STDOUT)
+        deadline = time.monotonic() + 90
+        while "ready at" not in self.log.read_text():
+            if self.proc.poll() is not None or time.monotonic() > deadline:
+                raise RuntimeError(self.log.read_text())
+            time.sleep(0.1)
+        self.url = f"http://127.0.0.1:{self.port}"
+
+    def stop(self) -> None:
+        self.proc.send_signal(signal.SIGINT)
+        self.proc.wait(60)
+
+
+def rate(n: int, work: Any, clients: int = CLIENTS) -> tuple[float, list[float]]:
+    """Run ``work(i)`` n times from ``clients`` threads; returns (per second, each call's seconds)."""
+    def timed(i: int) -> float:
+        t = time.perf_counter()
+        work(i)
+        return time.perf_counter() - t
+
+    t0 = time.perf_counter()
+    with ThreadPoolExecutor(clients) as pool:
+        times = list(pool.map(timed, range(n)))
+    return n / (time.perf_counter() - t0), times
+
+
+def p(times: list[float], q: float) -> float:
+    return 1000 * statistics.quantiles(times, n=100)[q - 1]
+
+
+def throughput(folder: Path) -> None:
+    """Bare keep-alive connections (http.client), one per client thread: the client must cost less than the server."""
+    service = Service(folder, workers=0)
+    local = threading.local()
+
+    def call(method: str, path: str, body: bytes | None = None) -> bytes:
+        if not hasattr(local, "conn"):
+            local.conn = http.client.HTTPConnection("127.0.0.1", service.port, timeout=30)
+        local.conn.request(method, path, body, {"Content-Type": "application/json"})
+        response = local.conn.getresponse()
+        data = response.read()
+        assert response.status in (200, 202), data
+        return data
+
+    body = json.dumps(case(0.3)).encode()
+    try:
+        per_s, _ = rate(CREATIONS, lambda _: call("POST", "/api/v1/jobs", body))
+        print(f"job creations:       {per_s:8.0f} /s   ({CREATIONS} requests, {CLIENTS} clients; target >= 500)")
+        job_id = json.loads(call("GET", "/api/v1/jobs?limit=1"))["jobs"][0]["id"]
+        per_s, times = rate(READS, lambda _: call("GET", f"/api/v1/jobs/{job_id}"))
+        print(f"status reads:        {per_s:8.0f} /s   ({READS} requests; p50 {p(times, 50):.1f} ms, "
+              f"p99 {p(times, 99):.1f} ms; target >= 2000)")
+    finally:
+        service.stop()
+
+
+def stamp(text: str) -> datetime:
+    return datetime.fromisoformat(text)
+
+
+def latency_and_overhead(folder: Path, broker: str, name: str) -> None:
+    service = Service(folder, workers=2, broker=broker)
+    try:
+        with httpx.Client(base_url=service.url, timeout=30) as http:
+            waits, totals = [], []
+            for _ in range(LATENCY_JOBS):
+                job_id = http.post("/api/v1/jobs", json=case(0.3)).json()["id"]
+                while (job := http.get(f"/api/v1/jobs/{job_id}").json())["state"] in ("queued", "running"):
+                    time.sleep(0.05)
+                assert job["state"] == "succeeded", job["error"]
+                waits.append((stamp(job["started_at"]) - stamp(job["created_at"])).total_seconds())
+                totals.append((stamp(job["finished_at"]) - stamp(job["created_at"])).total_seconds())
+            target = "50 ms" if broker else "1 s"
+            print(f"submit-to-start ({name}): median {1000 * statistics.median(waits):6.0f} ms, "
+                  f"max {1000 * max(waits):6.0f} ms (target <= {target})")
+            direct = []
+            for i in range(3):
+                t = time.perf_counter()
+                solver.run(case(0.3), folder / f"direct{i}")
+                direct.append(time.perf_counter() - t)
+            extra = statistics.median(totals) - statistics.median(direct)
+            print(f"service overhead ({name}): {extra:+.2f} s on a {statistics.median(direct):.1f} s job "
+                  f"(submit to finished vs solver.run in process; target <= 2 s or 5 %)")
+            if broker:  # both cores busy: is the API still quick?
+                busy = [http.post("/api/v1/jobs", json=case(3.0)).json()["id"] for _ in range(2)]
+                while any(http.get(f"/api/v1/jobs/{j}").json()["state"] != "running" for j in busy):
+                    time.sleep(0.1)
+                _, times = rate(300, lambda _: http.get(f"/api/v1/jobs/{busy[0]}"), clients=4)
+                print(f"status read while both cores compute: p50 {p(times, 50):.1f} ms, p99 {p(times, 99):.1f} ms "
+                      f"(target p99 <= 50 ms)")
+                for j in busy:
+                    http.post(f"/api/v1/jobs/{j}/cancel")
+    finally:
+        service.stop()
+
+
+def main() -> None:
+    r = redis.Redis.from_url(REDIS_URL)
+    r.flushdb()
+    try:
+        with tempfile.TemporaryDirectory() as tmp:
+            root = Path(tmp)
+            print(f"wakeyard service benchmark on {os.cpu_count()} cores, loopback only")
+            throughput(root / "throughput")
+            latency_and_overhead(root / "embedded", "", "embedded SQLite broker")
+            latency_and_overhead(root / "redis", REDIS_URL, "Redis")
+    finally:
+        r.flushdb()
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,87 @@
+"""Shared pieces of the service tests: the tiny case, settings, a real worker subprocess, polling."""
+
+from __future__ import annotations
+
+import copy
+import os
+import signal
+import subprocess
+import sys
+import time
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+from fastapi.testclient import TestClient
+
+from api.settings import Settings
+
+REDIS_URL = "redis://127.0.0.1:6379/5"
+
+TINY: dict[str, Any] = {
+    "title": "pipe in a cooling duct (test)", "channel": {"length": 1.0, "height": 0.41},
+    "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+    "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2}, "mesh": {"preset": "coarse", "scale": 2.0},
+    "analysis": {"mode": "transient", "scheme": "bdf2-imex", "time_step": 0.01, "end_time": 0.3,
+                 "output_interval": 0.1, "checkpoint_interval": 5}}
+
+
+def tiny(end_time: float = 0.3, **analysis: Any) -> dict[str, Any]:
+    spec = copy.deepcopy(TINY)
+    spec["analysis"].update(end_time=end_time, **analysis)
+    return spec
+
+
+def settings_for(folder: Path, queue: str, broker: str = REDIS_URL, **extra: Any) -> Settings:
+    values: dict[str, Any] = {"data_dir": folder, "broker_url": broker, "queue": queue, "heartbeat_seconds": 0.5,
+                              "reaper_seconds": 0.5, "lease_seconds": 30.0, "workers": 1}
+    values.update(extra)
+    return Settings(**values)
+
+def environment(settings: Settings) -> dict[str, str]:
+    """The same settings for a worker subprocess, as WAKEYARD_* variables."""
+    env = dict(os.environ)
+    for name, value in settings.model_dump().items():
+        env[f"WAKEYARD_{name.upper()}"] = str(value)
+    return env
+
+class Worker:
+    """A real Celery worker process group on the settings' queue, started by ``wakeyard worker``."""
+
+    def __init__(self, settings: Settings, log: Path):
+        self.log = log
+        self.proc = subprocess.Popen(
+            [sys.executable, "-c", "import sys; from cli.main import main; sys.exit(main())", "worker"],
+            env=environment(settings), stdout=log.open("w"), stderr=subprocess.STDOUT, start_new_session=True)
+        deadline = time.monotonic() + 60
+        while "ready." not in log.read_text():
+            if self.proc.poll() is not None or time.monotonic() > deadline:
+                raise RuntimeError(f"worker did not start:\n{log.read_text()}")
+            time.sleep(0.2)
+
+    def kill(self) -> None:
+        """kill -9 of the whole worker: main process and pool children."""
+        os.killpg(self.proc.pid, signal.SIGKILL)
+        self.proc.wait(10)
+
+    def stop(self) -> None:
+        if self.proc.poll() is None:
+            os.killpg(self.proc.pid, signal.SIGTERM)
+            try:
+                self.proc.wait(10)
+            except subprocess.TimeoutExpired:
+                self.kill()
+
+def wait_for(client: TestClient, job_id: str, until: Callable[[dict[str, Any]], bool],
+             timeout: float = 60.0) -> dict[str, Any]:
+    deadline = time.monotonic() + timeout
+    while True:
+        job = client.get(f"/api/v1/jobs/{job_id}").json()
+        if until(job):
+            return job
+        if time.monotonic() > deadline:
+            raise AssertionError(f"timed out waiting; job is {job}")
+        time.sleep(0.2)
+
+def finished(job: dict[str, Any]) -> bool:
+    return job["state"] in ("succeeded", "failed", "cancelled")

@@ -1,0 +1,73 @@
+"""``wakeyard serve`` on the embedded broker (SQLite transport), ``token create``, and the refusal to go open."""
+
+from __future__ import annotations
+
+import signal
+import socket
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import httpx
+
+from .helpers import finished, tiny
+
+WAKEYARD = [sys.executable, "-c", "import sys; from cli.main import main; sys.exit(main())"]
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def _children(pid: int) -> list[int]:
+    out = subprocess.run(["ps", "-o", "pid=", "--ppid", str(pid)], capture_output=True, text=True).stdout
+    return [int(p) for p in out.split()]
+
+
+def test_serve_embedded_runs_a_job_and_ctrl_c_stops_children(tmp_path: Path) -> None:
+    port = _free_port()
+    log = tmp_path / "serve.log"
+    proc = subprocess.Popen([*WAKEYARD, "serve", "--port", str(port), "--data", str(tmp_path), "--workers", "1"],
+                            stdout=log.open("w"), stderr=subprocess.STDOUT, cwd=tmp_path)
+    try:
+        deadline = time.monotonic() + 60
+        while f"http://127.0.0.1:{port}/" not in log.read_text():
+            assert proc.poll() is None and time.monotonic() < deadline, log.read_text()
+            time.sleep(0.2)
+        children = _children(proc.pid)
+        children += [grandchild for pid in children for grandchild in _children(pid)]
+        assert len(children) >= 2  # the Celery worker and its pool process
+        with httpx.Client(base_url=f"http://127.0.0.1:{port}", timeout=10) as client:
+            job_id = client.post("/api/v1/jobs", json=tiny(end_time=0.1)).json()["id"]
+            deadline = time.monotonic() + 60
+            while not finished(job := client.get(f"/api/v1/jobs/{job_id}").json()):
+                assert time.monotonic() < deadline, job
+                time.sleep(0.2)
+            assert job["state"] == "succeeded", job["error"]
+            assert client.get(f"/api/v1/jobs/{job_id}/files/forces.csv").status_code == 200
+        assert (tmp_path / "broker.sqlite").exists() and (tmp_path / "jobs.sqlite").exists()
+        proc.send_signal(signal.SIGINT)
+        assert proc.wait(30) == 0
+        time.sleep(0.5)
+        assert [pid for pid in children if Path(f"/proc/{pid}").exists()] == []
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+
+
+def test_open_address_needs_a_token_and_token_create_prints_one(tmp_path: Path) -> None:
+    refused = subprocess.run([*WAKEYARD, "serve", "--host", "0.0.0.0", "--data", str(tmp_path)],
+                             capture_output=True, text=True, timeout=60)
+    assert refused.returncode == 2 and "without API tokens" in refused.stderr
+    made = subprocess.run([*WAKEYARD, "token", "create", "ana", "--data", str(tmp_path)],
+                          capture_output=True, text=True, timeout=60)
+    token = made.stdout.strip()
+    assert made.returncode == 0 and token.startswith("wy_") and len(token) > 30
+    assert token not in (tmp_path / "jobs.sqlite").read_bytes().decode("latin-1")
+    again = subprocess.run([*WAKEYARD, "token", "create", "ana", "--data", str(tmp_path)],
+                           capture_output=True, text=True, timeout=60)
+    assert again.returncode == 2 and "exists already" in again.stderr
+

@@ -1,0 +1,70 @@
+"""The heartbeat lease: a killed worker's job is re-queued, resumes from its checkpoint, and gives up after N tries."""
+
+from __future__ import annotations
+
+from datetime import timedelta
+from pathlib import Path
+
+import numpy as np
+from fastapi.testclient import TestClient
+from sqlalchemy import update
+
+from api.app import create_app
+from api.store import Job, Store, utcnow
+
+from .helpers import Worker, finished, settings_for, tiny, wait_for
+
+
+def _stale(store: Store, job_id: str) -> None:
+    with store.session.begin() as s:
+        s.execute(update(Job).where(Job.id == job_id).values(heartbeat_at=utcnow() - timedelta(minutes=5)))
+
+
+def test_expired_lease_requeues_then_gives_up(store_url: str) -> None:
+    store = Store(store_url)
+    job_id = store.create("ana", tiny(), []).id
+    for attempt in (1, 2):
+        claimed = store.claim_next("w")
+        assert claimed is not None and claimed.attempts == attempt
+        _stale(store, job_id)
+        assert store.expire_leases(60, max_attempts=3) == [job_id]
+        assert not store.heartbeat(job_id, claimed.claim, {})[0]  # the old worker has lost the job
+    store.claim_next("w")
+    _stale(store, job_id)
+    assert store.expire_leases(60, max_attempts=3) == []
+    job = store.get(job_id)
+    assert job.state == "failed" and "gave up after 3 attempts" in job.error
+
+
+def test_kill_9_of_the_worker_resumes_from_checkpoint(tmp_path: Path) -> None:
+    settings = settings_for(tmp_path, "wakeyard-lease", lease_seconds=3.0)
+    first = Worker(settings, tmp_path / "first.log")
+    try:
+        with TestClient(create_app(settings)) as client:
+            spec = tiny(end_time=4.0, output_interval=2.0, checkpoint_interval=10)
+            job_id = client.post("/api/v1/jobs", json=spec).json()["id"]
+            checkpoint = settings.jobs_dir / job_id / "checkpoint.npz"
+            wait_for(client, job_id, lambda j: j["progress"]["step"] >= 25 and checkpoint.exists(), timeout=60)
+            first.kill()
+            saved = int(np.load(checkpoint)["step"])
+            stale = client.get(f"/api/v1/jobs/{job_id}").json()
+            assert stale["state"] == "running" and 20 <= saved < 400
+
+            second = Worker(settings, tmp_path / "second.log")
+            try:
+                steps: list[int] = []
+
+                def watch(job: dict) -> bool:
+                    if job["attempts"] == 2 and job["state"] == "running":
+                        steps.append(job["progress"]["step"])
+                    return finished(job)
+
+                job = wait_for(client, job_id, watch, timeout=90)
+            finally:
+                second.stop()
+            assert job["state"] == "succeeded", job["error"]
+            assert job["attempts"] == 2 and job["summary"]["steps"] == 400
+            fresh = [n for n in steps if n != stale["progress"]["step"]]
+            assert fresh and min(fresh) > saved  # continued from the checkpoint, never from step 0
+    finally:
+        first.stop()

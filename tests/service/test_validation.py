@@ -1,0 +1,170 @@
+"""Bad input gets a 4xx naming the field (never a 500); auth, per-user cap, file confinement. No worker needed."""
+
+from __future__ import annotations
+
+import json
+from concurrent.futures import ThreadPoolExecutor
+from typing import Any
+
+import pytest
+from fastapi.testclient import TestClient
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from api.auth import create_token
+
+from .helpers import TINY, tiny
+
+
+def fields(response: Any) -> list[str]:
+    return [d["field"] for d in response.json()["detail"]]
+
+
+@pytest.mark.parametrize(("body", "field"), [
+    ({**TINY, "bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": -1}]}, "bodies.0.radius"),
+    ({**TINY, "channel": {"length": "long", "height": 0.41}}, "channel.length"),
+    ({**TINY, "colour": "blue"}, "colour"),
+    ({**TINY, "analysis": {**TINY["analysis"], "time_step": 1e-6, "end_time": 100.0}}, "analysis.time_step"),
+    ([1, 2, 3], "(body)"),
+])
+def test_bad_spec_is_422_naming_the_field(offline: TestClient, body: Any, field: str) -> None:
+    r = offline.post("/api/v1/jobs", json=body)
+    assert r.status_code == 422
+    assert field in fields(r)
+    assert all(d["message"] for d in r.json()["detail"])
+
+
+def test_malformed_json_is_422_not_500(offline: TestClient) -> None:
+    r = offline.post("/api/v1/jobs", content=b'{"title": "pier", ', headers={"content-type": "application/json"})
+    assert r.status_code == 422
+    assert fields(r) == ["(body)"]
+    assert "JSON" in r.json()["detail"][0]["message"]
+
+
+def test_huge_body_is_413_with_the_limit(offline: TestClient) -> None:
+    points = [[0.3 + 1e-7 * i, 0.2] for i in range(40_000)]
+    r = offline.post("/api/v1/jobs", json={**TINY, "bodies": [{"shape": "polygon", "points": points}]})
+    assert r.status_code == 413
+    assert "262,144 bytes" in r.json()["detail"][0]["message"]
+
+
+def test_bad_query_and_tags_are_422(offline: TestClient) -> None:
+    assert fields(offline.get("/api/v1/jobs", params={"state": "sleeping"})) == ["query.state"]
+    assert fields(offline.get("/api/v1/jobs", params={"cursor": "abc"})) == ["cursor"]
+    assert fields(offline.post("/api/v1/jobs", params={"tags": ["x" * 65]}, json=TINY)) == ["tags.0"]
+
+
+def test_list_filters_and_pages_newest_first(offline: TestClient) -> None:
+    ids = [offline.post("/api/v1/jobs", params={"tags": [tag]}, json=tiny()).json()["id"]
+           for tag in ("pier", "duct", "pier")]
+    page = offline.get("/api/v1/jobs", params={"limit": 2}).json()
+    assert [j["id"] for j in page["jobs"]] == ids[::-1][:2]
+    rest = offline.get("/api/v1/jobs", params={"limit": 2, "cursor": page["next_cursor"]}).json()
+    assert [j["id"] for j in rest["jobs"]] == ids[:1]
+    assert [j["id"] for j in offline.get("/api/v1/jobs", params={"tag": "pier"}).json()["jobs"]] == [ids[2], ids[0]]
+    assert offline.get("/api/v1/jobs", params={"state": "running"}).json()["jobs"] == []
+
+
+def test_per_user_cap_is_429_with_the_limit(offline: TestClient) -> None:
+    for _ in range(3):
+        assert offline.post("/api/v1/jobs", json=tiny()).status_code == 202
+    r = offline.post("/api/v1/jobs", json=tiny())
+    assert r.status_code == 429
+    assert "limit per user is 3" in r.json()["detail"]
+    first = offline.get("/api/v1/jobs").json()["jobs"][-1]["id"]
+    assert offline.post(f"/api/v1/jobs/{first}/cancel").json()["state"] == "cancelled"
+    assert offline.post("/api/v1/jobs", json=tiny()).status_code == 202
+
+
+def test_cancel_queued_then_delete(offline: TestClient) -> None:
+    job_id = offline.post("/api/v1/jobs", json=tiny()).json()["id"]
+    job = offline.post(f"/api/v1/jobs/{job_id}/cancel").json()
+    assert job["state"] == "cancelled" and job["started_at"] is None
+    assert offline.post(f"/api/v1/jobs/{job_id}/cancel").status_code == 409
+    assert offline.delete(f"/api/v1/jobs/{job_id}").status_code == 204
+    assert offline.get(f"/api/v1/jobs/{job_id}").status_code == 404
+
+
+def test_clone_merges_edits_and_validates_them(offline: TestClient) -> None:
+    job_id = offline.post("/api/v1/jobs", params={"tags": ["sweep"]}, json=tiny()).json()["id"]
+    r = offline.post(f"/api/v1/jobs/{job_id}/clone", json={"inflow": {"peak_velocity": 0.45}})
+    assert r.status_code == 202
+    clone = offline.get(r.json()["links"]["self"]).json()
+    assert clone["spec"]["inflow"]["peak_velocity"] == 0.45
+    assert clone["spec"]["inflow"]["ramp_time"] == 0.2 and clone["spec"]["bodies"][0]["radius"] == 0.05
+    assert clone["tags"] == ["sweep"]
+    bad = offline.post(f"/api/v1/jobs/{job_id}/clone", json={"inflow": {"peak_velocity": -2}})
+    assert bad.status_code == 422 and fields(bad) == ["inflow.peak_velocity"]
+
+
+def test_files_stay_inside_the_job_folder(offline: TestClient) -> None:
+    job_id = offline.post("/api/v1/jobs", json=tiny()).json()["id"]
+    folder = offline.app.state.settings.jobs_dir / job_id
+    folder.mkdir()
+    (folder / "forces.csv").write_text("time,fx\n0,1\n")
+    (folder / "checkpoint.npz").write_bytes(b"internal")
+    (folder / "escape.txt").symlink_to(offline.app.state.settings.data_dir / "jobs.sqlite")
+    base = f"/api/v1/jobs/{job_id}/files"
+    assert offline.get(f"{base}/forces.csv").headers["content-type"].startswith("text/csv")
+    for path in ("..%2F..%2Fjobs.sqlite", "%2e%2e/%2e%2e/jobs.sqlite", "escape.txt", "checkpoint.npz",
+                 "%2Fetc%2Fpasswd", "summary.json", "fields.zip"):
+        r = offline.get(f"{base}/{path}")
+        assert r.status_code == 404, path
+        assert b"SQLite" not in r.content
+    assert [f["path"] for f in offline.get(base).json()["files"]] == ["forces.csv"]
+
+
+def test_tokens_owner_and_admin(offline: TestClient) -> None:
+    store = offline.app.state.store
+    alice, bob = create_token(store, "alice"), create_token(store, "bob")
+    admin = create_token(store, "ops", admin=True)
+    assert offline.get("/api/v1/jobs").status_code == 401
+    assert offline.get("/api/v1/jobs", headers={"Authorization": "Bearer nope"}).status_code == 401
+    r = offline.post("/api/v1/jobs", json=tiny(), headers={"Authorization": f"Bearer {alice}"})
+    job_id = r.json()["id"]
+    as_bob = offline.get(f"/api/v1/jobs/{job_id}", headers={"Authorization": f"Bearer {bob}"})
+    assert as_bob.json()["owner"] == "alice"
+    assert offline.post(f"/api/v1/jobs/{job_id}/cancel", headers={"Authorization": f"Bearer {bob}"}).status_code == 403
+    r = offline.post(f"/api/v1/jobs/{job_id}/cancel", headers={"Authorization": f"Bearer {admin}"})
+    assert r.json()["state"] == "cancelled"
+    assert store.find_token(alice) is None  # only the digest is stored
+
+
+def test_health_and_metrics_on_the_embedded_broker(offline: TestClient) -> None:
+    offline.post("/api/v1/jobs", json=tiny())
+    health = offline.get("/api/v1/health").json()
+    assert health["status"] == "ok" and health["queue_depth"] == 1
+    assert 'wakeyard_jobs{state="queued"} 1' in offline.get("/metrics").text
+    assert "JobSpec" in offline.get("/openapi.json").json()["components"]["schemas"]
+
+
+json_values = st.recursive(st.none() | st.booleans() | st.integers(-10**6, 10**6) | st.floats(allow_nan=False)
+                           | st.text(max_size=8), lambda inner: st.lists(inner, max_size=3)
+                           | st.dictionaries(st.text(max_size=8), inner, max_size=3), max_leaves=8)
+spec_keys = st.sampled_from(["title", "channel", "bodies", "fluid", "inflow", "mesh", "elements", "analysis", "probes"])
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(edits=st.dictionaries(spec_keys, json_values, max_size=3))
+def test_fuzzed_specs_never_give_500(offline: TestClient, edits: dict[str, Any]) -> None:
+    offline.app.state.settings.max_active_per_user = 10**9
+    body = json.dumps({**TINY, **edits})
+    r = offline.post("/api/v1/jobs", content=body, headers={"content-type": "application/json"})
+    assert r.status_code in (202, 422), r.text
+    if r.status_code == 422:
+        assert all(d["field"] and d["message"] for d in r.json()["detail"])
+
+
+def test_concurrent_submissions_from_several_clients(offline: TestClient) -> None:
+    offline.app.state.settings.max_active_per_user = 1000
+
+    def submit(client: int) -> list[str]:
+        return [offline.post("/api/v1/jobs", params={"tags": [f"client{client}"]}, json=tiny()).json()["id"]
+                for _ in range(8)]
+
+    with ThreadPoolExecutor(4) as pool:
+        ids = [i for batch in pool.map(submit, range(4)) for i in batch]
+    assert len(set(ids)) == 32
+    listed = offline.get("/api/v1/jobs", params={"limit": 100}).json()["jobs"]
+    assert sorted(j["id"] for j in listed) == sorted(ids)
+    assert len(offline.get("/api/v1/jobs", params={"tag": "client2"}).json()["jobs"]) == 8

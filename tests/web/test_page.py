@@ -1,0 +1,477 @@
+"""End-to-end tests of the web page in a real browser against a running service with a real worker.
+
+Order matters only for speed: the first test's job queues behind the ``pair`` jobs, which the compare
+test later reuses. Every test also passes on its own.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import re
+
+import pytest
+
+from .conftest import TINY, shot, submit, wait_state
+
+pytestmark = pytest.mark.timeout(180)
+
+expect = pytest.importorskip("playwright.sync_api", reason="pip install playwright (the test extra)").expect
+
+
+def fill(page, path: str, value) -> None:
+    """Type into the form field bound to spec path ``path`` (ids are f-<path with dashes>)."""
+    page.locator(f"#f-{path.replace('.', '-')}").fill(str(value))
+
+
+def read_csv(text: str) -> tuple[list[str], list[list[float]]]:
+    rows = list(csv.reader(io.StringIO(text)))
+    return rows[0], [[float(v) for v in r] for r in rows[1:] if r]
+
+
+def chart_points(page, host: str, series: str) -> list[tuple[float, float]]:
+    """Data points drawn for one series, mapped back from pixels through the chart's own axes.
+
+    Coordinates are drawn to 0.01 px, so a value comes back to within 0.005 px (see ``pixel``).
+    """
+    svg = page.locator(f"{host} svg.chart-svg")
+    d = svg.locator(f'path.series[data-series="{series}"]').get_attribute("d")
+    box = {k: float(svg.get_attribute(f"data-{k}")) for k in ("x0", "x1", "y0", "y1", "left", "top", "plot-width",
+                                                              "plot-height")}
+    pts = []
+    for px, py in re.findall(r"[ML](-?[\d.]+),(-?[\d.]+)", d):
+        t = box["x0"] + (float(px) - box["left"]) / box["plot-width"] * (box["x1"] - box["x0"])
+        y = box["y0"] + (1 - (float(py) - box["top"]) / box["plot-height"]) * (box["y1"] - box["y0"])
+        pts.append((t, y))
+    return pts
+
+
+def pixel(page, host: str) -> tuple[float, float]:
+    """Time and value spans of one pixel of the chart (the precision of ``chart_points``)."""
+    svg = page.locator(f"{host} svg.chart-svg")
+    get = lambda k: float(svg.get_attribute(f"data-{k}"))  # noqa: E731
+    return (get("x1") - get("x0")) / get("plot-width"), (get("y1") - get("y0")) / get("plot-height")
+
+
+def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
+    page.goto("/#/new")
+    expect(page.locator("#case-heading")).to_have_text("New case")
+    # start from the form's own case, then describe the small test case field by field
+    page.locator("#remove-body-0").click()
+    expect(page.locator(".body-card")).to_have_count(0)
+    page.locator("#new-shape").select_option("circle")
+    page.locator("#add-body").click()
+    expect(page.locator(".body-card")).to_have_count(1)
+    fill(page, "title", "Pipe in a cooling duct (form test)")
+    fill(page, "channel.length", 1.0)
+    fill(page, "channel.height", 0.41)
+    fill(page, "bodies.0.name", "pipe")
+    fill(page, "bodies.0.center.0", 0.2)
+    fill(page, "bodies.0.center.1", 0.2)
+    fill(page, "bodies.0.radius", 0.05)
+    page.locator("#fluid-by-viscosity").check()
+    fill(page, "fluid.viscosity", 0.001)
+    page.locator("#inflow-by-peak").check()
+    fill(page, "inflow.peak_velocity", 0.3)
+    fill(page, "inflow.ramp_time", 0.2)
+    page.locator("#f-mesh-preset").select_option("coarse")
+    fill(page, "mesh.scale", 2.0)
+    page.locator("#analysis-mode-transient").check()
+    page.locator("#f-analysis-scheme").select_option("bdf2-imex")
+    fill(page, "analysis.time_step", 0.01)
+    fill(page, "analysis.end_time", 0.3)
+    fill(page, "analysis.output_interval", 0.1)
+    # live figures: Re = (2/3 * 0.3) * 0.1 / 0.001 = 20, blockage 0.1 / 0.41, 30 steps
+    expect(page.locator('dd[data-figure="Reynolds number"]')).to_contain_text("20")
+    expect(page.locator('dd[data-figure="Blockage ratio"]')).to_contain_text("24.4 %")
+    expect(page.locator('dd[data-figure="Time steps"]')).to_contain_text("30")
+    # the drawing is to scale: the circle spans 0.1 / 1.0 of the channel's drawn length
+    bbox = "e => { const b = e.getBBox(); return {width: b.width, height: b.height}; }"
+    channel = page.locator(".case-svg .fluid-area").evaluate(bbox)
+    circle = page.locator(".case-svg g.body path").evaluate(bbox)
+    assert circle["width"] / channel["width"] == pytest.approx(0.1, rel=0.03)
+    assert circle["height"] / channel["height"] == pytest.approx(0.1 / 0.41, rel=0.03)
+    # the JSON view is the spec the API receives
+    spec = json.loads(page.locator("#spec-json").input_value())
+    assert spec["bodies"] == [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}]
+    assert spec["analysis"] == TINY["analysis"]
+    shot(page, "01-case-form")
+
+    page.locator("#submit-case").click()
+    page.wait_for_url(re.compile(r"#/jobs/\w+"))
+    job_id = page.url.rsplit("/", 1)[1]
+    # one worker is busy with the pair queued before: this job waits its turn in the queue
+    page.goto("/#/queue")
+    row = page.locator(f'tr[data-id="{job_id}"]')
+    expect(row).to_have_attribute("data-state", "queued")
+    expect(row.locator(".progress-cell")).to_contain_text("waiting for a worker")
+    expect(row).to_contain_text("local")
+    shot(page, "02-queue")
+
+    page.goto(f"/#/jobs/{job_id}")
+    badge = page.locator("#job-heading .badge")
+    expect(badge).to_have_attribute("data-state", re.compile("queued|running|succeeded"))
+    expect(badge).to_have_attribute("data-state", "succeeded", timeout=90_000)
+    expect(page.locator(".caution")).to_contain_text("not design loads")
+    summary = page.locator(".summary-table")
+    expect(summary).to_contain_text("Reynolds number")
+    expect(summary.locator("tr", has_text="Reynolds number").locator("td")).to_have_text("20")
+    expect(summary).to_contain_text("pipe: cD mean")
+
+    # the force chart holds every data point of forces.csv
+    columns, rows = read_csv(api.get(f"/jobs/{job_id}/files/forces.csv").text)
+    assert columns == ["time", "pipe_fx", "pipe_fy", "pipe_cd", "pipe_cl"]
+    assert len(rows) == 30
+    expect(page.locator('#force-chart path.series[data-series="pipe_cd"]')).to_have_count(1)
+    dt_px, dy_px = pixel(page, "#force-chart")
+    for name in ("pipe_cd", "pipe_cl"):
+        drawn = chart_points(page, "#force-chart", name)
+        j = columns.index(name)
+        assert len(drawn) == len(rows)
+        for (t, y), row_ in zip(drawn, rows):
+            assert t == pytest.approx(row_[0], abs=0.006 * dt_px)
+            assert y == pytest.approx(row_[j], abs=0.006 * dy_px)
+
+    # hover reads values: point at sample 15 and read cD from the tooltip
+    svg = page.locator("#force-chart svg.chart-svg")
+    box = svg.bounding_box()
+    left, width = float(svg.get_attribute("data-left")), float(svg.get_attribute("data-plot-width"))
+    x0, x1 = float(svg.get_attribute("data-x0")), float(svg.get_attribute("data-x1"))
+    t15 = rows[14][0]
+    scale = box["width"] / float(svg.get_attribute("width"))
+    page.mouse.move(box["x"] + (left + (t15 - x0) / (x1 - x0) * width) * scale, box["y"] + box["height"] / 2)
+    tip = page.locator("#force-chart .chart-tip")
+    expect(tip).to_be_visible()
+    expect(tip.locator(".tip-time")).to_have_text(f"t = {t15:g} s")
+    shown = float(tip.locator('[data-series="pipe_cd"]').inner_text().split(":")[-1])
+    assert shown == pytest.approx(rows[14][3], rel=1e-5)
+
+    # the keyboard reads values too: End jumps to the last sample
+    svg.focus()
+    page.keyboard.press("End")
+    expect(tip.locator(".tip-time")).to_have_text(f"t = {rows[-1][0]:g} s")
+    page.keyboard.press("ArrowLeft")
+    expect(tip.locator(".tip-time")).to_have_text(f"t = {rows[-2][0]:g} s")
+
+    # zoom to a time window by dragging, then back
+    page.mouse.move(box["x"] + (left + 0.25 * width) * scale, box["y"] + box["height"] / 2)
+    page.mouse.down()
+    page.mouse.move(box["x"] + (left + 0.6 * width) * scale, box["y"] + box["height"] / 2, steps=5)
+    page.mouse.up()
+    zx0, zx1 = float(svg.get_attribute("data-x0")), float(svg.get_attribute("data-x1"))
+    assert x0 < zx0 < zx1 < x1
+    inside = [r for r in rows if zx0 <= r[0] <= zx1]
+    assert len(inside) + 0 <= len(chart_points(page, "#force-chart", "pipe_cd")) <= len(inside) + 2
+    page.get_by_role("button", name="Show all").click()
+    assert float(svg.get_attribute("data-x0")) == pytest.approx(x0)
+
+    # toggle a series off and on
+    legend = page.locator('#force-chart .legend-item[data-series="pipe_cl"]')
+    legend.click()
+    expect(legend).to_have_attribute("aria-pressed", "false")
+    expect(page.locator('#force-chart path.series[data-series="pipe_cl"]')).to_have_count(0)
+    legend.click()
+    expect(page.locator('#force-chart path.series[data-series="pipe_cl"]')).to_have_count(1)
+
+    # a field picture loads, and the slider and field choice change it
+    picture = page.locator("#field-picture")
+    expect(picture).to_have_attribute("src", re.compile(r"pictures/speed_000030\.png$"))
+    page.wait_for_function("() => { const i = document.getElementById('field-picture'); "
+                           "return i.complete && i.naturalWidth > 100; }")
+    slider = page.locator("#snapshot")
+    slider.focus()
+    page.keyboard.press("Home")
+    expect(picture).to_have_attribute("src", re.compile(r"pictures/speed_000000\.png$"))
+    page.locator("#field-vorticity").check()
+    expect(picture).to_have_attribute("src", re.compile(r"pictures/vorticity_000000\.png$"))
+    page.wait_for_function("() => { const i = document.getElementById('field-picture'); "
+                           "return i.complete && i.naturalWidth > 100; }")
+    expect(page.locator("#picture-caption")).to_contain_text("snapshot 1 of 4")
+    # download links point at the service's files
+    csv_link = page.get_by_role("link", name="Force history (CSV)")
+    expect(csv_link).to_have_attribute("href", f"/api/v1/jobs/{job_id}/files/forces.csv")
+    expect(page.get_by_role("link", name=re.compile("zip of VTU"))).to_have_attribute("href", re.compile("fields.zip$"))
+    shot(page, "03-job-results")
+
+
+def test_bad_values_show_their_errors_beside_the_fields(page, api) -> None:
+    before = len(api.get("/jobs", params={"limit": 500}).json()["jobs"])
+    page.goto("/#/new")
+    fill(page, "bodies.0.radius", -0.05)
+    fill(page, "analysis.time_step", "abc")
+    page.locator("#submit-case").click()
+    radius_error = page.locator("#err-f-bodies-0-radius")
+    expect(radius_error).to_be_visible()
+    expect(radius_error).to_contain_text("greater than 0")
+    expect(page.locator("#f-bodies-0-radius")).to_have_attribute("aria-invalid", "true")
+    step_error = page.locator("#err-f-analysis-time_step")
+    expect(step_error).to_be_visible()
+    expect(step_error).to_contain_text("number")
+    summary = page.locator("#error-summary")
+    expect(summary).to_be_visible()
+    expect(summary).to_contain_text("Body 1 › radius")
+    shot(page, "04-form-errors")
+    # fixing a field clears its message; a cross-field problem lands on the body it names
+    fill(page, "bodies.0.radius", 0.05)
+    expect(radius_error).to_be_hidden()
+    fill(page, "analysis.time_step", 0.01)
+    fill(page, "bodies.0.center.1", 0.39)
+    page.locator("#submit-case").click()
+    body_error = page.locator('[data-error-for="bodies.0"]')
+    expect(body_error).to_contain_text("not strictly inside the channel")
+    assert page.url.endswith("#/new")
+    assert len(api.get("/jobs", params={"limit": 500}).json()["jobs"]) == before
+
+
+def test_cancel_running_and_queued_jobs(page, api) -> None:
+    long_case = {**TINY, "title": "Long run to cancel", "analysis": {**TINY["analysis"], "end_time": 200.0,
+                                                                      "output_interval": 100.0}}
+    running = submit(api, long_case)
+    waiting = submit(api, {**long_case, "title": "Queued run to cancel"})
+    wait_state(api, running, {"running"}, timeout=90)
+    # the second one waits behind it; cancel it from the queue
+    page.goto("/#/queue")
+    row = page.locator(f'tr[data-id="{waiting}"]')
+    expect(row).to_have_attribute("data-state", "queued")
+    expect(page.locator(f'tr[data-id="{running}"]')).to_have_attribute("data-state", "running")
+    expect(page.locator("#live-state")).to_have_attribute("data-state", "live")
+    row.get_by_role("button", name="Cancel").click()
+    expect(row).to_have_attribute("data-state", "cancelled", timeout=20_000)
+    # the running one from its own page: it stops within a few seconds
+    page.goto(f"/#/jobs/{running}")
+    expect(page.locator("#job-heading .badge")).to_have_attribute("data-state", "running")
+    page.locator("#job-cancel").click()
+    expect(page.locator("#job-heading .badge")).to_have_attribute("data-state", "cancelled", timeout=30_000)
+    expect(page.locator("#job-cancel")).to_have_count(0)
+    assert api.get(f"/jobs/{running}").json()["state"] == "cancelled"
+    # nothing runs now: the queue stops polling
+    page.goto("/#/queue")
+    expect(page.locator("#live-state")).to_have_attribute("data-state", "idle", timeout=20_000)
+    calls: list[str] = []
+    page.on("request", lambda r: calls.append(r.url) if "/api/v1/jobs" in r.url else None)
+    page.wait_for_timeout(3000)
+    assert calls == []
+    shot(page, "05-queue-after-cancel")
+    # delete asks first, then the job and its files are gone
+    page.once("dialog", lambda d: d.dismiss())
+    row.get_by_role("button", name="Delete").click()
+    expect(row).to_be_visible()
+    page.once("dialog", lambda d: d.accept())
+    row.get_by_role("button", name="Delete").click()
+    expect(row).to_have_count(0)
+    assert api.get(f"/jobs/{waiting}").status_code == 404
+
+
+def test_compare_overlays_two_jobs(page, api, pair) -> None:
+    for job_id in pair:
+        wait_state(api, job_id, {"succeeded"}, timeout=120)
+    page.goto("/#/queue")
+    for job_id in pair:
+        page.locator(f"#pick-{job_id}").check()
+    page.locator("#compare-picked").click()
+    page.wait_for_url(re.compile(r"#/compare\?ids="))
+    series = page.locator("#compare-chart path.series")
+    expect(series).to_have_count(4)  # cD and cL of each job
+    for job_id in pair:
+        columns, rows = read_csv(api.get(f"/jobs/{job_id}/files/forces.csv").text)
+        drawn = chart_points(page, "#compare-chart", f"{job_id}:pipe_cd")
+        assert len(drawn) == len(rows)
+        dt_px, dy_px = pixel(page, "#compare-chart")
+        assert [t for t, _ in drawn] == pytest.approx([r[0] for r in rows], abs=0.006 * dt_px)
+        assert [y for _, y in drawn] == pytest.approx([r[3] for r in rows], abs=0.006 * dy_px)
+    # two different viscosities: two different drag histories
+    a, b = (chart_points(page, "#compare-chart", f"{j}:pipe_cd") for j in pair)
+    assert a[-1][1] != pytest.approx(b[-1][1], rel=1e-3)
+    table = page.locator("#compare-table")
+    expect(table.locator("thead th")).to_have_count(3)
+    expect(table).to_contain_text("Compare case 1")
+    expect(table).to_contain_text("Compare case 2")
+    re_row = table.locator("tr", has_text="Reynolds number").locator("td")
+    expect(re_row).to_have_text(["20", "13.33"])
+    expect(page.locator(".caution")).to_contain_text("licensed engineer")
+    shot(page, "06-compare")
+
+
+def test_json_spec_round_trip_and_upload(page, base_url, tmp_path) -> None:
+    page.context.grant_permissions(["clipboard-read", "clipboard-write"], origin=base_url)
+    page.goto("/#/new")
+    box = page.locator("#spec-json")
+    # copy puts the spec on the clipboard; paste reads one back into the form
+    page.get_by_role("button", name="Copy").click()
+    page.wait_for_function("async () => (await navigator.clipboard.readText()).includes('cooling duct')")
+    copied = json.loads(page.evaluate("navigator.clipboard.readText()"))
+    assert copied == json.loads(box.input_value())
+    copied["bodies"][0]["center"] = [0.3, 0.15]
+    page.evaluate("text => navigator.clipboard.writeText(text)", json.dumps(copied))
+    page.get_by_role("button", name="Paste").click()
+    expect(page.locator("#f-bodies-0-center-0")).to_have_value("0.3")
+    expect(page.locator("#f-bodies-0-center-1")).to_have_value("0.15")
+    spec = json.loads(box.input_value())
+    spec["bodies"][0]["radius"] = 0.08
+    spec["channel"]["walls"] = "slip"
+    box.fill(json.dumps(spec))
+    page.get_by_role("button", name="Apply JSON to form").click()
+    expect(page.locator("#f-bodies-0-radius")).to_have_value("0.08")
+    expect(page.locator("#f-channel-walls")).to_have_value("slip")
+    box.fill("{not json")
+    page.get_by_role("button", name="Apply JSON to form").click()
+    expect(page.locator("#json-error")).to_contain_text("Not valid JSON")
+    # upload a file: a bridge pier with two probes
+    pier = {"title": "Pier upload", "channel": {"length": 16.0, "height": 6.0, "walls": "slip"},
+            "bodies": [{"name": "pier", "shape": "rectangle", "center": [4.0, 3.0], "width": 1.6, "height": 0.8}],
+            "fluid": {"reynolds": 40}, "inflow": {"profile": "uniform", "mean_velocity": 0.5},
+            "probes": {"pressure_drop": [[2.5, 3.0], [6.0, 3.0]]}}
+    path = tmp_path / "pier.json"
+    path.write_text(json.dumps(pier))
+    page.locator("#spec-upload").set_input_files(str(path))
+    expect(page.locator("#f-bodies-0-width")).to_have_value("1.6")
+    expect(page.locator("#f-fluid-reynolds")).to_have_value("40")
+    expect(page.locator(".case-svg .probe")).to_have_count(2)
+    expect(page.locator('dd[data-figure="Blockage ratio"]')).to_contain_text("13.3 %")
+    assert json.loads(box.input_value()) == pier
+
+
+def test_bodies_move_with_the_keyboard(page) -> None:
+    page.goto("/#/new")
+    page.locator("#f-bodies-0-center-0").fill("0.2")
+    body = page.locator(".case-svg g.body").first
+    body.focus()
+    page.keyboard.press("ArrowRight")
+    page.keyboard.press("Shift+ArrowUp")
+    expect(page.locator("#f-bodies-0-center-0")).to_have_value("0.205")
+    expect(page.locator("#f-bodies-0-center-1")).to_have_value("0.25")
+    # drag it with the mouse: 0.1 m to the right at the drawing's scale
+    channel = page.locator(".case-svg .fluid-area").bounding_box()
+    per_metre = channel["width"] / 1.0
+    start = page.locator(".case-svg g.body path").first.bounding_box()
+    x, y = start["x"] + start["width"] / 2, start["y"] + start["height"] / 2
+    page.mouse.move(x, y)
+    page.mouse.down()
+    page.mouse.move(x + 0.1 * per_metre, y, steps=8)
+    page.mouse.up()
+    moved = float(page.locator("#f-bodies-0-center-0").input_value())
+    assert moved == pytest.approx(0.305, abs=0.005)
+    assert float(page.locator("#f-bodies-0-center-1").input_value()) == pytest.approx(0.25, abs=0.005)
+    # add and remove bodies of other shapes with the keyboard only
+    page.locator("#new-shape").select_option("naca4")
+    page.locator("#add-body").press("Enter")
+    expect(page.locator("#f-bodies-1-code")).to_have_value("0012")
+    expect(page.locator(".case-svg g.body")).to_have_count(2)
+    page.locator("#remove-body-1").press("Enter")
+    expect(page.locator(".case-svg g.body")).to_have_count(1)
+
+
+def test_phone_width_has_no_sideways_scrolling(browser, base_url, api, pair) -> None:
+    wait_state(api, pair[0], {"succeeded"}, timeout=120)
+    context = browser.new_context(base_url=base_url, viewport={"width": 390, "height": 844}, is_mobile=True)
+    page = context.new_page()
+    try:
+        for name, view, ready in (("new", "#/new", ".case-svg g.body"), ("queue", "#/queue", "table.jobs tbody tr"),
+                                  ("job", f"#/jobs/{pair[0]}", "#force-chart path.series")):
+            page.goto(f"/{view}")
+            expect(page.locator(ready).first).to_be_visible()
+            overflow = page.evaluate("document.documentElement.scrollWidth - window.innerWidth")
+            assert overflow <= 1, f"{view} is {overflow}px wider than the phone screen"
+            shot(page, f"07-phone-{name}")
+    finally:
+        context.close()
+
+
+def test_wrong_token_is_reported_and_can_be_forgotten(page) -> None:
+    page.goto("/#/queue")
+    page.locator("#token").fill("not-a-real-token")
+    page.get_by_role("button", name="Save").click()
+    expect(page.locator("#view-queue .message")).to_contain_text("token")
+    assert page.evaluate("localStorage.getItem('wakeyard.token')") == "not-a-real-token"
+    page.get_by_role("button", name="Forget").click()
+    expect(page.locator("#view-queue .message")).to_have_text("")
+    assert page.evaluate("localStorage.getItem('wakeyard.token')") is None
+
+
+def test_a_thousand_jobs_are_paged(page) -> None:
+    """The page asks for one page at a time and follows the cursor; 1,000 jobs never become 1,000 rows."""
+    jobs = [{"id": f"{i:032x}", "state": ["queued", "running", "succeeded", "failed", "cancelled"][i % 5],
+             "owner": f"user{i % 7}", "title": f"Sweep case {i}", "tags": [], "spec": {},
+             "progress": {"fraction": 0.5, "step": 5, "time": 0.1, "eta_seconds": 30},
+             "created_at": "2026-01-01T00:00:00+00:00", "started_at": None, "finished_at": None,
+             "summary": None, "error": None} for i in range(1000, 0, -1)]
+    asked: list[str] = []
+
+    def fulfil(route) -> None:
+        from urllib.parse import parse_qs, urlparse
+
+        q = parse_qs(urlparse(route.request.url).query)
+        asked.append(route.request.url)
+        limit = int(q.get("limit", ["50"])[0])
+        start = int(q.get("cursor", ["0"])[0])
+        page_jobs = jobs[start:start + limit]
+        nxt = str(start + limit) if start + limit < len(jobs) else None
+        route.fulfill(json={"jobs": page_jobs, "next_cursor": nxt})
+
+    page.route(re.compile(r".*/api/v1/jobs\?.*"), fulfil)
+    page.goto("/#/queue")
+    rows = page.locator("table.jobs tbody tr")
+    expect(rows).to_have_count(50)
+    assert "limit=50" in asked[-1]
+    page.locator("#filter-limit").select_option("200")
+    expect(rows).to_have_count(200)
+    page.locator("#page-next").click()
+    expect(rows.first).to_contain_text("Sweep case 800")
+    assert "cursor=200" in asked[-1]
+    page.locator("#page-prev").click()
+    expect(rows.first).to_contain_text("Sweep case 1000")
+    # filters go to the service (a new first page), not through the rows in the browser
+    with page.expect_request(lambda r: "state=failed" in r.url) as filtered:
+        page.locator("#filter-state").select_option("failed")
+    assert "cursor" not in filtered.value.url
+    with page.expect_request(lambda r: "owner=user3" in r.url) as filtered:
+        page.locator("#filter-owner").fill("user3")
+    assert "state=failed" in filtered.value.url
+
+
+def test_rerun_with_edits_queues_a_changed_copy(page, api, pair) -> None:
+    original = wait_state(api, pair[0], {"succeeded"}, timeout=120)
+    page.goto(f"/#/jobs/{pair[0]}")
+    page.locator("#job-edit").click()
+    page.wait_for_url(re.compile("#/new$"))
+    expect(page.locator(".from-note")).to_contain_text("Compare case 1")
+    expect(page.locator("#f-fluid-viscosity")).to_have_value("0.001")
+    fill(page, "title", "Compare case 1, finer steps")
+    fill(page, "analysis.time_step", 0.005)
+    page.locator("#submit-case").click()
+    page.wait_for_url(re.compile(r"#/jobs/\w+"))
+    copy_id = page.url.rsplit("/", 1)[1]
+    assert copy_id != pair[0]
+    copy = api.get(f"/jobs/{copy_id}").json()
+    api.post(f"/jobs/{copy_id}/cancel")  # only its spec matters here
+    assert copy["spec"]["analysis"]["time_step"] == 0.005
+    assert copy["spec"]["title"] == "Compare case 1, finer steps"
+    unchanged = {k: v for k, v in copy["spec"].items() if k not in ("analysis", "title")}
+    assert unchanged == {k: v for k, v in original["spec"].items() if k not in ("analysis", "title")}
+    assert api.get(f"/jobs/{pair[0]}").json()["spec"] == original["spec"]
+
+
+def test_long_force_history_is_thinned_but_keeps_its_extremes(page) -> None:
+    """100,000 samples draw as at most a few points per pixel column, and no peak is lost."""
+    page.goto("/#/queue")
+    result = page.evaluate("""async () => {
+        const {LineChart} = await import('/chart.js');
+        const host = document.createElement('div');
+        host.style.width = '800px';
+        document.body.append(host);
+        const n = 100000, x = new Array(n), y = new Array(n);
+        for (let i = 0; i < n; i++) { x[i] = i * 1e-3; y[i] = Math.sin(x[i]) + (i === 54321 ? 5 : 0); }
+        const chart = new LineChart(host, {label: 'test'});
+        chart.setSeries([{id: 's', label: 's', x, y}]);
+        const svg = host.querySelector('svg.chart-svg');
+        const d = svg.querySelector('path.series').getAttribute('d');
+        const ys = [...d.matchAll(/[ML]([-\\d.]+),([-\\d.]+)/g)].map(m => Number(m[2]));
+        return {points: ys.length, width: Number(svg.dataset.plotWidth), top: Math.min(...ys),
+                y1: Number(svg.dataset.y1), y0: Number(svg.dataset.y0), t: Number(svg.dataset.top),
+                h: Number(svg.dataset.plotHeight)};
+    }""")
+    assert result["points"] <= 2 * (result["width"] + 2)
+    peak = result["y0"] + (1 - (result["top"] - result["t"]) / result["h"]) * (result["y1"] - result["y0"])
+    assert peak == pytest.approx(5 + math.sin(54.321), abs=0.01 * (result["y1"] - result["y0"]))

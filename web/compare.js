@@ -1,0 +1,114 @@
+// Compare jobs: their force histories overlaid on one chart and their summaries side by side.
+
+import {api} from "./api.js";
+import {LineChart, PALETTE} from "./chart.js";
+import {picked, savePicked} from "./queue.js";
+import {caution, jobTitle, loadForces, stateBadge, summaryRows} from "./results.js";
+import {fill, h, shortId} from "./util.js";
+
+export class CompareView {
+  constructor(root) {
+    this.root = root;
+  }
+
+  async show(ids) {
+    ids = [...new Set(ids.filter(Boolean))];
+    this.picker = h("section", {class: "card", "aria-labelledby": "pick-heading"});
+    this.body = h("div", {class: "compare-body"});
+    fill(this.root, h("div", {class: "view-head"}, h("h2", {}, "Compare jobs")), this.picker, this.body);
+    this.renderPicker(ids);
+    if (ids.length < 2) {
+      fill(this.body, h("p", {class: "hint"}, "Pick two or more jobs above (or tick them in the queue) to compare them."));
+      return;
+    }
+    fill(this.body, h("p", {class: "hint"}, "Loading…"));
+    const loaded = await Promise.all(ids.map(async (id) => {
+      try {
+        const job = await api.getJob(id);
+        let forces = null;
+        try {
+          forces = await loadForces(id);
+        } catch {
+          /* no forces.csv (yet) */
+        }
+        return {job, forces};
+      } catch (err) {
+        return {job: {id, state: "missing", error: err.message}, forces: null};
+      }
+    }));
+    this.render(loaded);
+  }
+
+  async renderPicker(ids) {
+    fill(this.picker, h("h3", {id: "pick-heading"}, "Jobs to compare"), h("p", {class: "hint"}, "Loading recent finished jobs…"));
+    let jobs = [];
+    try {
+      jobs = (await api.listJobs({state: "succeeded", limit: 50})).items;
+    } catch (err) {
+      fill(this.picker, h("h3", {id: "pick-heading"}, "Jobs to compare"), h("p", {class: "message"}, err.message));
+      return;
+    }
+    const chosen = new Set(ids);
+    const list = h("ul", {class: "pick-list"}, jobs.map((j) => h("li", {},
+      h("input", {type: "checkbox", id: `cmp-${j.id}`, value: j.id, checked: chosen.has(j.id)}),
+      h("label", {for: `cmp-${j.id}`}, jobTitle(j), " ", h("small", {}, `${shortId(j.id)} · ${j.owner ?? ""}`)))));
+    const apply = h("button", {type: "button", class: "btn btn-primary", id: "compare-apply", onclick: () => {
+      const sel = [...list.querySelectorAll("input:checked")].map((i) => i.value);
+      const others = ids.filter((id) => !jobs.some((j) => j.id === id));
+      const all = [...others, ...sel];
+      picked.clear();
+      all.forEach((id) => picked.add(id));
+      savePicked();
+      location.hash = `#/compare?ids=${all.join(",")}`;
+    }}, "Compare these");
+    fill(this.picker, h("h3", {id: "pick-heading"}, "Jobs to compare"),
+      jobs.length ? h("details", {open: ids.length < 2}, h("summary", {}, `Recent finished jobs (${jobs.length})`), list, apply)
+        : h("p", {class: "hint"}, "No finished jobs yet."));
+  }
+
+  render(loaded) {
+    const parts = [caution()];
+    const withForces = loaded.filter((x) => x.forces && x.forces.time.length > 1);
+    let host = null;
+    if (withForces.length) {
+      host = h("div", {class: "chart-host", id: "compare-chart"});
+      parts.push(h("section", {class: "card chart-card", "aria-labelledby": "overlay-heading"},
+        h("h3", {id: "overlay-heading"}, "Force coefficients over time"),
+        h("p", {class: "hint"}, "One colour per job; solid lines drag (cD), dashed lines lift (cL)."), host));
+    } else {
+      parts.push(h("p", {class: "hint"}, "None of these jobs has a force history over time (steady runs have one value)."));
+    }
+    parts.push(this.table(loaded));
+    fill(this.body, parts);
+    if (!host) return;
+    const chart = new LineChart(host, {label: "Drag and lift coefficients of the compared jobs", yLabel: "cD, cL"});
+    const series = [];
+    loaded.forEach(({job, forces}, i) => {
+      if (!forces || forces.time.length < 2) return;
+      for (const c of forces.columns.filter((col) => col.quantity === "cd" || col.quantity === "cl")) {
+        series.push({id: `${job.id}:${c.key}`, label: `${shortTitle(job)} · ${c.label}`, x: forces.time, y: c.values,
+          color: PALETTE[i % PALETTE.length], dash: c.quantity === "cl" ? "6 4" : ""});
+      }
+    });
+    chart.setSeries(series);
+    this.chart = chart;
+  }
+
+  table(loaded) {
+    const rowsOf = loaded.map(({job}) => new Map(summaryRows(job).map(([k, v]) => [k, v])));
+    const labels = [];
+    for (const rows of rowsOf) for (const k of rows.keys()) if (!labels.includes(k)) labels.push(k);
+    return h("section", {class: "card", "aria-labelledby": "side-heading"},
+      h("h3", {id: "side-heading"}, "Summaries side by side"),
+      h("div", {class: "table-wrap"}, h("table", {class: "compare-table", id: "compare-table"},
+        h("thead", {}, h("tr", {}, h("th", {scope: "col"}, "Quantity"), loaded.map(({job}, i) => h("th", {scope: "col", dataset: {id: job.id}},
+          h("span", {class: "swatch", style: `background:${PALETTE[i % PALETTE.length]}`}),
+          h("a", {href: `#/jobs/${job.id}`}, jobTitle(job)), " ", stateBadge(job.state))))),
+        h("tbody", {}, labels.map((k) => h("tr", {}, h("th", {scope: "row"}, k), rowsOf.map((rows) => h("td", {}, rows.get(k) ?? "—"))))))));
+  }
+}
+
+function shortTitle(job) {
+  const t = jobTitle(job);
+  return `${t.length > 24 ? `${t.slice(0, 23)}…` : t} (${shortId(job.id)})`;
+}

@@ -1,0 +1,721 @@
+// The case form: edits one job spec (the same JSON a script would send), draws it to scale,
+// shows the Reynolds number, blockage ratio and a rough cost, and puts the service's validation
+// errors beside the fields they name.
+
+import {ApiError, api} from "./api.js";
+import {CaseDrawing, translateBody} from "./drawing.js";
+import {EXAMPLES, newBody} from "./examples.js";
+import {blockage, channelOf, cost, geometryWarnings, nominalVelocity, referenceLength, reynolds} from "./geometry.js";
+import {duration, fill, getPath, h, integer, num, prune, setPath, toast} from "./util.js";
+
+const SHAPES = [["circle", "Circle"], ["rectangle", "Rectangle"], ["ellipse", "Ellipse"],
+  ["naca4", "Airfoil (NACA 4-digit)"], ["polygon", "Polygon"]];
+
+const idOf = (path) => `f-${path.replaceAll(".", "-")}`;
+const clone = (x) => JSON.parse(JSON.stringify(x ?? {}));
+const isNum = (v) => typeof v === "number" && Number.isFinite(v);
+
+/** Seconds per (unknown × step) measured on finished jobs of this server; set by the queue view. */
+export const calibration = {rate: null, jobs: 0};
+
+export class CaseForm {
+  constructor(root, {onQueued}) {
+    this.root = root;
+    this.onQueued = onQueued;
+    this.spec = clone(EXAMPLES.pipe.spec);
+    this.tags = "";
+    this.from = null; // job whose spec was loaded for a re-run
+    this.localErrors = new Map(); // path -> message (unparseable numbers)
+    this.jsonDirty = false;
+    this.build();
+  }
+
+  // ---------- layout ----------
+  build() {
+    this.form = h("form", {class: "case-form", novalidate: true, "aria-labelledby": "case-heading",
+      oninput: (e) => this.onInput(e), onchange: (e) => this.onInput(e), onsubmit: (e) => this.submit(e)});
+    this.summary = h("div", {class: "error-summary", id: "error-summary", tabindex: "-1", hidden: true});
+    this.fromNote = h("p", {class: "from-note", hidden: true});
+    this.drawingHost = h("div", {class: "drawing-host"});
+    this.figures = h("dl", {class: "figures", "aria-live": "polite"});
+    this.warnings = h("ul", {class: "warnings", "aria-live": "polite"});
+    this.json = h("textarea", {id: "spec-json", class: "json", rows: 18, spellcheck: false, autocomplete: "off",
+      "aria-describedby": "json-help json-error json-dirty", oninput: () => {
+        this.jsonDirty = true;
+        this.jsonDirtyNote.hidden = false;
+      }});
+    this.jsonDirtyNote = h("p", {id: "json-dirty", class: "hint", hidden: true},
+      "This box has edits the form does not have yet: apply them, or ",
+      h("button", {type: "button", class: "btn btn-small", onclick: () => {
+        this.jsonDirty = false;
+        this.jsonDirtyNote.hidden = true;
+        this.jsonError.hidden = true;
+        this.update();
+      }}, "show the form's case again"), ".");
+    this.jsonError = h("p", {id: "json-error", class: "field-error", hidden: true});
+    this.upload = h("input", {type: "file", accept: ".json,application/json", class: "visually-hidden", id: "spec-upload",
+      onchange: (e) => this.uploadFile(e)});
+    const exampleSelect = h("select", {id: "example", "aria-label": "Start from an example"},
+      h("option", {value: ""}, "Start from an example…"),
+      Object.entries(EXAMPLES).map(([key, ex]) => h("option", {value: key}, ex.label)));
+    exampleSelect.addEventListener("change", () => {
+      const ex = EXAMPLES[exampleSelect.value];
+      if (ex) this.load(ex.spec);
+      exampleSelect.value = "";
+    });
+    const side = h("aside", {class: "case-side", "aria-label": "Preview of the case"},
+      h("section", {class: "card preview"}, h("h3", {}, "Drawing"), this.drawingHost, this.figures, this.warnings),
+      h("section", {class: "card json-card"},
+        h("h3", {}, h("label", {for: "spec-json"}, "Case as JSON")),
+        h("p", {class: "hint", id: "json-help"}, "The same document a script sends to POST /api/v1/jobs. ",
+          "Edit or paste it here, then apply it to the form."),
+        this.json, this.jsonError, this.jsonDirtyNote,
+        h("div", {class: "button-row"},
+          h("button", {type: "button", class: "btn", onclick: () => this.applyJson()}, "Apply JSON to form"),
+          h("button", {type: "button", class: "btn", onclick: () => this.copyJson()}, "Copy"),
+          h("button", {type: "button", class: "btn", onclick: () => this.pasteJson()}, "Paste"),
+          h("label", {class: "btn", for: "spec-upload", tabindex: "0", role: "button",
+            onkeydown: (e) => {
+              if (e.key === "Enter" || e.key === " ") {
+                e.preventDefault();
+                this.upload.click();
+              }
+            }}, "Upload file…"), this.upload,
+          h("button", {type: "button", class: "btn", onclick: () => this.downloadJson()}, "Download"))));
+    this.fields = h("div", {class: "form-fields"});
+    fill(this.root,
+      h("div", {class: "view-head"}, h("h2", {id: "case-heading"}, "New case"), exampleSelect),
+      this.fromNote, this.summary,
+      h("div", {class: "case-layout"}, h("div", {class: "case-main"}, this.form), side));
+    this.form.append(this.fields,
+      h("div", {class: "submit-row"},
+        field("tags", "Tags (optional)", h("input", {id: "f-tags", type: "text", value: this.tags,
+          placeholder: "e.g. study-a, mesh-check", oninput: (e) => {
+            this.tags = e.target.value;
+          }}), {hint: "Comma-separated labels to find the job later."}),
+        h("button", {type: "submit", class: "btn btn-primary", id: "submit-case"}, "Queue this case")));
+    this.drawing = new CaseDrawing(this.drawingHost, {onMove: (i, dx, dy) => this.moveBody(i, dx, dy)});
+    this.renderFields();
+    this.update();
+  }
+
+  /** Load a spec (from an example, JSON, a file or a job to re-run) into the form. */
+  load(spec, {from = null} = {}) {
+    this.spec = stripNulls(clone(spec));
+    this.from = from;
+    this.fromNote.hidden = !from;
+    if (from) {
+      fill(this.fromNote, "Editing a copy of job ", h("a", {href: `#/jobs/${from.id}`}, from.title || from.id),
+        ". Queuing it makes a new job; the original stays as it is.");
+    }
+    this.localErrors.clear();
+    this.showErrors([]);
+    this.jsonDirty = false;
+    this.jsonDirtyNote.hidden = true;
+    this.renderFields();
+    this.update();
+  }
+
+  renderFields() {
+    const active = document.activeElement?.id;
+    const sp = this.spec;
+    const ch = channelOf(sp);
+    const transient = (sp.analysis?.mode ?? "steady") === "transient";
+    const byReynolds = isNum(sp.fluid?.reynolds) || (sp.fluid?.reynolds !== undefined && sp.fluid?.viscosity === undefined);
+    const byMean = sp.inflow?.mean_velocity !== undefined && sp.inflow?.peak_velocity === undefined;
+    const lawKind = sp.inflow?.time_law?.kind ?? "constant";
+    const bodies = sp.bodies ?? [];
+    const pd = sp.probes?.pressure_drop;
+    fill(this.fields,
+      fieldset("Case", null,
+        textField("title", "Title", sp, {placeholder: "A short description of the case"})),
+      fieldset("Channel", "channel",
+        h("div", {class: "row"},
+          numberField("channel.length", "Length", sp, {unit: "m", placeholder: "2.2"}),
+          numberField("channel.height", "Height", sp, {unit: "m", placeholder: "0.41"})),
+        selectField("channel.walls", "Top and bottom walls", sp, [["no-slip", "No-slip (fluid sticks to the walls)"],
+          ["slip", "Slip (free stream, walls do not slow the flow)"]], "no-slip")),
+      fieldset(`Bodies (${bodies.length})`, "bodies",
+        bodies.length ? null : h("p", {class: "hint"}, "No bodies: the channel is empty."),
+        h("ol", {class: "body-list"}, bodies.map((b, i) => this.bodyCard(b, i, ch))),
+        h("div", {class: "row add-body"},
+          h("label", {for: "new-shape"}, "Add a"),
+          h("select", {id: "new-shape"}, SHAPES.map(([v, label]) => h("option", {value: v}, label))),
+          h("button", {type: "button", class: "btn", id: "add-body", disabled: bodies.length >= 20,
+            onclick: () => this.addBody(document.getElementById("new-shape").value)}, "Add body"))),
+      fieldset("Fluid", "fluid",
+        numberField("fluid.density", "Density ρ", sp, {unit: "kg/m³", placeholder: "1",
+          hint: "Only scales forces and pressure; the coefficients do not depend on it."}),
+        radioGroup("fluid-by", "Set the viscosity by", [["viscosity", "Kinematic viscosity ν"], ["reynolds", "Reynolds number Re"]],
+          byReynolds ? "reynolds" : "viscosity", (v) => this.switchFluid(v)),
+        byReynolds
+          ? numberField("fluid.reynolds", "Reynolds number Re", sp, {hint: "Re = U·L/ν on the reference scales below."})
+          : numberField("fluid.viscosity", "Kinematic viscosity ν", sp, {unit: "m²/s", placeholder: "0.001"}),
+        h("details", {class: "more", open: !!(sp.fluid?.reference?.velocity || sp.fluid?.reference?.length)},
+          h("summary", {}, "Reference scales (optional)"),
+          h("p", {class: "hint"}, "By default U is the mean inflow velocity and L the first body's diameter, chord or frontal height."),
+          h("div", {class: "row"},
+            numberField("fluid.reference.velocity", "Reference velocity U", sp, {unit: "m/s"}),
+            numberField("fluid.reference.length", "Reference length L", sp, {unit: "m"})))),
+      fieldset("Inflow", "inflow",
+        selectField("inflow.profile", "Profile across the channel", sp, [["parabolic", "Parabolic (developed channel flow)"],
+          ["uniform", "Uniform"]], "parabolic"),
+        radioGroup("inflow-by", "Give the inflow speed as", [["peak", "Peak velocity"], ["mean", "Mean velocity"]],
+          byMean ? "mean" : "peak", (v) => this.switchInflow(v)),
+        byMean ? numberField("inflow.mean_velocity", "Mean velocity", sp, {unit: "m/s"})
+          : numberField("inflow.peak_velocity", "Peak velocity", sp, {unit: "m/s", placeholder: "0.3"}),
+        numberField("inflow.ramp_time", "Ramp-up time", sp, {unit: "s", placeholder: "0",
+          hint: "The inflow rises smoothly from rest over this time (transient runs)."}),
+        selectField("inflow.time_law.kind", "Change over time", sp, [["constant", "Constant"],
+          ["sine", "Sine: mean + amplitude · sin(2πt / period)"], ["table", "Table of (time, factor) points"]], "constant",
+        {rerender: true}),
+        lawKind === "sine" ? h("div", {class: "row"},
+          numberField("inflow.time_law.period", "Period", sp, {unit: "s"}),
+          numberField("inflow.time_law.amplitude", "Amplitude", sp, {placeholder: "1"}),
+          numberField("inflow.time_law.mean", "Mean", sp, {placeholder: "0"})) : null,
+        lawKind === "table" ? pointsField("inflow.time_law.points", "Factor table: one “time, factor” pair a line", sp) : null),
+      fieldset("Mesh", "mesh",
+        h("div", {class: "row"},
+          selectField("mesh.preset", "Density", sp, [["coarse", "Coarse"], ["medium", "Medium"], ["fine", "Fine"]], "medium"),
+          numberField("mesh.scale", "Size factor", sp, {placeholder: "1", hint: "Multiplies every cell size: 2 = cells twice as large."})),
+        selectField("elements", "Elements", sp, [["P2P1", "P2/P1 (quadratic velocity)"], ["P3P2", "P3/P2 (cubic velocity)"]], "P2P1"),
+        checkboxField("mesh.curved", "Curved cells along the bodies", sp, true),
+        h("details", {class: "more", open: ["body_size", "wake_size", "far_size", "wake_length"].some((k) => sp.mesh?.[k] !== undefined)},
+          h("summary", {}, "Cell sizes (optional)"),
+          h("div", {class: "row"},
+            numberField("mesh.body_size", "At bodies", sp, {unit: "m"}),
+            numberField("mesh.wake_size", "In the wake", sp, {unit: "m"})),
+          h("div", {class: "row"},
+            numberField("mesh.far_size", "Far field", sp, {unit: "m"}),
+            numberField("mesh.wake_length", "Wake length", sp, {unit: "m"})))),
+      fieldset("Analysis", "analysis",
+        radioGroup("analysis-mode", "Kind of run", [["steady", "Steady (one flow state)"], ["transient", "Transient (in time)"]],
+          transient ? "transient" : "steady", (v) => this.set("analysis.mode", v, true)),
+        transient ? [
+          selectField("analysis.scheme", "Time scheme", sp, [["bdf2-imex", "BDF2, explicit convection (fast)"],
+            ["euler-imex", "Euler, explicit convection"], ["bdf2-implicit", "BDF2, implicit (larger steps)"]], "bdf2-imex"),
+          h("div", {class: "row"},
+            numberField("analysis.time_step", "Time step Δt", sp, {unit: "s", placeholder: "0.001"}),
+            numberField("analysis.end_time", "End time", sp, {unit: "s", placeholder: "1"})),
+          h("div", {class: "row"},
+            numberField("analysis.output_interval", "Picture every", sp, {unit: "s",
+              hint: "Simulated time between field snapshots."}),
+            numberField("analysis.checkpoint_interval", "Checkpoint every", sp, {unit: "steps", placeholder: "200"})),
+          checkboxToggle("analysis.until_periodic", "Stop early once the lift repeats itself", sp, {cycles: 3, tolerance: 0.01},
+            (on) => this.set("analysis.until_periodic", on ? {cycles: 3, tolerance: 0.01} : undefined, true)),
+          sp.analysis?.until_periodic ? h("div", {class: "row"},
+            numberField("analysis.until_periodic.cycles", "Matching cycles", sp, {placeholder: "3"}),
+            numberField("analysis.until_periodic.tolerance", "Tolerance", sp, {placeholder: "0.01"})) : null,
+        ] : h("div", {class: "row"},
+          numberField("analysis.newton_tolerance", "Newton tolerance", sp, {placeholder: "1e-10"}),
+          numberField("analysis.max_newton_iterations", "Max. Newton iterations", sp, {placeholder: "30"}))),
+      fieldset("Probes", "probes",
+        checkboxToggle("probes.pressure_drop", "Measure the pressure drop Δp = p(a) − p(b)", sp, null,
+          (on) => this.set("probes.pressure_drop", on ? defaultProbes(this.spec) : undefined, true)),
+        Array.isArray(pd) ? h("div", {class: "probe-points"},
+          pointField("probes.pressure_drop.0", "Point a", sp), pointField("probes.pressure_drop.1", "Point b", sp)) : null,
+        sp.probes?.velocity?.length ? h("p", {class: "hint"},
+          `${sp.probes.velocity.length} velocity probe(s) set in the JSON.`) : null));
+    for (const [path, message] of this.localErrors) {
+      if (!this.serverErrors?.some((p) => p.field === path)) this.putError(path, message);
+    }
+    if (this.serverErrors) this.placeErrors(this.serverErrors, false);
+    if (active) document.getElementById(active)?.focus({preventScroll: true});
+  }
+
+  bodyCard(body, i, ch) {
+    const p = `bodies.${i}`;
+    const sp = this.spec;
+    const shapeFields = {
+      circle: () => [pointField(`${p}.center`, "Centre", sp),
+        h("div", {class: "row"}, numberField(`${p}.radius`, "Radius", sp, {unit: "m", placeholder: "0.05"}),
+          numberField(`${p}.spin`, "Spin", sp, {unit: "rad/s", placeholder: "0", hint: "Counter-clockwise rotation of the surface."}))],
+      rectangle: () => [pointField(`${p}.center`, "Centre", sp),
+        h("div", {class: "row"}, numberField(`${p}.width`, "Width", sp, {unit: "m"}), numberField(`${p}.height`, "Height", sp, {unit: "m"})),
+        h("div", {class: "row"}, numberField(`${p}.angle`, "Angle", sp, {unit: "°", placeholder: "0"}),
+          numberField(`${p}.corner_radius`, "Corner radius", sp, {unit: "m", placeholder: "0"}))],
+      ellipse: () => [pointField(`${p}.center`, "Centre", sp),
+        h("div", {class: "row"}, numberField(`${p}.width`, "Width", sp, {unit: "m"}), numberField(`${p}.height`, "Height", sp, {unit: "m"})),
+        numberField(`${p}.angle`, "Angle", sp, {unit: "°", placeholder: "0"})],
+      naca4: () => [
+        h("div", {class: "row"}, textField(`${p}.code`, "Four digits", sp, {placeholder: "0012", hint: "Camber, its position, thickness in % of chord."}),
+          numberField(`${p}.chord`, "Chord", sp, {unit: "m"})),
+        pointField(`${p}.leading_edge`, "Leading edge", sp),
+        numberField(`${p}.angle_of_attack`, "Angle of attack", sp, {unit: "°", placeholder: "0"})],
+      polygon: () => [pointsField(`${p}.points`, "Corner points: one “x, y” pair a line (metres)", sp)],
+    };
+    const make = shapeFields[body.shape] ?? (() => [h("p", {class: "hint"}, `Unknown shape “${body.shape}”: edit it in the JSON.`)]);
+    return h("li", {class: "body-card", dataset: {index: i}},
+      h("div", {class: "body-head"},
+        h("h4", {id: `body-${i}-heading`}, `Body ${i + 1}`),
+        h("div", {class: "button-row"},
+          h("button", {type: "button", class: "btn btn-small", disabled: i === 0, "aria-label": `Move body ${i + 1} up the list`,
+            onclick: () => this.reorder(i, -1)}, "↑"),
+          h("button", {type: "button", class: "btn btn-small", disabled: i === (sp.bodies.length - 1),
+            "aria-label": `Move body ${i + 1} down the list`, onclick: () => this.reorder(i, 1)}, "↓"),
+          h("button", {type: "button", class: "btn btn-small btn-danger", id: `remove-body-${i}`,
+            "aria-label": `Remove body ${i + 1}`, onclick: () => this.removeBody(i)}, "Remove"))),
+      errorSlot(p),
+      h("div", {class: "row"},
+        textField(`${p}.name`, "Name", sp, {placeholder: `body${i + 1}`}),
+        selectField(`${p}.shape`, "Shape", sp, SHAPES, "circle", {rerender: true, onchange: (v) => {
+          const fresh = newBody(v, ch, i);
+          fresh.name = body.name || fresh.name;
+          const old = this.spec.bodies[i];
+          const anchor = old.center ?? old.leading_edge;
+          if (Array.isArray(anchor) && fresh.center) fresh.center = [...anchor];
+          this.spec.bodies[i] = fresh;
+        }})),
+      make());
+  }
+
+  // ---------- editing ----------
+  set(path, value, rerender = false) {
+    setPath(this.spec, path, value);
+    this.clearError(path);
+    if (rerender) this.renderFields();
+    this.update();
+  }
+
+  onInput(e) {
+    const el = e.target;
+    const path = el.dataset?.path;
+    if (!path) return;
+    if (e.type === "change" && el.dataset.kind !== "select" && el.dataset.kind !== "checkbox") return;
+    if (e.type === "input" && (el.dataset.kind === "select" || el.dataset.kind === "checkbox")) return;
+    const kind = el.dataset.kind;
+    let value;
+    this.localErrors.delete(path);
+    if (kind === "number") {
+      const text = el.value.trim();
+      if (text === "") value = undefined;
+      else if (isNum(Number(text))) value = Number(text);
+      else {
+        value = text; // sent as typed: the service names the problem, and so do we
+        this.localErrors.set(path, "Enter a number, e.g. 0.05 or 1e-3.");
+      }
+    } else if (kind === "checkbox") value = el.checked;
+    else if (kind === "points") {
+      const parsed = parsePoints(el.value);
+      if (parsed === null) {
+        this.localErrors.set(path, "Each line needs two numbers separated by a comma.");
+        this.clearError(path);
+        this.putError(path, this.localErrors.get(path));
+        return;
+      }
+      value = parsed;
+    } else value = el.value === "" && kind === "text" && path !== "title" ? undefined : el.value;
+    if (el._onchange) el._onchange(value);
+    else setPath(this.spec, path, value);
+    this.clearError(path);
+    if (this.localErrors.has(path)) this.putError(path, this.localErrors.get(path));
+    if (el.dataset.rerender !== undefined) this.renderFields();
+    this.update();
+  }
+
+  switchFluid(by) {
+    const fluid = (this.spec.fluid ??= {});
+    const {re, nu} = reynolds(this.spec);
+    if (by === "reynolds") {
+      delete fluid.viscosity;
+      fluid.reynolds = isNum(re) ? Number(re.toPrecision(4)) : 100;
+    } else {
+      delete fluid.reynolds;
+      fluid.viscosity = isNum(nu) ? Number(nu.toPrecision(4)) : 1e-3;
+    }
+    this.renderFields();
+    this.update();
+  }
+
+  switchInflow(by) {
+    const inflow = (this.spec.inflow ??= {});
+    const factor = (inflow.profile ?? "parabolic") === "parabolic" ? 1.5 : 1;
+    const mean = nominalVelocity({...this.spec, inflow: {...inflow, time_law: {}}});
+    if (by === "mean") {
+      delete inflow.peak_velocity;
+      inflow.mean_velocity = Number(mean.toPrecision(4));
+    } else {
+      delete inflow.mean_velocity;
+      inflow.peak_velocity = Number((mean * factor).toPrecision(4));
+    }
+    this.renderFields();
+    this.update();
+  }
+
+  addBody(shape) {
+    const bodies = (this.spec.bodies ??= []);
+    const used = new Set(bodies.map((b) => b.name));
+    const body = newBody(shape, channelOf(this.spec), bodies.length);
+    let k = bodies.length + 1;
+    while (used.has(body.name)) body.name = `body${++k}`;
+    bodies.push(body);
+    this.renderFields();
+    this.update();
+    document.getElementById(idOf(`bodies.${bodies.length - 1}.name`))?.focus();
+  }
+
+  removeBody(i) {
+    this.spec.bodies.splice(i, 1);
+    this.serverErrors = null;
+    this.renderFields();
+    this.update();
+    const next = document.getElementById(`remove-body-${Math.min(i, this.spec.bodies.length - 1)}`) ?? document.getElementById("add-body");
+    next?.focus();
+  }
+
+  reorder(i, step) {
+    const b = this.spec.bodies;
+    const j = i + step;
+    [b[i], b[j]] = [b[j], b[i]];
+    this.serverErrors = null;
+    this.renderFields();
+    this.update();
+  }
+
+  moveBody(i, dx, dy) {
+    const body = this.spec.bodies?.[i];
+    if (!body) return;
+    translateBody(body, dx, dy);
+    // refresh only the moved body's inputs so typing focus elsewhere is kept
+    for (const input of this.fields.querySelectorAll(`[data-path^="bodies.${i}."]`)) {
+      const v = getPath(this.spec, input.dataset.path);
+      if (input.dataset.kind === "number") input.value = v ?? "";
+      if (input.dataset.kind === "points") input.value = formatPoints(v);
+    }
+    this.clearError(`bodies.${i}`);
+    this.update();
+  }
+
+  // ---------- derived figures, drawing, JSON ----------
+  currentSpec() {
+    return prune(clone(this.spec));
+  }
+
+  update() {
+    const spec = this.currentSpec();
+    const warnings = geometryWarnings(spec);
+    this.drawing.draw(spec, new Set(warnings.map((w) => w.index)));
+    const {re, nu, U, L} = reynolds(spec);
+    const block = blockage(spec);
+    const c = cost(spec);
+    const items = [
+      ["Reynolds number", isNum(re) ? num(re, 4) : "—", isNum(U) && isNum(L) ? `U = ${num(U, 3)} m/s, L = ${num(L, 3)} m, ν = ${num(nu, 3)} m²/s` : ""],
+      ["Blockage ratio", `${num(100 * block, 3)} %`, "share of the channel height the bodies cover"],
+      ["Mesh, roughly", `${integer(c.cells)} cells`, `${integer(c.dofs)} unknowns`],
+    ];
+    if (c.transient) {
+      items.push(["Time steps", integer(c.steps), c.steps ? `${num(spec.analysis?.end_time ?? 1)} s in steps of ${num(spec.analysis?.time_step ?? 1e-3)} s` : ""]);
+      const peak = nominalVelocity(spec) * ((spec.inflow?.profile ?? "parabolic") === "parabolic" ? 1.5 : 1);
+      const hBody = estimateBodyCell(spec);
+      if (isNum(hBody) && hBody > 0 && c.steps && isNum(peak)) {
+        const cfl = (peak * (spec.analysis?.time_step ?? 1e-3)) / hBody;
+        items.push(["CFL near the bodies", `≈ ${num(cfl, 2)}`, "peak speed × Δt / cell size"]);
+        if (cfl > 1 && (spec.analysis?.scheme ?? "bdf2-imex") !== "bdf2-implicit") {
+          warnings.push({message: "The CFL number is above 1 with explicit convection: the run may blow up. Use a smaller time step or the implicit scheme."});
+        }
+      }
+    }
+    if (calibration.rate && c.dofs && (!c.transient || c.steps)) {
+      const work = c.dofs * (c.transient ? c.steps : 15);
+      items.push(["Run time, roughly", duration(work * calibration.rate), `from ${calibration.jobs} finished job(s) on this server`]);
+    }
+    if (block > 0.5) warnings.push({message: `The bodies block ${num(100 * block, 3)} % of the channel: the walls will dominate the forces.`});
+    fill(this.figures, items.map(([k, v, note]) => h("div", {class: "figure"},
+      h("dt", {}, k), h("dd", {dataset: {figure: k}}, v, note ? h("small", {}, note) : null))));
+    fill(this.warnings, warnings.map((w) => h("li", {}, w.message)));
+    if (!this.jsonDirty && document.activeElement !== this.json) this.json.value = JSON.stringify(spec, null, 2);
+  }
+
+  applyJson(text = this.json.value) {
+    let data;
+    try {
+      data = JSON.parse(text);
+    } catch (err) {
+      this.jsonError.textContent = `Not valid JSON: ${err.message}`;
+      this.jsonError.hidden = false;
+      this.json.setAttribute("aria-invalid", "true");
+      this.json.focus();
+      return false;
+    }
+    if (!data || typeof data !== "object" || Array.isArray(data)) {
+      this.jsonError.textContent = "The case must be a JSON object ({ … }).";
+      this.jsonError.hidden = false;
+      return false;
+    }
+    this.jsonError.hidden = true;
+    this.json.removeAttribute("aria-invalid");
+    this.load(data, {from: this.from});
+    toast("JSON applied to the form.");
+    return true;
+  }
+
+  async copyJson() {
+    const text = JSON.stringify(this.currentSpec(), null, 2);
+    try {
+      await navigator.clipboard.writeText(text);
+      toast("JSON copied.");
+    } catch {
+      this.json.value = text;
+      this.json.select();
+      toast("Copying is blocked here: the JSON is selected, press Ctrl+C.", "info");
+    }
+  }
+
+  async pasteJson() {
+    try {
+      const text = await navigator.clipboard.readText();
+      this.json.value = text;
+      this.applyJson(text);
+    } catch {
+      this.json.focus();
+      this.json.select();
+      toast("Reading the clipboard is blocked here: paste into the box with Ctrl+V, then apply.", "info");
+    }
+  }
+
+  uploadFile(e) {
+    const file = e.target.files?.[0];
+    if (!file) return;
+    file.text().then((text) => {
+      this.json.value = text;
+      this.applyJson(text);
+      e.target.value = "";
+    });
+  }
+
+  downloadJson() {
+    const blob = new Blob([JSON.stringify(this.currentSpec(), null, 2) + "\n"], {type: "application/json"});
+    const a = h("a", {href: URL.createObjectURL(blob), download: `${slug(this.spec.title) || "case"}.json`});
+    document.body.append(a);
+    a.click();
+    a.remove();
+    setTimeout(() => URL.revokeObjectURL(a.href), 1000);
+  }
+
+  // ---------- errors ----------
+  clearError(path) {
+    for (const slot of this.root.querySelectorAll("[data-error-for]")) {
+      const p = slot.dataset.errorFor;
+      if (p === path || path.startsWith(`${p}.`) || p.startsWith(`${path}.`)) {
+        slot.replaceChildren();
+        slot.hidden = true;
+      }
+    }
+    for (const input of this.root.querySelectorAll("[aria-invalid]")) {
+      const p = input.dataset.path ?? "";
+      if (p === path || p.startsWith(`${path}.`) || path.startsWith(`${p}.`)) input.removeAttribute("aria-invalid");
+    }
+    if (this.serverErrors) {
+      this.serverErrors = this.serverErrors.filter((e) => !(e.field === path || path.startsWith(`${e.field}.`) || e.field.startsWith(`${path}.`)));
+    }
+  }
+
+  /** Put one message into the slot for path or the nearest enclosing slot; returns the slot. */
+  putError(path, message) {
+    const parts = path ? path.split(".") : [];
+    let slot = null;
+    for (let n = parts.length; n > 0 && !slot; n--) {
+      slot = this.root.querySelector(`[data-error-for="${CSS.escape(parts.slice(0, n).join("."))}"]`);
+    }
+    slot ??= this.root.querySelector('[data-error-for="(spec)"]');
+    slot.append(h("span", {class: "error-line"}, slot.dataset.errorFor === path ? message : `${readable(path)}: ${message}`));
+    slot.hidden = false;
+    for (const input of this.root.querySelectorAll("[data-path]")) {
+      const p = input.dataset.path;
+      if (p === path || p.startsWith(`${path}.`)) input.setAttribute("aria-invalid", "true");
+    }
+    return slot;
+  }
+
+  showErrors(problems) {
+    this.serverErrors = problems.length ? problems : null;
+    for (const slot of this.root.querySelectorAll("[data-error-for]")) {
+      slot.replaceChildren();
+      slot.hidden = true;
+    }
+    for (const input of this.root.querySelectorAll("[aria-invalid]")) input.removeAttribute("aria-invalid");
+    for (const [path, message] of this.localErrors) {
+      if (!problems.some((p) => p.field === path)) this.putError(path, message);
+    }
+    this.placeErrors(problems, true);
+  }
+
+  placeErrors(problems, summarise) {
+    const placed = problems.map((p) => ({...p, slot: this.putError(p.field, p.message)}));
+    if (!summarise) return;
+    if (!placed.length) {
+      this.summary.hidden = true;
+      return;
+    }
+    fill(this.summary,
+      h("h3", {}, placed.length === 1 ? "The service could not accept this case:" : `The service found ${placed.length} problems in this case:`),
+      h("ul", {}, placed.map((p) => h("li", {}, h("a", {href: `#${p.slot.id}`, onclick: (e) => {
+        e.preventDefault();
+        const target = this.root.querySelector(`[data-path="${CSS.escape(p.field)}"]`)
+          ?? this.root.querySelector(`[data-path^="${CSS.escape(p.field)}."]`) ?? p.slot;
+        target.scrollIntoView({block: "center"});
+        target.focus?.();
+      }}, p.field ? readable(p.field) : "Case"), `: ${p.message}`))));
+    this.summary.hidden = false;
+    this.summary.focus();
+  }
+
+  // ---------- submit ----------
+  async submit(e) {
+    e.preventDefault();
+    const button = document.getElementById("submit-case");
+    button.disabled = true;
+    button.textContent = "Queuing…";
+    try {
+      const tags = this.tags.split(",").map((t) => t.trim()).filter(Boolean);
+      const created = await api.createJob(this.currentSpec(), tags);
+      this.showErrors([]);
+      toast(`Queued as job ${created.id}.`);
+      this.onQueued(created);
+    } catch (err) {
+      if (err instanceof ApiError && err.status === 422) this.showErrors(err.problems);
+      else this.showErrors([{field: "", message: err.message}]);
+    } finally {
+      button.disabled = false;
+      button.textContent = "Queue this case";
+    }
+  }
+}
+
+// ---------- field builders ----------
+
+function errorSlot(path) {
+  return h("p", {class: "field-error", id: `err-${idOf(path)}`, dataset: {errorFor: path}, hidden: true, "aria-live": "polite"});
+}
+
+function field(path, label, input, {unit, hint} = {}) {
+  const hintId = hint ? `hint-${idOf(path)}` : null;
+  const described = [`err-${idOf(path)}`, hintId].filter(Boolean).join(" ");
+  if (input.setAttribute) input.setAttribute("aria-describedby", described);
+  return h("div", {class: "field"},
+    h("label", {for: input.id}, label),
+    h("div", {class: "input-wrap"}, input),
+    hint ? h("p", {class: "hint", id: hintId}, hint) : null,
+    errorSlot(path));
+}
+
+function numberField(path, label, spec, {unit, hint, placeholder} = {}) {
+  const v = getPath(spec, path);
+  const input = h("input", {id: idOf(path), type: "text", inputmode: "decimal", autocomplete: "off",
+    value: v === undefined || v === null ? "" : String(v), placeholder: placeholder ?? "", dataset: {path, kind: "number"}});
+  return field(path, unit ? `${label} (${unit})` : label, input, {unit, hint});
+}
+
+function textField(path, label, spec, {placeholder, hint} = {}) {
+  const v = getPath(spec, path);
+  const input = h("input", {id: idOf(path), type: "text", value: v ?? "", placeholder: placeholder ?? "", autocomplete: "off",
+    dataset: {path, kind: "text"}});
+  return field(path, label, input, {hint});
+}
+
+function selectField(path, label, spec, options, fallback, {rerender = false, onchange, hint} = {}) {
+  const v = getPath(spec, path) ?? fallback;
+  const select = h("select", {id: idOf(path), dataset: {path, kind: "select"}},
+    options.map(([value, text]) => h("option", {value, selected: value === v}, text)));
+  if (rerender) select.dataset.rerender = "";
+  if (onchange) select._onchange = onchange;
+  return field(path, label, select, {hint});
+}
+
+function checkboxField(path, label, spec, fallback) {
+  const v = getPath(spec, path) ?? fallback;
+  const input = h("input", {type: "checkbox", id: idOf(path), checked: !!v, dataset: {path, kind: "checkbox"}});
+  return h("div", {class: "field field-check"}, input, h("label", {for: input.id}, label), errorSlot(path));
+}
+
+/** A checkbox that adds or removes a whole sub-object (it has no data-path of its own). */
+function checkboxToggle(path, label, spec, _fallback, onToggle) {
+  const on = getPath(spec, path) !== undefined && getPath(spec, path) !== null;
+  const input = h("input", {type: "checkbox", id: `${idOf(path)}-on`, checked: on, onchange: (e) => onToggle(e.target.checked)});
+  return h("div", {class: "field field-check"}, input, h("label", {for: input.id}, label), errorSlot(path));
+}
+
+function radioGroup(name, legend, options, value, onPick) {
+  return h("fieldset", {class: "radio-group"}, h("legend", {}, legend),
+    options.map(([v, text]) => h("label", {class: "radio"},
+      h("input", {type: "radio", name, value: v, id: `${name}-${v}`, checked: v === value,
+        onchange: (e) => e.target.checked && onPick(v)}), text)));
+}
+
+function pointField(path, label, spec) {
+  const v = getPath(spec, path);
+  const input = (k, axis) => h("input", {id: idOf(`${path}.${k}`), type: "text", inputmode: "decimal", autocomplete: "off",
+    value: Array.isArray(v) && v[k] !== undefined && v[k] !== null ? String(v[k]) : "",
+    "aria-describedby": `err-${idOf(path)}`, dataset: {path: `${path}.${k}`, kind: "number"}});
+  return h("fieldset", {class: "field point"}, h("legend", {}, `${label} (m)`),
+    h("div", {class: "row"},
+      h("div", {class: "input-wrap"}, h("label", {for: idOf(`${path}.0`), class: "axis"}, "x"), input(0, "x")),
+      h("div", {class: "input-wrap"}, h("label", {for: idOf(`${path}.1`), class: "axis"}, "y"), input(1, "y"))),
+    errorSlot(path));
+}
+
+function pointsField(path, label, spec) {
+  const v = getPath(spec, path);
+  const area = h("textarea", {id: idOf(path), rows: Math.min(Math.max((v?.length ?? 3) + 1, 3), 10), class: "points",
+    spellcheck: false, dataset: {path, kind: "points"}});
+  area.value = formatPoints(v);
+  return field(path, label, area);
+}
+
+function fieldset(legend, path, ...children) {
+  return h("fieldset", {class: "card group"}, h("legend", {}, legend), path ? errorSlot(path) : null, children);
+}
+
+function parsePoints(text) {
+  const lines = text.split(/\n/).map((l) => l.trim()).filter(Boolean);
+  const pts = [];
+  for (const line of lines) {
+    const parts = line.replace(/[[\]()]/g, "").split(/[,;\s]+/).filter(Boolean).map(Number);
+    if (parts.length !== 2 || !parts.every(isNum)) return null;
+    pts.push(parts);
+  }
+  return pts;
+}
+
+function formatPoints(pts) {
+  return Array.isArray(pts) ? pts.map((p) => (Array.isArray(p) ? p.join(", ") : String(p))).join("\n") : "";
+}
+
+function defaultProbes(spec) {
+  const {length: L, height: H} = channelOf(spec);
+  const r = (v) => Number(v.toPrecision(3));
+  return [[r(L * 0.1), r(H / 2)], [r(L * 0.6), r(H / 2)]];
+}
+
+function estimateBodyCell(spec) {
+  if (!spec.bodies?.length) return null;
+  // cell size at the bodies, as the mesher picks it (preset fraction of the smallest body, times the scale)
+  const frac = {coarse: 1 / 20, medium: 1 / 40, fine: 1 / 80}[spec.mesh?.preset ?? "medium"] ?? 1 / 40;
+  const d = Math.min(...spec.bodies.map(referenceLength).filter(isNum));
+  if (!isNum(d)) return null;
+  return (spec.mesh?.body_size ?? frac * d) * (spec.mesh?.scale ?? 1);
+}
+
+function stripNulls(value) {
+  if (Array.isArray(value)) return value.map(stripNulls);
+  if (value && typeof value === "object") {
+    const out = {};
+    for (const [k, v] of Object.entries(value)) if (v !== null) out[k] = stripNulls(v);
+    return out;
+  }
+  return value;
+}
+
+/** "bodies.0.radius" → "Body 1 › radius" for people. */
+export function readable(path) {
+  if (!path || path === "(spec)") return "Case";
+  return path.split(".").map((part, i, all) => {
+    if (/^\d+$/.test(part) && all[i - 1] === "bodies") return null;
+    if (part === "bodies" && /^\d+$/.test(all[i + 1] ?? "")) return `Body ${Number(all[i + 1]) + 1}`;
+    return part.replaceAll("_", " ");
+  }).filter(Boolean).join(" › ");
+}
+
+function slug(text) {
+  return String(text ?? "").toLowerCase().replace(/[^a-z0-9]+/g, "-").replace(/^-|-$/g, "").slice(0, 60);
+}

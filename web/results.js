@@ -1,0 +1,136 @@
+// Pieces shared by the job and compare views: the caution, summary rows, force series, file downloads.
+
+import {api, getToken} from "./api.js";
+import {duration, h, integer, num, parseCsv, toast} from "./util.js";
+
+export const CAUTION_TEXT = "These are 2D laminar flow results: a study aid, not design loads. Real structures see " +
+  "three-dimensional, turbulent flow. Check against measurements or established methods, and defer to the " +
+  "applicable local codes and standards and to a licensed engineer for any decision that matters.";
+
+export function caution() {
+  return h("aside", {class: "caution", role: "note", "aria-label": "Caution"},
+    h("strong", {}, "Caution. "), CAUTION_TEXT);
+}
+
+/** Is a summary value a statistics object (transient) or a plain number (steady)? */
+const stat = (v, key) => (v && typeof v === "object" ? v[key] : key === "mean" ? v : null);
+
+/**
+ * Summary rows as [label, value, title?] for one job; also used column-wise by the compare view.
+ * Body rows are keyed by body name so jobs with the same bodies line up.
+ */
+export function summaryRows(job) {
+  const s = job.summary;
+  if (!s) return [];
+  const transient = s.mode === "transient" || (s.bodies?.[0] && typeof s.bodies[0].drag_coefficient === "object");
+  const rows = [["Reynolds number", num(s.reynolds_number, 4)]];
+  for (const b of s.bodies ?? []) {
+    const n = b.name;
+    if (transient) {
+      rows.push([`${n}: cD mean`, num(stat(b.drag_coefficient, "mean"), 5)]);
+      rows.push([`${n}: cD amplitude`, num(stat(b.drag_coefficient, "amplitude"), 4)]);
+      rows.push([`${n}: cL mean`, num(stat(b.lift_coefficient, "mean"), 4)]);
+      rows.push([`${n}: cL amplitude`, num(stat(b.lift_coefficient, "amplitude"), 4)]);
+      rows.push([`${n}: Strouhal number`, num(typeof b.strouhal_number === "object" ? b.strouhal_number?.strouhal_number : b.strouhal_number, 4)]);
+    } else {
+      rows.push([`${n}: cD`, num(stat(b.drag_coefficient, "mean"), 5)]);
+      rows.push([`${n}: cL`, num(stat(b.lift_coefficient, "mean"), 4)]);
+      if (b.recirculation_length !== undefined) rows.push([`${n}: recirculation length (m)`, num(b.recirculation_length, 4)]);
+    }
+  }
+  if (transient && s.strouhal_number !== undefined) {
+    rows.push(["Strouhal number (case)", num(typeof s.strouhal_number === "object" ? s.strouhal_number?.strouhal_number : s.strouhal_number, 4)]);
+  }
+  if (s.pressure_drop !== undefined && s.pressure_drop !== null) {
+    rows.push(["Pressure drop Δp mean (Pa)", num(stat(s.pressure_drop, "mean"), 5)]);
+    if (typeof s.pressure_drop === "object") rows.push(["Pressure drop Δp amplitude (Pa)", num(s.pressure_drop.amplitude, 4)]);
+  }
+  rows.push(["Mesh cells", integer(s.mesh?.cells)]);
+  rows.push(["Unknowns (DoFs)", integer(s.mesh?.dofs)]);
+  if (transient) {
+    if (s.steps !== undefined) rows.push(["Time steps", integer(s.steps)]);
+    if (s.simulated_time !== undefined) rows.push(["Simulated time (s)", num(s.simulated_time, 5)]);
+    if (s.max_cfl !== undefined) rows.push(["Largest CFL number", num(s.max_cfl, 3)]);
+    if (s.ended_by) rows.push(["Stopped because", s.ended_by === "periodic" ? "the lift became periodic" : s.ended_by === "end_time" ? "end time reached" : s.ended_by]);
+  } else if (s.newton) rows.push(["Newton iterations", integer(s.newton.iterations)]);
+  rows.push(["Run time", duration(s.wall_time_seconds)]);
+  return rows;
+}
+
+export function summaryTable(job) {
+  const rows = summaryRows(job);
+  if (!rows.length) return h("p", {class: "hint"}, "No summary yet.");
+  return h("table", {class: "summary-table"},
+    h("caption", {class: "visually-hidden"}, "Summary of results"),
+    h("tbody", {}, rows.map(([k, v]) => h("tr", {}, h("th", {scope: "row"}, k), h("td", {}, v)))));
+}
+
+const QUANTITY = {cd: "cD", cl: "cL", fx: "Fx (N/m)", fy: "Fy (N/m)", ux: "ux (m/s)", uy: "uy (m/s)"};
+
+/** Turn forces.csv into {time, columns: [{key, owner, quantity, label, values}]}. */
+export function forceColumns(text) {
+  const {columns, rows} = parseCsv(text);
+  const t = rows.map((r) => r[0]);
+  const out = columns.slice(1).map((name, j) => {
+    const m = /^(.*)_(cd|cl|fx|fy|ux|uy)$/.exec(name);
+    const owner = m ? m[1] : "";
+    const quantity = m ? m[2] : name;
+    const label = m ? `${owner} ${QUANTITY[quantity]}` : name === "pressure_drop" ? "Δp (Pa)" : name;
+    return {key: name, owner, quantity, label, values: rows.map((r) => r[j + 1])};
+  });
+  return {time: t, columns: out, rows};
+}
+
+export async function loadForces(jobId) {
+  return forceColumns(await api.fileText(jobId, "forces.csv"));
+}
+
+/** A download link that also works when the service wants a token (fetches with the header). */
+export function downloadLink(jobId, path, label, extra = {}) {
+  const href = api.fileUrl(jobId, path);
+  const name = `${jobId.slice(0, 8)}-${path.split("/").pop()}`;
+  return h("a", {href, download: name, class: "download", ...extra, onclick: async (e) => {
+    if (!getToken()) return;
+    e.preventDefault();
+    try {
+      const blob = await api.fileBlob(jobId, path);
+      const url = URL.createObjectURL(blob);
+      const a = h("a", {href: url, download: name});
+      document.body.append(a);
+      a.click();
+      a.remove();
+      setTimeout(() => URL.revokeObjectURL(url), 2000);
+    } catch (err) {
+      toast(err.message, "error");
+    }
+  }}, label);
+}
+
+/** Point an <img> at a result file; with a token the picture is fetched with the header. */
+export async function showPicture(img, jobId, path) {
+  if (!getToken()) {
+    img.src = api.fileUrl(jobId, path);
+    return;
+  }
+  const blob = await api.fileBlob(jobId, path);
+  const old = img.dataset.objectUrl;
+  img.dataset.objectUrl = URL.createObjectURL(blob);
+  img.src = img.dataset.objectUrl;
+  if (old) URL.revokeObjectURL(old);
+}
+
+export function sizeText(bytes) {
+  if (bytes === null || bytes === undefined) return "";
+  if (bytes < 1024) return `${bytes} B`;
+  if (bytes < 1024 ** 2) return `${(bytes / 1024).toFixed(1)} kB`;
+  return `${(bytes / 1024 ** 2).toFixed(1)} MB`;
+}
+
+export function stateBadge(state, extra = "") {
+  const words = {queued: "queued", running: "running", succeeded: "finished", failed: "failed", cancelled: "cancelled"};
+  return h("span", {class: `badge state-${state}`, dataset: {state}}, (words[state] ?? state) + extra);
+}
+
+export function jobTitle(job) {
+  return job.title || job.spec?.title || `Job ${String(job.id).slice(0, 8)}`;
+}

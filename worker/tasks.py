@@ -1,0 +1,132 @@
+"""The one task: claim the next job in the store, run it with the solver, record how it ended."""
+
+from __future__ import annotations
+
+import logging
+import math
+import os
+import socket
+import threading
+import time
+from functools import cache
+from typing import Any
+
+from celery import shared_task
+from sqlalchemy.exc import SQLAlchemyError
+
+import solver
+from api.settings import Settings
+from api.store import Claimed, Store
+
+log = logging.getLogger(__name__)
+
+
+@cache
+def _settings() -> Settings:
+    return Settings()
+
+
+_stores: dict[int, Store] = {}
+
+
+def _store() -> Store:
+    """One store per process: connections must never cross a fork of the prefork pool."""
+    pid = os.getpid()
+    if pid not in _stores:
+        _stores[pid] = Store(_settings().db_url)
+    return _stores[pid]
+
+
+@shared_task(name="wakeyard.run_next")
+def run_next(hint: str | None = None) -> str | None:
+    """Run the next queued job, if any; ``hint`` (the submitted job id) is for logs only."""
+    job = _store().claim_next(f"{socket.gethostname()}:{os.getpid()}")
+    if job is None:
+        log.info("nothing to run (message for %s)", hint)
+        return None
+    _Attempt(_store(), _settings(), job).run()
+    return job.id
+
+
+def _finite(value: Any) -> Any:
+    """JSON columns on PostgreSQL reject NaN/inf: store them as null."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {k: _finite(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_finite(v) for v in value]
+    return value
+
+
+class _Attempt:
+    """One attempt at one job: the solver in this thread, heartbeat and cancel polling in another."""
+
+    def __init__(self, store: Store, settings: Settings, job: Claimed):
+        self.store, self.settings, self.job = store, settings, job
+        self.latest: solver.Progress | None = None
+        self.first: tuple[float, float] | None = None
+        self.stop = threading.Event()
+        self.done = threading.Event()
+        self.lost = False
+
+    def progress(self, p: solver.Progress) -> None:
+        if self.first is None:
+            self.first = (time.monotonic(), p.fraction)
+        self.latest = p
+
+    def _eta(self, p: solver.Progress) -> float | None:
+        if self.first is None or p.fraction <= self.first[1]:
+            return None
+        t0, f0 = self.first
+        return (time.monotonic() - t0) * (1.0 - p.fraction) / (p.fraction - f0)
+
+    def _values(self) -> dict[str, Any]:
+        p = self.latest
+        return {} if p is None else {"progress_fraction": p.fraction, "progress_step": p.step,
+                                     "progress_time": p.time, "eta_seconds": self._eta(p)}
+
+    def beat(self) -> None:
+        values = self._values()
+        try:
+            ours, cancel = self.store.heartbeat(self.job.id, self.job.claim, values)
+        except SQLAlchemyError:  # keep computing through a database hiccup; the lease decides
+            log.exception("heartbeat of %s failed", self.job.id)
+            return
+        if not ours:
+            log.warning("job %s is no longer ours (lease expired): stopping", self.job.id)
+            self.lost = True
+        if cancel or not ours:
+            self.stop.set()
+
+    def _beat_loop(self) -> None:
+        while not self.done.wait(self.settings.heartbeat_seconds):
+            self.beat()
+
+    def run(self) -> None:
+        out = self.settings.jobs_dir / self.job.id
+        beater = threading.Thread(target=self._beat_loop, name=f"heartbeat-{self.job.id}", daemon=True)
+        beater.start()
+        summary = None
+        try:
+            summary = solver.run(self.job.spec, out, progress=self.progress, should_stop=self.stop.is_set,
+                                 wall_time_limit=self.settings.max_wall_time, resume=True)
+            state, error = "succeeded", None
+        except solver.Cancelled as err:
+            state, error = "cancelled", str(err)
+        except (solver.RunFailed, solver.SpecError) as err:
+            state, error = "failed", str(err)
+        except Exception as err:  # record every failure: a job must never stay "running" silently
+            log.exception("job %s crashed", self.job.id)
+            state, error = "failed", f"internal error: {type(err).__name__}: {err}"
+        finally:
+            self.done.set()
+            beater.join()
+        if self.lost:
+            return
+        progress = self._values()
+        if summary is not None:  # the last progress report can be half a second old
+            progress.update(progress_fraction=1.0, progress_step=summary.get("steps", progress.get("progress_step", 0)),
+                            progress_time=summary.get("simulated_time", progress.get("progress_time", 0.0)))
+        if not self.store.finish(self.job.id, self.job.claim, state, _finite(summary), error, _finite(progress)):
+            log.warning("job %s changed hands before it finished; its outcome %s is not recorded", self.job.id, state)
