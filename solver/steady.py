@@ -52,31 +52,41 @@ def newton(ns: NavierStokes, x0: np.ndarray, tol: float = 1e-8, max_iterations: 
 
 def solve_steady(ns: NavierStokes, tol: float = 1e-8, max_iterations: int = 30,
                  on_iteration: Callable[[int, float], None] | None = None) -> tuple[np.ndarray, NewtonReport]:
-    """Stationary flow: plain Newton from Stokes, else continuation from a smaller Reynolds number.
+    """Stationary flow: plain Newton from Stokes, else continuation in the Reynolds number.
 
-    Continuation raises the viscosity by factors of two until Newton converges,
-    then walks back down to the target, each solve starting from the previous one.
+    Continuation first finds a viscosity, up to 256 times the target, at which
+    Newton converges from Stokes, then walks back to the target; a step that
+    fails is retried shorter (the Reynolds-number ratio per step is square-rooted).
+    ``continuation_steps`` lists the fractions of the target Reynolds number solved on the way.
     """
-    x0 = ns.stokes()
+    target = ns.viscosity
     try:
-        x, its, res = newton(ns, x0, tol, max_iterations, on_iteration)
+        x, its, res = newton(ns, ns.stokes(), tol, max_iterations, on_iteration)
         return x, NewtonReport(its, res, [])
     except Diverged:
         pass
-    ladder = [ns.viscosity * 2.0**k for k in range(1, 9)]
-    for start, nu in enumerate(ladder):
-        easier = NavierStokes(ns.th, nu, ns.dirichlet)
+    for k in range(1, 9):
+        easier = NavierStokes(ns.th, target * 2.0**k, ns.dirichlet)
         try:
-            x, _, _ = newton(easier, easier.stokes(), tol, max_iterations)
+            x, total, _ = newton(easier, easier.stokes(), tol, max_iterations)
             break
         except Diverged:
             continue
     else:
         raise Diverged("Newton did not converge even at 1/256 of the Reynolds number; "
                        "the flow may have no stable steady state: try a transient analysis")
-    total = 0
-    for nu in ladder[:start][::-1]:
-        x, its, _ = newton(NavierStokes(ns.th, nu, ns.dirichlet), x, tol, max_iterations)
-        total += its
-    x, its, res = newton(ns, x, tol, max_iterations, on_iteration)
-    return x, NewtonReport(total + its, res, [ns.viscosity / nu for nu in ladder[:start + 1]][::-1])
+    nu_ok, factor, steps = target * 2.0**k, 2.0, [2.0**-k]
+    while nu_ok > target:
+        nu = max(target, nu_ok / factor)
+        try:
+            problem = ns if nu == target else NavierStokes(ns.th, nu, ns.dirichlet)
+            x_new, its, res = newton(problem, x, tol, max_iterations, on_iteration if nu == target else None)
+        except Diverged:
+            factor = factor**0.5
+            if factor < 1.01:
+                raise Diverged(f"continuation stalled at {target / nu_ok:.3g} of the target Reynolds number; "
+                               "the flow may have no steady state there: try a transient analysis") from None
+            continue
+        x, nu_ok, total = x_new, nu, total + its
+        steps.append(target / nu)
+    return x, NewtonReport(total, res, steps)
