@@ -1,0 +1,37 @@
+"""Restarting the API and the broker with jobs queued loses nothing: the job store, not the broker,
+holds the queue, and a starting API re-sends wake-ups for queued jobs."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import redis
+from fastapi.testclient import TestClient
+
+from api.app import create_app
+
+from .helpers import Worker, finished, settings_for, tiny, wait_for
+
+RESTART_REDIS = "redis://127.0.0.1:6379/6"  # a database of its own: the test empties it on purpose
+
+
+def test_api_and_broker_restart_with_queued_jobs(tmp_path: Path) -> None:
+    settings = settings_for(tmp_path, "wakeyard-restart", broker=RESTART_REDIS)
+    broker = redis.Redis.from_url(RESTART_REDIS)
+    broker.flushdb()
+    try:
+        with TestClient(create_app(settings)) as client:  # no worker yet: the jobs stay queued
+            ids = [client.post("/api/v1/jobs", json=tiny(end_time=0.05)).json()["id"] for _ in range(3)]
+            assert {client.get(f"/api/v1/jobs/{i}").json()["state"] for i in ids} == {"queued"}
+        # the API is gone; a broker restart (Redis keeps nothing on disk here) drops every message
+        broker.flushdb()
+        worker = Worker(settings, tmp_path / "worker.log")
+        try:
+            with TestClient(create_app(settings)) as client:
+                jobs = [wait_for(client, i, finished, timeout=120) for i in ids]
+        finally:
+            worker.stop()
+        assert [j["state"] for j in jobs] == ["succeeded"] * 3
+        assert all(j["attempts"] == 1 for j in jobs)
+    finally:
+        broker.flushdb()
