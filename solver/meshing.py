@@ -63,15 +63,18 @@ def estimate_cells(spec: JobSpec) -> int:
     """Rough triangle count, used to refuse oversized meshes before meshing."""
     s = sizes(spec)
     ch = spec.channel
-    area = ch.length * ch.height
-    cells = 2.3 * area / s.far**2
+
+    def per_area(size: float) -> float:  # cells per unit area; guarded against sizes that underflow
+        return 2.3 / max(size, 1e-150) ** 2
+
+    cells = ch.length * ch.height * per_area(s.far)
     for body in spec.bodies:
         pts = body.outline()
         extent = float(np.ptp(pts[:, 1])) + 2 * s.wake
         perimeter = float(np.linalg.norm(np.diff(np.vstack([pts, pts[:1]]), axis=0), axis=1).sum())
         wake_area = min(s.wake_length, ch.length) * min(extent * 2, ch.height)
-        cells += 2.3 * (wake_area / s.wake**2 + perimeter * 4 * s.body / s.body**2)
-    return int(cells * 4**s.extra_splits)
+        cells += wake_area * per_area(s.wake) + perimeter * 4 * s.body * per_area(s.body)
+    return int(min(cells * 4**s.extra_splits, 1e18))
 
 
 def estimate_dofs(spec: JobSpec) -> int:

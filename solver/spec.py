@@ -220,6 +220,9 @@ def _check_geometry(spec: JobSpec) -> list[tuple[str, str]]:
                                     f"which is not strictly inside the channel 0..{L:g} x 0..{H:g}"))
         elif min(x0, y0, L - x1, H - y1) < 1e-3 * H:
             problems.append((where, f"{body.name} is closer than {1e-3 * H:.3g} to the channel boundary"))
+        if body.reference_length() < 1e-5 * H:
+            problems.append((where, f"{body.name} is {body.reference_length():.3g} across, smaller than "
+                                    f"1e-5 of the channel height: too small to mesh"))
         if body.shape == "polygon" and not _polygons.is_simple(pts):
             problems.append((f"{where}.points", "the polygon's edges cross each other"))
         for j in range(i):

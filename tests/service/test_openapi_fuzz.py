@@ -1,0 +1,33 @@
+"""Property-based fuzz of every operation in the service's own OpenAPI schema: whatever the generated
+request, the answer is never a server error (5xx)."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+import schemathesis
+from hypothesis import HealthCheck, settings
+
+from api.app import create_app
+
+from .helpers import settings_for
+
+
+@pytest.fixture
+def api_schema(tmp_path_factory: pytest.TempPathFactory) -> Iterator[schemathesis.BaseSchema]:
+    folder: Path = tmp_path_factory.mktemp("fuzz")
+    # the embedded broker and no worker: submitted jobs stay queued, nothing runs
+    app = create_app(settings_for(folder, "wakeyard-fuzz", broker="", max_steps=10_000, max_active_per_user=10_000))
+    yield schemathesis.openapi.from_asgi("/openapi.json", app)
+
+
+schema = schemathesis.pytest.from_fixture("api_schema")
+
+
+@schema.parametrize()
+@settings(max_examples=25, deadline=None, suppress_health_check=list(HealthCheck))
+def test_no_server_errors(case: schemathesis.Case) -> None:
+    response = case.call()
+    assert response.status_code < 500, f"{case.method} {case.formatted_path}: {response.status_code} {response.text}"
