@@ -12,9 +12,10 @@ from fastapi.exceptions import RequestValidationError
 from fastapi.staticfiles import StaticFiles
 
 import solver
+from solver.study import StudySpec
 from worker.app import make_celery  # producer side only (BLAS pinning on import is harmless here)
 
-from . import routes_files, routes_jobs, routes_ops
+from . import routes_files, routes_jobs, routes_ops, routes_studies
 from .dispatch import Dispatcher
 from .limits import BodyLimit
 from .problems import SpecProblems, spec_problems_handler, validation_handler
@@ -49,7 +50,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.add_exception_handler(SpecProblems, spec_problems_handler)
     app.add_exception_handler(RequestValidationError, validation_handler)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
-    for module in (routes_jobs, routes_files, routes_ops):
+    for module in (routes_jobs, routes_files, routes_studies, routes_ops):
         app.include_router(module.router)
     _document_spec(app)
     WEB.mkdir(exist_ok=True)
@@ -58,16 +59,17 @@ def create_app(settings: Settings | None = None) -> FastAPI:
 
 
 def _document_spec(app: FastAPI) -> None:
-    """Put the solver's JobSpec schema (and its sub-models) into the OpenAPI components."""
+    """Put the solver's JobSpec and StudySpec schemas (and their sub-models) into the OpenAPI components."""
     base = app.openapi
 
     def openapi() -> dict[str, Any]:
         if app.openapi_schema is None:
             schema = base()
-            spec = solver.JobSpec.model_json_schema(ref_template="#/components/schemas/{model}")
             components = schema.setdefault("components", {}).setdefault("schemas", {})
-            components.update(spec.pop("$defs", {}))
-            components["JobSpec"] = spec
+            for name, model in (("JobSpec", solver.JobSpec), ("StudySpec", StudySpec)):
+                spec = model.model_json_schema(ref_template="#/components/schemas/{model}")
+                components.update(spec.pop("$defs", {}))
+                components[name] = spec
         return schema if app.openapi_schema is None else app.openapi_schema
 
     app.openapi = openapi  # type: ignore[method-assign]

@@ -16,6 +16,7 @@ from .auth import User, current_user
 from .problems import CAUTION, SpecProblems
 from .settings import Settings
 from .store import Job, Store
+from .submission import check_cap, place, plan
 
 log = logging.getLogger(__name__)
 router = APIRouter(prefix="/api/v1/jobs", tags=["jobs"])
@@ -26,6 +27,7 @@ PARTIAL_BODY = {"requestBody": {"required": False, "content": {"application/json
 MAX_TAGS, MAX_TAG_LENGTH = 20, 64
 State = Literal["queued", "running", "succeeded", "failed", "cancelled"]
 Tags = Annotated[list[str] | None, Query(description=f"up to {MAX_TAGS} labels for filtering")]
+Fresh = Annotated[bool, Query(description="run even if a succeeded job with the identical spec could be reused")]
 
 
 def links(job_id: str) -> dict[str, str]:
@@ -46,7 +48,8 @@ def view(job: Job) -> dict[str, Any]:
             "created_at": _stamp(job.created_at), "started_at": _stamp(job.started_at),
             "finished_at": _stamp(job.finished_at), "heartbeat_at": _stamp(job.heartbeat_at),
             "attempts": job.attempts, "worker_host": job.worker_host, "cancel_requested": job.cancel_requested,
-            "summary": job.summary, "error": job.error, "links": links(job.id), "caution": CAUTION}
+            "summary": job.summary, "error": job.error, "reused_from": job.reused_from, "study": job.study_id,
+            "links": links(job.id), "caution": CAUTION}
 
 
 def _store(request: Request) -> Store:
@@ -57,13 +60,17 @@ def _settings(request: Request) -> Settings:
     return request.app.state.settings
 
 
+def limits(settings: Settings) -> solver.Limits:
+    return solver.Limits(max_dofs=settings.max_dofs, max_steps=settings.max_steps)
+
+
 def _validated(data: Any, settings: Settings) -> dict[str, Any]:
     """The solver's checks plus the service's size limits; returns the normalised spec."""
     if not isinstance(data, dict):
         raise SpecProblems([("(body)", f"must be a JSON object (the job spec), got {type(data).__name__}")])
     try:
         spec = solver.load(data)
-        solver.check_limits(spec, solver.Limits(max_dofs=settings.max_dofs, max_steps=settings.max_steps))
+        solver.check_limits(spec, limits(settings))
     except solver.SpecError as err:
         raise SpecProblems(err.problems) from None
     return spec.model_dump(mode="json")
@@ -78,16 +85,12 @@ def _check_tags(tags: list[str]) -> list[str]:
     return tags
 
 
-def _submit(request: Request, user: User, spec: dict[str, Any], tags: list[str]) -> JSONResponse:
-    store, settings = _store(request), _settings(request)
-    active = store.active_count(user.name)
-    if active >= settings.max_active_per_user:
-        raise HTTPException(429, f"{user.name} already has {active} queued or running jobs, the limit per user is "
-                                 f"{settings.max_active_per_user}: wait for some to finish or cancel them")
-    job = store.create(user.name, spec, tags)
-    request.app.state.dispatch(job.id)
-    return JSONResponse({"id": job.id, "state": job.state, "links": links(job.id)}, status_code=202,
-                        headers={"Location": links(job.id)["self"]})
+def _submit(request: Request, user: User, spec: dict[str, Any], tags: list[str], fresh: bool) -> JSONResponse:
+    planned = plan(request, spec, fresh)
+    check_cap(request, user.name, [planned])
+    job = place(request, user.name, planned, tags)
+    return JSONResponse({"id": job.id, "state": job.state, "reused_from": job.reused_from, "links": links(job.id)},
+                        status_code=202, headers={"Location": links(job.id)["self"]})
 
 
 def _own(request: Request, job_id: str, user: User) -> Job:
@@ -109,8 +112,8 @@ def merge(base: dict[str, Any], edits: dict[str, Any]) -> dict[str, Any]:
 
 @router.post("", status_code=202, openapi_extra=SPEC_BODY, summary="Queue a job")
 def create_job(request: Request, user: Annotated[User, Depends(current_user)],
-               data: Annotated[Any, Body()], tags: Tags = None) -> JSONResponse:
-    return _submit(request, user, _validated(data, _settings(request)), _check_tags(tags or []))
+               data: Annotated[Any, Body()], tags: Tags = None, fresh: Fresh = False) -> JSONResponse:
+    return _submit(request, user, _validated(data, _settings(request)), _check_tags(tags or []), fresh)
 
 
 @router.get("", summary="List jobs, newest first")
@@ -159,11 +162,11 @@ def delete_job(request: Request, job_id: str, user: Annotated[User, Depends(curr
 
 @router.post("/{job_id}/clone", status_code=202, openapi_extra=PARTIAL_BODY, summary="Queue a copy with edits")
 def clone_job(request: Request, job_id: str, user: Annotated[User, Depends(current_user)],
-              edits: Annotated[Any, Body()] = None, tags: Tags = None) -> JSONResponse:
+              edits: Annotated[Any, Body()] = None, tags: Tags = None, fresh: Fresh = False) -> JSONResponse:
     job = _store(request).get(job_id)
     if job is None:
         raise HTTPException(404, f"no job {job_id}")
     if edits is not None and not isinstance(edits, dict):
         raise SpecProblems([("(body)", "must be a JSON object with the parts of the spec to change")])
     spec = _validated(merge(job.spec, edits or {}), _settings(request))
-    return _submit(request, user, spec, _check_tags(tags or job.tags))
+    return _submit(request, user, spec, _check_tags(tags or job.tags), fresh)

@@ -29,6 +29,7 @@ from sqlalchemy import (
     delete,
     event,
     func,
+    inspect,
     select,
     text,
     update,
@@ -84,6 +85,37 @@ class Job(Base):
     eta_seconds: Mapped[float | None] = mapped_column(Float)
     summary: Mapped[dict[str, Any] | None] = mapped_column(JSON)
     error: Mapped[str | None] = mapped_column(Text)
+    spec_hash: Mapped[str | None] = mapped_column(String(64), index=True)
+    reused_from: Mapped[str | None] = mapped_column(String(32))
+    study_id: Mapped[str | None] = mapped_column(ForeignKey("studies.id"), index=True)
+    study_values: Mapped[dict[str, float] | None] = mapped_column(JSON)
+
+
+class Study(Base):
+    """A parameter study; its state and progress derive from its jobs (``Job.study_id``)."""
+
+    __tablename__ = "studies"
+
+    seq: Mapped[int] = mapped_column(Integer, primary_key=True, autoincrement=True)
+    id: Mapped[str] = mapped_column(String(32), unique=True, index=True)
+    kind: Mapped[str] = mapped_column(String(32))
+    title: Mapped[str] = mapped_column(String(200), default="")
+    owner: Mapped[str] = mapped_column(String(100), index=True)
+    spec: Mapped[dict[str, Any]] = mapped_column(JSON)
+    created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+
+
+@dataclass
+class Provenance:
+    """Where a new job comes from: its spec's hash, the succeeded job it reuses (if any), its study point."""
+
+    spec_hash: str
+    title: str
+    source: Job | None = None
+    study_id: str | None = None
+    study_values: dict[str, float] | None = None
+    study_id: str | None = None
+    study_values: dict[str, float] | None = None
 
 
 class JobTag(Base):
@@ -119,6 +151,17 @@ class Claimed:
     attempts: int
 
 
+def finite(value: Any) -> Any:
+    """JSON columns on PostgreSQL (and JSON responses) reject NaN/inf: make them null."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {k: finite(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [finite(v) for v in value]
+    return value
+
+
 def make_engine(url: str) -> Engine:
     """Engine with SQLite tuned for several processes (WAL, waiting on locks instead of failing)."""
     if url.startswith("sqlite"):
@@ -137,27 +180,61 @@ def make_engine(url: str) -> Engine:
     return create_engine(url, pool_pre_ping=True)
 
 
+def add_new_columns(engine: Engine) -> None:
+    """A job store made by an earlier version lacks the columns added since (all nullable): add them and their
+    indexes, so an existing data folder keeps working after an upgrade."""
+    inspector = inspect(engine)
+    with engine.begin() as conn:
+        for table in Base.metadata.sorted_tables:
+            have = {c["name"] for c in inspector.get_columns(table.name)}
+            added = [c for c in table.columns if c.name not in have]
+            for column in added:
+                conn.execute(text(f"ALTER TABLE {table.name} ADD COLUMN {column.name} "
+                                  f"{column.type.compile(engine.dialect)}"))
+            for index in table.indexes:
+                if any(c in added for c in index.columns):
+                    index.create(conn)
+
+
 class Store:
     """Job-store operations used by the API, the workers and the lease reaper."""
 
     def __init__(self, url: str):
         self.engine = make_engine(url)
         Base.metadata.create_all(self.engine)
+        add_new_columns(self.engine)
         self.session = sessionmaker(self.engine, expire_on_commit=False)
         self._tokens_checked = -math.inf  # monotonic time of the last "no tokens" answer
         self._tokens_exist = False
         self._token_users: dict[str, tuple[str, bool]] = {}
 
     # --- API side -------------------------------------------------------------------------------------
-    def create(self, owner: str, spec: dict[str, Any], tags: list[str]) -> Job:
-        job = Job(id=uuid.uuid4().hex, state="queued", owner=owner, title=str(spec.get("title", ""))[:200],
+    def create(self, owner: str, spec: dict[str, Any], tags: list[str], new: Provenance | None = None,
+               job_id: str | None = None) -> Job:
+        """A queued job, or with ``new.source`` one that is succeeded at once with the source's result."""
+        job = Job(id=job_id or uuid.uuid4().hex, state="queued", owner=owner, title=str(spec.get("title", ""))[:200],
                   spec=spec, tags=tags, created_at=utcnow(), attempts=0, cancel_requested=False,
                   progress_fraction=0.0, progress_step=0, progress_time=0.0)
+        if new is not None:
+            job.title, job.spec_hash = new.title[:200], new.spec_hash
+            job.study_id, job.study_values = new.study_id, new.study_values
+        if new is not None and new.source is not None:
+            now, src = utcnow(), new.source
+            job.state, job.reused_from, job.summary = "succeeded", src.id, src.summary
+            job.started_at = job.finished_at = now
+            job.progress_fraction, job.progress_step, job.progress_time = 1.0, src.progress_step, src.progress_time
         with self.session.begin() as s:
             s.add(job)
             s.flush()
             s.add_all(JobTag(job_seq=job.seq, tag=t) for t in set(tags))
         return job
+
+    def find_result(self, spec_hash: str) -> Job | None:
+        """The newest succeeded job computed (not itself reused) from a spec with this hash."""
+        q = (select(Job).where(Job.spec_hash == spec_hash, Job.state == "succeeded", Job.reused_from.is_(None))
+             .order_by(Job.seq.desc()).limit(1))
+        with self.session() as s:
+            return s.scalar(q)
 
     def get(self, job_id: str) -> Job | None:
         with self.session() as s:
@@ -200,6 +277,25 @@ class Store:
             s.execute(delete(JobTag).where(JobTag.job_seq == seq))
             s.execute(delete(Job).where(Job.seq == seq))
             return True
+
+    def create_study(self, owner: str, kind: str, title: str, spec: dict[str, Any]) -> Study:
+        study = Study(id=uuid.uuid4().hex, kind=kind, title=title[:200], owner=owner, spec=spec, created_at=utcnow())
+        with self.session.begin() as s:
+            s.add(study)
+        return study
+
+    def get_study(self, study_id: str) -> Study | None:
+        with self.session() as s:
+            return s.scalar(select(Study).where(Study.id == study_id))
+
+    def list_studies(self, limit: int) -> list[Study]:
+        with self.session() as s:
+            return list(s.scalars(select(Study).order_by(Study.seq.desc()).limit(limit)))
+
+    def study_jobs(self, study_ids: list[str]) -> list[Job]:
+        """The jobs of these studies, in the order their points were created."""
+        with self.session() as s:
+            return list(s.scalars(select(Job).where(Job.study_id.in_(study_ids)).order_by(Job.seq)))
 
     def counts(self) -> dict[str, int]:
         with self.session() as s:

@@ -30,6 +30,15 @@ def main(argv: list[str] | None = None) -> int:
     p_worker = sub.add_parser("worker", help="only workers (more boxes sharing the broker and database)")
     p_worker.add_argument("--data", type=Path)
     p_worker.add_argument("--workers", type=int)
+    p_study = sub.add_parser("study", help="submit a parameter study to a running service",
+                             description="Exit codes: 0 submitted (with --wait: all points succeeded), 1 a point "
+                                         "failed or was cancelled or the service is unreachable, 2 study refused.")
+    p_study.add_argument("spec", type=Path, help="study spec (JSON): kind, base, vary or levels")
+    p_study.add_argument("--url", default="http://127.0.0.1:8000", help="the service (default: %(default)s)")
+    p_study.add_argument("--token", default=os.environ.get("WAKEYARD_TOKEN"),
+                         help="API token (default: WAKEYARD_TOKEN)")
+    p_study.add_argument("--wait", action="store_true", help="wait for every point, then print the table (CSV)")
+    p_study.add_argument("--fresh", action="store_true", help="run every point even if a result could be reused")
     p_token = sub.add_parser("token", help="API tokens")
     token_sub = p_token.add_subparsers(dest="token_command", required=True)
     p_create = token_sub.add_parser("create", help="create a token and print it (shown only once)")
@@ -39,6 +48,10 @@ def main(argv: list[str] | None = None) -> int:
     args = parser.parse_args(argv)
     if args.command == "run":
         return _run(args.spec, args.out, args.quiet)
+    if args.command == "study":
+        from .study import submit
+
+        return submit(args.spec, args.url, args.token, args.wait, args.fresh)
     from . import service
 
     service.configure(getattr(args, "data", None), getattr(args, "workers", None))

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import logging
-import math
 import os
 import socket
 import threading
@@ -16,7 +15,7 @@ from sqlalchemy.exc import SQLAlchemyError
 
 import solver
 from api.settings import Settings
-from api.store import Claimed, Store
+from api.store import Claimed, Store, finite
 
 log = logging.getLogger(__name__)
 
@@ -46,17 +45,6 @@ def run_next(hint: str | None = None) -> str | None:
         return None
     _Attempt(_store(), _settings(), job).run()
     return job.id
-
-
-def _finite(value: Any) -> Any:
-    """JSON columns on PostgreSQL reject NaN/inf: store them as null."""
-    if isinstance(value, float):
-        return value if math.isfinite(value) else None
-    if isinstance(value, dict):
-        return {k: _finite(v) for k, v in value.items()}
-    if isinstance(value, list | tuple):
-        return [_finite(v) for v in value]
-    return value
 
 
 class _Attempt:
@@ -128,5 +116,5 @@ class _Attempt:
         if summary is not None:  # the last progress report can be half a second old
             progress.update(progress_fraction=1.0, progress_step=summary.get("steps", progress.get("progress_step", 0)),
                             progress_time=summary.get("simulated_time", progress.get("progress_time", 0.0)))
-        if not self.store.finish(self.job.id, self.job.claim, state, _finite(summary), error, _finite(progress)):
+        if not self.store.finish(self.job.id, self.job.claim, state, finite(summary), error, finite(progress)):
             log.warning("job %s changed hands before it finished; its outcome %s is not recorded", self.job.id, state)

@@ -1,0 +1,143 @@
+"""Study resources: a sweep or mesh-convergence study expands (in the solver) into ordinary jobs, created and
+queued exactly as single jobs are; everything else about a study is derived from those jobs."""
+
+from __future__ import annotations
+
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Body, Depends, HTTPException, Query, Request
+from fastapi.responses import JSONResponse, Response
+
+import solver
+from solver.study import StudySpec, expand
+
+from . import studies
+from .auth import User, current_user
+from .problems import CAUTION, SpecProblems
+from .routes_jobs import Fresh, limits
+from .store import ACTIVE, Job, Store, Study
+from .study_plot import plot_png
+from .submission import check_cap, place, plan
+
+router = APIRouter(prefix="/api/v1/studies", tags=["studies"])
+STUDY_BODY = {"requestBody": {"required": True,
+                              "content": {"application/json": {"schema": {"$ref": "#/components/schemas/StudySpec"}}}}}
+
+
+def links(study_id: str) -> dict[str, str]:
+    base = f"/api/v1/studies/{study_id}"
+    return {"self": base, "table": f"{base}/table.csv", "plot": f"{base}/plot.png", "cancel": f"{base}/cancel"}
+
+
+def _store(request: Request) -> Store:
+    return request.app.state.store
+
+
+def _expanded(data: Any, request: Request) -> tuple[StudySpec, list[tuple[dict[str, float], dict[str, Any]]]]:
+    """The solver's checks of the study and of every point, plus the service's size limits for each point."""
+    if not isinstance(data, dict):
+        raise SpecProblems([("(body)", f"must be a JSON object (the study), got {type(data).__name__}")])
+    try:
+        points = expand(data)
+    except solver.SpecError as err:
+        raise SpecProblems(err.problems) from None
+    problems = []
+    for k, (values, spec) in enumerate(points):
+        try:
+            solver.check_limits(spec, limits(request.app.state.settings))
+        except solver.SpecError as err:
+            problems += [(f"points.{k}.{f}", f"{m} (at {values})") for f, m in err.problems]
+    if problems:
+        raise SpecProblems(problems)
+    return StudySpec.model_validate(data), [(v, s.model_dump(mode="json")) for v, s in points]
+
+
+def _point_title(title: str, values: dict[str, float]) -> str:
+    return f"{title}: " + ", ".join(f"{p} = {v:g}" for p, v in values.items())
+
+
+@router.post("", status_code=202, openapi_extra=STUDY_BODY, summary="Queue a parameter study")
+def create_study(request: Request, user: Annotated[User, Depends(current_user)], data: Annotated[Any, Body()],
+                 fresh: Fresh = False) -> JSONResponse:
+    spec, points = _expanded(data, request)
+    title = spec.title or str(points[0][1].get("title", "")) or spec.kind
+    planned = [plan(request, case, fresh, _point_title(title, values), values=values) for values, case in points]
+    check_cap(request, user.name, planned)
+    study = _store(request).create_study(user.name, spec.kind, title, spec.model_dump(mode="json"))
+    jobs = []
+    for p in planned:
+        p.provenance.study_id = study.id
+        jobs.append(place(request, user.name, p, []))
+    return JSONResponse({"id": study.id, "state": studies.state(jobs), "jobs": [j.id for j in jobs],
+                         "links": links(study.id)}, status_code=202, headers={"Location": links(study.id)["self"]})
+
+
+def _brief(study: Study, jobs: list[Job]) -> dict[str, Any]:
+    return {"id": study.id, "kind": study.kind, "title": study.title, "owner": study.owner,
+            "created_at": study.created_at.isoformat(), "varied": studies.varied(study),
+            "state": studies.state(jobs), "progress": studies.progress(jobs), "points_count": len(jobs),
+            "links": links(study.id)}
+
+
+@router.get("", summary="List studies, newest first")
+def list_studies(request: Request, _: Annotated[User, Depends(current_user)],
+                 limit: Annotated[int, Query(ge=1, le=200)] = 50) -> dict[str, Any]:
+    found = _store(request).list_studies(limit)
+    jobs: dict[str, list[Job]] = {s.id: [] for s in found}
+    for job in _store(request).study_jobs(list(jobs)):
+        jobs[job.study_id].append(job)  # type: ignore[index]
+    return {"studies": [_brief(s, jobs[s.id]) for s in found], "caution": CAUTION}
+
+
+def _load(request: Request, study_id: str) -> tuple[Study, list[Job]]:
+    study = _store(request).get_study(study_id)
+    if study is None:
+        raise HTTPException(404, f"no study {study_id}")
+    return study, _store(request).study_jobs([study_id])
+
+
+@router.get("/{study_id}", summary="Read one study: its points, their results and (mesh-convergence) the GCI")
+def read_study(request: Request, study_id: str, _: Annotated[User, Depends(current_user)]) -> JSONResponse:
+    study, jobs = _load(request, study_id)
+    body = _brief(study, jobs)
+    body["spec"] = study.spec
+    body["points"] = [{"values": j.study_values, "job": j.id, "state": j.state, "reused_from": j.reused_from,
+                       "summary": studies.values_of(j) or None} for j in jobs]
+    if study.kind == "mesh-convergence":
+        body["convergence"] = studies.grid_convergence(study, jobs)
+    body["caution"] = CAUTION
+    return JSONResponse(body)
+
+
+@router.get("/{study_id}/table.csv", summary="The points and their summary values as CSV")
+def study_table(request: Request, study_id: str, _: Annotated[User, Depends(current_user)]) -> Response:
+    study, jobs = _load(request, study_id)
+    return Response(studies.table_csv(study, jobs), media_type="text/csv",
+                    headers={"Content-Disposition": f'attachment; filename="study-{study_id}.csv"',
+                             "X-Caution": CAUTION})
+
+
+@router.get("/{study_id}/plot.png", summary="One summary value against the first varied field")
+def study_plot(request: Request, study_id: str, _: Annotated[User, Depends(current_user)],
+               y: Annotated[str, Query(description="a summary value, e.g. pipe.cd or strouhal_number")]) -> Response:
+    study, jobs = _load(request, study_id)
+    paths = studies.varied(study)
+    points = [(j.study_values or {}, v[y]) for j in jobs if (v := studies.values_of(j)).get(y) is not None]
+    if not points:
+        known = sorted({k for j in jobs for k in studies.values_of(j)})
+        hint = f"choose one of {', '.join(known)}" if known else "no point has succeeded yet"
+        raise SpecProblems([("y", f"{y!r} is not a summary value of this study's succeeded points: {hint}")])
+    return Response(plot_png(points, paths, y, study.title), media_type="image/png")
+
+
+@router.post("/{study_id}/cancel", summary="Cancel the study's queued and running jobs")
+def cancel_study(request: Request, study_id: str, user: Annotated[User, Depends(current_user)]) -> JSONResponse:
+    study, jobs = _load(request, study_id)
+    if study.owner != user.name and not user.admin:
+        raise HTTPException(403, f"study {study_id} belongs to {study.owner}; only its owner or an admin may cancel it")
+    active = [j.id for j in jobs if j.state in ACTIVE]
+    if not active:
+        raise HTTPException(409, f"study {study_id} has no queued or running jobs (it is {studies.state(jobs)})")
+    for job_id in active:
+        _store(request).cancel(job_id)
+    return read_study(request, study_id, user)

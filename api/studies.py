@@ -1,0 +1,69 @@
+"""A study's results, derived from its jobs: state, progress, the points table and the grid convergence."""
+
+from __future__ import annotations
+
+import csv
+import io
+from typing import Any
+
+import numpy as np
+
+import solver
+from solver.study import convergence, summary_values
+
+from .store import ACTIVE, Job, Study, finite
+
+
+def varied(study: Study) -> list[str]:
+    """The paths a study varies (a mesh-convergence study varies the refinements)."""
+    return [v["path"] for v in study.spec.get("vary", [])] or ["mesh.refinements"]
+
+
+def state(jobs: list[Job]) -> str:
+    """Queued until a point starts, running while any is active, then succeeded / failed / cancelled."""
+    states = [j.state for j in jobs]
+    if any(s in ACTIVE for s in states):
+        return "queued" if all(s == "queued" for s in states) else "running"
+    if states and all(s == "succeeded" for s in states):
+        return "succeeded"
+    return "failed" if "failed" in states else "cancelled"
+
+
+def progress(jobs: list[Job]) -> float:
+    return sum(j.progress_fraction for j in jobs) / len(jobs) if jobs else 0.0
+
+
+def values_of(job: Job) -> dict[str, float | None]:
+    """The point's flat summary values (drag and lift coefficients, Strouhal number...); empty until it succeeds."""
+    return summary_values(job.summary) if job.state == "succeeded" and job.summary else {}
+
+
+def fluid_area(base: dict[str, Any]) -> float:
+    """Channel area minus the bodies' areas (shoelace formula on their outlines): the area the cells fill,
+    which sets the representative cell size h = sqrt(area / cells) of the convergence analysis."""
+    spec = solver.load(base)
+    area = spec.channel.length * spec.channel.height
+    for body in spec.bodies:
+        x, y = body.outline().T
+        area -= 0.5 * abs(float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1))))
+    return area
+
+
+def grid_convergence(study: Study, jobs: list[Job]) -> dict[str, Any]:
+    """Observed order, extrapolated value and GCI of every summary value, from the three finest succeeded meshes."""
+    done = [j.summary for j in jobs if j.state == "succeeded" and j.summary]
+    return finite(convergence(done, fluid_area(study.spec["base"]))) if len(done) >= 3 else {}
+
+
+def table_csv(study: Study, jobs: list[Job]) -> str:
+    """One row per point: the varied values, job id, state, then every summary value any point has."""
+    paths, rows = varied(study), [values_of(j) for j in jobs]
+    keys = list(dict.fromkeys(k for row in rows for k in row))
+    out = io.StringIO()
+    writer = csv.writer(out, lineterminator="\n")
+    writer.writerow([*paths, "job", "state", *keys])
+    for job, row in zip(jobs, rows):
+        point = job.study_values or {}
+        writer.writerow([*(point.get(p, "") for p in paths), job.id, job.state,
+                         *("" if row.get(k) is None else row[k] for k in keys)])
+    return out.getvalue()

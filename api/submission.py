@@ -1,0 +1,85 @@
+"""Creating jobs, shared by single jobs, clones and study points: reuse an identical result or queue a run.
+
+A spec's hash is SHA-256 of its canonical JSON (the normalised spec, keys sorted) plus the solver version, so a
+result is reused only for exactly the same case computed by the same solver.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import logging
+import os
+import shutil
+import uuid
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from fastapi import HTTPException, Request
+
+import solver
+
+from .store import Job, Provenance
+
+log = logging.getLogger(__name__)
+
+
+def spec_hash(spec: dict[str, Any]) -> str:
+    canonical = json.dumps(spec, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
+    return hashlib.sha256(f"{canonical}\nsolver {solver.__version__}".encode()).hexdigest()
+
+
+@dataclass
+class Planned:
+    """A job about to be created: its normalised spec and where it comes from."""
+
+    spec: dict[str, Any]
+    provenance: Provenance
+
+
+def plan(request: Request, spec: dict[str, Any], fresh: bool, title: str | None = None,
+         study_id: str | None = None, values: dict[str, float] | None = None) -> Planned:
+    """Look for a succeeded job with the same spec hash (unless ``fresh``)."""
+    digest = spec_hash(spec)
+    source = None if fresh else request.app.state.store.find_result(digest)
+    return Planned(spec, Provenance(digest, str(spec.get("title", "")) if title is None else title, source,
+                                    study_id, values))
+
+
+def check_cap(request: Request, owner: str, planned: list[Planned]) -> None:
+    """Refuse (429) jobs that would take ``owner`` over the per-user cap of queued + running jobs."""
+    to_run = sum(p.provenance.source is None for p in planned)
+    if not to_run:
+        return
+    cap, active = request.app.state.settings.max_active_per_user, request.app.state.store.active_count(owner)
+    if active + to_run > cap:
+        adding = "" if to_run == 1 else f" and this study would add {to_run} more"
+        raise HTTPException(429, f"{owner} already has {active} queued or running jobs{adding}, the limit per user "
+                                 f"is {cap}: wait for some to finish, cancel some, or split the study")
+
+
+def place(request: Request, owner: str, planned: Planned, tags: list[str]) -> Job:
+    """Create the job; a reused result's files are hard-linked first, so deleting either job never breaks the other.
+
+    If the reused job's files vanish meanwhile (it was deleted), the job is queued to run instead."""
+    state = request.app.state
+    job_id, source = uuid.uuid4().hex, planned.provenance.source
+    if source is not None:
+        target = state.settings.jobs_dir / job_id
+        try:
+            _link_tree(state.settings.jobs_dir / source.id, target)
+        except OSError as err:
+            log.warning("could not reuse the files of job %s (%s): running the case again", source.id, err)
+            shutil.rmtree(target, ignore_errors=True)
+            planned.provenance.source = None
+    job = state.store.create(owner, planned.spec, tags, planned.provenance, job_id)
+    if job.state == "queued":
+        state.dispatch(job.id)
+    return job
+
+
+def _link_tree(source: Path, target: Path) -> None:
+    if not source.is_dir():
+        raise FileNotFoundError(f"no result folder {source}")
+    shutil.copytree(source, target, copy_function=os.link)
