@@ -115,6 +115,11 @@ export const api = {
   fileUrl: (id, path) => `${PREFIX}/jobs/${encodeURIComponent(id)}/files/${path.split("/").map(encodeURIComponent).join("/")}`,
   fileText: (id, path) => request("GET", `/jobs/${encodeURIComponent(id)}/files/${path}`, {raw: true}).then((r) => r.text()),
   fileBlob: (id, path) => request("GET", `/jobs/${encodeURIComponent(id)}/files/${path}`, {raw: true}).then((r) => r.blob()),
+  listStudies: () => request("GET", "/studies"),
+  getStudy: (id, signal) => request("GET", `/studies/${encodeURIComponent(id)}`, {signal}),
+  cancelStudy: (id) => request("POST", `/studies/${encodeURIComponent(id)}/cancel`),
+  studyBlob: (id, path, query) => request("GET", `/studies/${encodeURIComponent(id)}/${path}`, {raw: true, query})
+    .then((r) => r.blob()),
 };
 
 /** States in which a job may still change (worth polling). */

@@ -1,10 +1,11 @@
-// wakeyard's page: a hash router over four views (new case, queue, one job, compare) and the token box.
+// wakeyard's page: a hash router over five views (new case, queue, one job, compare, studies) and the token box.
 
 import {api, getToken, setToken} from "./api.js";
 import {CompareView} from "./compare.js";
 import {CaseForm} from "./form.js";
 import {JobView} from "./job.js";
 import {QueueView, picked} from "./queue.js";
+import {StudiesView} from "./studies.js";
 import {toast} from "./util.js";
 
 const views = {
@@ -12,6 +13,7 @@ const views = {
   queue: document.getElementById("view-queue"),
   job: document.getElementById("view-job"),
   compare: document.getElementById("view-compare"),
+  studies: document.getElementById("view-studies"),
 };
 
 /** Load a job's spec into the form for a re-run with edits. */
@@ -31,6 +33,7 @@ const form = new CaseForm(views.new, {onQueued: (created) => {
 const queue = new QueueView(views.queue, {onEdit: editJob});
 const jobView = new JobView(views.job, {onEdit: editJob});
 const compare = new CompareView(views.compare);
+const studies = new StudiesView(views.studies);
 
 function route() {
   const hash = location.hash || "#/queue";
@@ -44,13 +47,15 @@ function route() {
   }
   if (name !== "queue") queue.hide();
   if (name !== "job") jobView.hide();
+  if (name !== "studies") studies.hide();
+  if (name === "studies") studies.show(parts[1] ? decodeURIComponent(parts[1]) : null);
   if (name === "queue") queue.show();
   if (name === "job") jobView.show(decodeURIComponent(parts[1]));
   if (name === "compare") {
     const ids = new URLSearchParams(query).get("ids");
     compare.show(ids ? ids.split(",") : [...picked]);
   }
-  const titles = {new: "New case", queue: "Queue", job: "Job", compare: "Compare"};
+  const titles = {new: "New case", queue: "Queue", job: "Job", compare: "Compare", studies: "Studies"};
   document.title = `${titles[name]} · wakeyard`;
   // move focus to the new view's heading for keyboard and screen-reader users
   const heading = views[name].querySelector("h2");

@@ -475,3 +475,29 @@ def test_long_force_history_is_thinned_but_keeps_its_extremes(page) -> None:
     assert result["points"] <= 2 * (result["width"] + 2)
     peak = result["y0"] + (1 - (result["top"] - result["t"]) / result["h"]) * (result["y1"] - result["y0"])
     assert peak == pytest.approx(5 + math.sin(54.321), abs=0.01 * (result["y1"] - result["y0"]))
+
+
+def test_study_view_shows_points_plot_and_links(page, api) -> None:
+    base = {"title": "Pier sweep (web test)", "channel": {"length": 1.0, "height": 0.41},
+            "bodies": [{"name": "pier", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+            "mesh": {"preset": "coarse", "scale": 2.0}}
+    r = api.post("/studies", json={"kind": "sweep", "base": base,
+                                   "vary": [{"path": "inflow.peak_velocity", "values": [0.2, 0.3, 0.45]}]})
+    assert r.status_code == 202, r.text
+    study = r.json()
+    page.goto(f"/#/studies/{study['id']}")
+    rows = page.locator("table.study-points tbody tr")
+    expect(rows).to_have_count(3)
+    expect(page.locator("table.study-points .state-succeeded")).to_have_count(3, timeout=120_000)
+    expect(page.locator(".caution").first).to_contain_text("not design loads")
+    # the drag column falls as the velocity rises (Re 13 -> 30 steady cylinder in a channel)
+    headers = page.locator("table.study-points thead th").all_inner_texts()
+    cd = [float(rows.nth(i).locator("td").nth(headers.index("pier.cd")).inner_text()) for i in range(3)]
+    assert cd[0] > cd[1] > cd[2]
+    page.wait_for_function("document.querySelector('img.study-plot')?.naturalWidth > 0")
+    shot(page, "08-study-detail")
+    rows.nth(1).locator("a").click()
+    expect(page).to_have_url(re.compile(r"#/jobs/"))
+    page.goto("/#/studies")
+    expect(page.locator("table.studies-table")).to_contain_text("Pier sweep (web test)")
+    shot(page, "09-studies")
