@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import os
+import signal
 from datetime import timedelta
 from pathlib import Path
 
@@ -68,3 +70,23 @@ def test_kill_9_of_the_worker_resumes_from_checkpoint(tmp_path: Path) -> None:
             assert fresh and min(fresh) > saved  # continued from the checkpoint, never from step 0
     finally:
         first.stop()
+
+
+def test_kill_9_of_a_pool_child_requeues_and_the_same_worker_finishes(tmp_path: Path) -> None:
+    settings = settings_for(tmp_path, "wakeyard-child", lease_seconds=3.0)
+    worker = Worker(settings, tmp_path / "worker.log")
+    try:
+        with TestClient(create_app(settings)) as client:
+            job_id = client.post("/api/v1/jobs", json=tiny(end_time=4.0, output_interval=2.0,
+                                                         checkpoint_interval=10)).json()["id"]
+            checkpoint = settings.jobs_dir / job_id / "checkpoint.npz"
+            job = wait_for(client, job_id, lambda j: j["progress"]["step"] >= 25 and checkpoint.exists(), timeout=60)
+            child = int(job["worker_host"].rsplit(":", 1)[1])  # the pool process that runs the job
+            assert child != worker.proc.pid
+            os.kill(child, signal.SIGKILL)
+            job = wait_for(client, job_id, finished, timeout=90)
+            assert job["state"] == "succeeded", job["error"]
+            assert job["attempts"] == 2 and job["summary"]["steps"] == 400
+            assert worker.proc.poll() is None  # the worker replaced its child and carried on
+    finally:
+        worker.stop()
