@@ -12,11 +12,13 @@ from typing import Annotated, Literal
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, field_validator
 
-Point = tuple[float, float]
+# Geometry is in metres; the bounds keep arithmetic on untrusted input finite.
+Coordinate = Annotated[float, Field(ge=-1e6, le=1e6)]
+Point = tuple[Coordinate, Coordinate]
 
 
 class _Body(BaseModel):
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     name: str = Field("", max_length=40, pattern=r"^[A-Za-z0-9_\-]*$")
 
@@ -49,8 +51,8 @@ class Circle(_Body):
 
     shape: Literal["circle"] = "circle"
     center: Point = (0.2, 0.2)
-    radius: float = Field(0.05, gt=0)
-    spin: float = 0.0
+    radius: float = Field(0.05, gt=0, le=1e6)
+    spin: float = Field(0.0, ge=-1e6, le=1e6, description="rad/s, counter-clockwise")
 
     def outline(self, n: int = 256) -> np.ndarray:
         s = np.linspace(0, 2 * np.pi, n, endpoint=False)
@@ -71,10 +73,10 @@ class Rectangle(_Body):
 
     shape: Literal["rectangle"]
     center: Point
-    width: float = Field(gt=0)
-    height: float = Field(gt=0)
+    width: float = Field(gt=0, le=1e6)
+    height: float = Field(gt=0, le=1e6)
     angle: float = Field(0.0, ge=-180, le=180)
-    corner_radius: float = Field(0.0, ge=0)
+    corner_radius: float = Field(0.0, ge=0, le=1e6)
 
     def outline(self, n: int = 256) -> np.ndarray:
         w, h = self.width / 2, self.height / 2
@@ -96,8 +98,8 @@ class Ellipse(_Body):
 
     shape: Literal["ellipse"]
     center: Point
-    width: float = Field(gt=0)
-    height: float = Field(gt=0)
+    width: float = Field(gt=0, le=1e6)
+    height: float = Field(gt=0, le=1e6)
     angle: float = Field(0.0, ge=-180, le=180)
 
     def outline(self, n: int = 256) -> np.ndarray:
@@ -117,7 +119,7 @@ class Naca4(_Body):
 
     shape: Literal["naca4"]
     code: str = Field(pattern=r"^\d{4}$")
-    chord: float = Field(gt=0)
+    chord: float = Field(gt=0, le=1e6)
     leading_edge: Point
     angle_of_attack: float = Field(0.0, ge=-90, le=90)
 

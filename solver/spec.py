@@ -7,7 +7,7 @@
 from __future__ import annotations
 
 import math
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
@@ -26,23 +26,23 @@ class _Model(BaseModel):
 class Channel(_Model):
     """The flow box: inflow at x=0, outflow at x=length, walls at y=0 and y=height."""
 
-    length: float = Field(2.2, gt=0, le=1e4)
-    height: float = Field(0.41, gt=0, le=1e4)
+    length: float = Field(2.2, ge=1e-6, le=1e4)
+    height: float = Field(0.41, ge=1e-6, le=1e4)
     walls: Literal["no-slip", "slip"] = "no-slip"
 
 
 class Reference(_Model):
     """Scales for the Reynolds number and the coefficients (defaults: mean inflow, body size)."""
 
-    velocity: float | None = Field(None, gt=0)
-    length: float | None = Field(None, gt=0)
+    velocity: float | None = Field(None, gt=0, le=1e6)
+    length: float | None = Field(None, gt=0, le=1e6)
 
 
 class Fluid(_Model):
     """Either density and kinematic viscosity, or a Reynolds number on the reference scales."""
 
-    density: float = Field(1.0, gt=0)
-    viscosity: float | None = Field(None, gt=0, description="kinematic viscosity, m^2/s")
+    density: float = Field(1.0, gt=0, le=1e6)
+    viscosity: float | None = Field(None, gt=0, le=1e6, description="kinematic viscosity, m^2/s")
     reynolds: float | None = Field(None, gt=0, le=1e5)
     reference: Reference = Reference()
 
@@ -59,10 +59,11 @@ class TimeLaw(_Model):
     """Factor on the inflow over time: constant, mean + amplitude*sin(2*pi*t/period), or a table."""
 
     kind: Literal["constant", "sine", "table"] = "constant"
-    period: float | None = Field(None, gt=0)
-    amplitude: float = 1.0
-    mean: float = 0.0
-    points: list[tuple[float, float]] | None = Field(None, min_length=2, max_length=10000)
+    period: float | None = Field(None, gt=0, le=1e9)
+    amplitude: float = Field(1.0, ge=-1e3, le=1e3)
+    mean: float = Field(0.0, ge=-1e3, le=1e3)
+    points: list[tuple[Annotated[float, Field(ge=0, le=1e9)], Annotated[float, Field(ge=-1e3, le=1e3)]]] | None = Field(
+        None, min_length=2, max_length=10000)
 
     @model_validator(mode="after")
     def _complete(self) -> TimeLaw:
@@ -98,7 +99,7 @@ class Inflow(_Model):
     profile: Literal["parabolic", "uniform"] = "parabolic"
     peak_velocity: float | None = Field(None, gt=0, le=1e4)
     mean_velocity: float | None = Field(None, gt=0, le=1e4)
-    ramp_time: float = Field(0.0, ge=0)
+    ramp_time: float = Field(0.0, ge=0, le=1e9)
     time_law: TimeLaw = TimeLaw()
 
     @model_validator(mode="after")
@@ -129,10 +130,10 @@ class MeshSettings(_Model):
     """Mesh density: a preset, optional explicit sizes (metres) and a global scale factor."""
 
     preset: Literal["coarse", "medium", "fine"] = "medium"
-    body_size: float | None = Field(None, gt=0)
-    wake_size: float | None = Field(None, gt=0)
-    far_size: float | None = Field(None, gt=0)
-    wake_length: float | None = Field(None, ge=0, description="length of the refined wake behind the bodies")
+    body_size: float | None = Field(None, gt=0, le=1e6)
+    wake_size: float | None = Field(None, gt=0, le=1e6)
+    far_size: float | None = Field(None, gt=0, le=1e6)
+    wake_length: float | None = Field(None, ge=0, le=1e6, description="length of the refined wake behind the bodies")
     scale: float = Field(1.0, gt=0.05, le=20, description="multiplies every size")
     refinements: int = Field(0, ge=0, le=4, description="uniform splits of every cell into four (mesh studies)")
     curved: bool = True
@@ -148,10 +149,10 @@ class UntilPeriodic(_Model):
 class Analysis(_Model):
     mode: Literal["steady", "transient"] = "steady"
     scheme: Literal["euler-imex", "bdf2-imex", "bdf2-implicit"] = "bdf2-imex"
-    time_step: float = Field(1e-3, gt=0)
-    end_time: float = Field(1.0, gt=0)
-    output_interval: float | None = Field(None, gt=0, description="simulated time between field snapshots")
-    checkpoint_interval: int = Field(200, ge=1, description="steps between checkpoints")
+    time_step: float = Field(1e-3, gt=0, le=1e6)
+    end_time: float = Field(1.0, gt=0, le=1e9)
+    output_interval: float | None = Field(None, gt=0, le=1e9, description="simulated time between field snapshots")
+    checkpoint_interval: int = Field(200, ge=1, le=10**9, description="steps between checkpoints")
     until_periodic: UntilPeriodic | None = None
     newton_tolerance: float = Field(1e-8, gt=0, lt=1, description="relative size of the last Newton update")
     max_newton_iterations: int = Field(30, ge=1, le=200)

@@ -48,6 +48,9 @@ def test_time_law_amplitude_not_instant_value_sets_reference_velocity():
      "bodies.0.points", "cross"),
     ({"fluid": {"viscosity": 1e-3, "reynolds": 100}}, "fluid", "not both"),
     ({"channel": {"length": "long"}}, "channel.length", "number"),
+    ({"bodies": [{**CYLINDER, "radius": 1e300}]}, "bodies.0.radius", "less than or equal"),
+    ({"bodies": [{**CYLINDER, "center": [1e300, 0.2]}]}, "bodies.0.center.0", "less than or equal"),
+    ({"bodies": [{**CYLINDER, "radius": 1e-9}]}, "bodies.0", "too small to mesh"),
 ])
 def test_bad_input_names_field(data, field, words):
     found = problems(data)
@@ -61,6 +64,12 @@ def test_limits_name_the_estimated_size():
         check_limits(spec, Limits(max_dofs=100_000))
     field, message = err.value.problems[0]
     assert field == "mesh" and "unknowns" in message and "100,000" in message
+
+
+def test_astronomical_step_count_is_refused_not_overflowed():
+    spec = load({"analysis": {"mode": "transient", "time_step": 1e-300, "end_time": 1e9}})
+    with pytest.raises(SpecError, match="over 1e15 steps"):
+        check_limits(spec, Limits())
 
 
 def test_step_limit():
