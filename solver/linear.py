@@ -115,10 +115,10 @@ class RepeatedSolver:
         return self.pardiso._call_pardiso(self.matrix, np.ascontiguousarray(rhs_free))
 
     def close(self) -> None:
-        """Release MKL's memory (it is not returned otherwise)."""
-        if self.pardiso is not None:
+        """Release MKL's memory (it is not returned otherwise); once is enough."""
+        if self.pardiso is not None and self.pattern is not None:
             self.pardiso.free_memory(everything=True)
-            self.pattern = None
+            self.pattern = self.matrix = None
 
     def __del__(self) -> None:
         self.close()
