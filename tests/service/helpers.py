@@ -16,7 +16,9 @@ from fastapi.testclient import TestClient
 
 from api.settings import Settings
 
-REDIS_URL = "redis://127.0.0.1:6379/5"
+# WAKEYARD_TEST_REDIS_DB lets two checkouts run the service tests at once on one Redis (default 5, 6)
+REDIS_DB = int(os.environ.get("WAKEYARD_TEST_REDIS_DB", "5"))
+REDIS_URL = f"redis://127.0.0.1:6379/{REDIS_DB}"
 
 TINY: dict[str, Any] = {
     "title": "pipe in a cooling duct (test)", "channel": {"length": 1.0, "height": 0.41},

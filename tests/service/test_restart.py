@@ -10,9 +10,9 @@ from fastapi.testclient import TestClient
 
 from api.app import create_app
 
-from .helpers import Worker, finished, settings_for, tiny, wait_for
+from .helpers import REDIS_DB, Worker, finished, settings_for, tiny, wait_for
 
-RESTART_REDIS = "redis://127.0.0.1:6379/6"  # a database of its own: the test empties it on purpose
+RESTART_REDIS = f"redis://127.0.0.1:6379/{REDIS_DB + 1}"  # a database of its own: the test empties it on purpose
 
 
 def test_api_and_broker_restart_with_queued_jobs(tmp_path: Path) -> None:
