@@ -170,6 +170,7 @@ class _Transient:
         self.rows: list[list[float]] = []
         self.snapshots: list[int] = []
         self.fingerprint = hashlib.sha256(case.spec.model_dump_json().encode()).hexdigest()
+        self.resumed_from_step: int | None = None
 
     def run(self) -> dict[str, Any]:
         case, a = self.case, self.case.spec.analysis
@@ -220,7 +221,7 @@ class _Transient:
         whole = a.until_periodic.cycles if ended_by == "periodic" else 5  # the cycles found to repeat
         summary.update(self._statistics(data, whole))
         summary.update({"ended_by": ended_by, "steps": stepper.n, "time_step": self.dt, "scheme": a.scheme,
-                        "simulated_time": stepper.t, "max_cfl": max_cfl,
+                        "simulated_time": stepper.t, "max_cfl": max_cfl, "resumed_from_step": self.resumed_from_step,
                         "factorisations": stepper.factorisations})
         summary["timings"].update({"solve": solve, "seconds_per_step": solve / max(stepper.n, 1),
                                    "output": time.perf_counter() - t_out})
@@ -235,6 +236,7 @@ class _Transient:
             if str(ck["fingerprint"]) == self.fingerprint:
                 self.rows = ck["rows"].tolist()
                 self.snapshots = ck["snapshots"].tolist()
+                self.resumed_from_step = int(ck["step"])
                 return Stepper(case.ns, a.scheme, self.dt, ck["x"], float(ck["t"]), ck["x_old"], int(ck["step"]))
         return Stepper(case.ns, a.scheme, self.dt, case.ns.stokes(0.0))
 

@@ -16,6 +16,8 @@ from fastapi.testclient import TestClient
 
 from api.settings import Settings
 
+from .hold import Hold
+
 # WAKEYARD_TEST_REDIS_DB lets two checkouts run the service tests at once on one Redis (default 5, 6)
 REDIS_DB = int(os.environ.get("WAKEYARD_TEST_REDIS_DB", "5"))
 REDIS_URL = f"redis://127.0.0.1:6379/{REDIS_DB}"
@@ -50,11 +52,15 @@ def environment(settings: Settings) -> dict[str, str]:
 class Worker:
     """A real Celery worker process group on the settings' queue, started by ``wakeyard worker``."""
 
-    def __init__(self, settings: Settings, log: Path):
+    def __init__(self, settings: Settings, log: Path, hold: Hold | None = None):
         self.log = log
+        preload, env = "", environment(settings)
+        if hold is not None:  # park the solver mid-run for the test (see hold.py)
+            preload = "from tests.service import hold; hold.install(); "
+            env.update(hold.environment())
         self.proc = subprocess.Popen(
-            [sys.executable, "-c", "import sys; from cli.main import main; sys.exit(main())", "worker"],
-            env=environment(settings), stdout=log.open("w"), stderr=subprocess.STDOUT, start_new_session=True)
+            [sys.executable, "-c", f"import sys; {preload}from cli.main import main; sys.exit(main())", "worker"],
+            env=env, stdout=log.open("w"), stderr=subprocess.STDOUT, start_new_session=True)
         deadline = time.monotonic() + 60
         while "ready." not in log.read_text():
             if self.proc.poll() is not None or time.monotonic() > deadline:

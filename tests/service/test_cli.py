@@ -51,8 +51,10 @@ def test_serve_embedded_runs_a_job_and_ctrl_c_stops_children(tmp_path: Path) -> 
         assert (tmp_path / "broker.sqlite").exists() and (tmp_path / "jobs.sqlite").exists()
         proc.send_signal(signal.SIGINT)
         assert proc.wait(30) == 0
-        time.sleep(0.5)
-        assert [pid for pid in children if Path(f"/proc/{pid}").exists()] == []
+        deadline = time.monotonic() + 10  # pool processes are reaped just after serve returns
+        while (left := [pid for pid in children if Path(f"/proc/{pid}").exists()]) and time.monotonic() < deadline:
+            time.sleep(0.1)
+        assert left == []
     finally:
         if proc.poll() is None:
             proc.kill()

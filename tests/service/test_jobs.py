@@ -44,7 +44,7 @@ def test_submit_runs_to_success_with_files(service: TestClient) -> None:
 
 
 def test_cancel_running_keeps_forces_and_queued_never_starts(service: TestClient) -> None:
-    long_id = service.post("/api/v1/jobs", json=tiny(end_time=20.0)).json()["id"]
+    long_id = service.post("/api/v1/jobs", json=tiny(end_time=1000.0)).json()["id"]  # 100,000 steps: never ends first
     wait_for(service, long_id, lambda j: j["state"] == "running" and j["progress"]["step"] > 5)
     queued_id = service.post("/api/v1/jobs", params={"fresh": "true"}, json=tiny()).json()["id"]  # not a reuse
     assert service.post(f"/api/v1/jobs/{queued_id}/cancel").json()["state"] == "cancelled"

@@ -14,7 +14,7 @@ from sqlalchemy import update
 from api.app import create_app
 from api.store import Job, Store, utcnow
 
-from .helpers import Worker, finished, settings_for, tiny, wait_for
+from .helpers import Hold, Worker, finished, settings_for, tiny, wait_for
 
 
 def _stale(store: Store, job_id: str) -> None:
@@ -40,53 +40,47 @@ def test_expired_lease_requeues_then_gives_up(store_url: str) -> None:
 
 def test_kill_9_of_the_worker_resumes_from_checkpoint(tmp_path: Path) -> None:
     settings = settings_for(tmp_path, "wakeyard-lease", lease_seconds=3.0)
-    first = Worker(settings, tmp_path / "first.log")
+    hold = Hold(tmp_path / "hold", step=20)  # the solver parks after its checkpoint at step 20
+    first = Worker(settings, tmp_path / "first.log", hold=hold)
     try:
         with TestClient(create_app(settings)) as client:
             spec = tiny(end_time=4.0, output_interval=2.0, checkpoint_interval=10)
             job_id = client.post("/api/v1/jobs", json=spec).json()["id"]
-            checkpoint = settings.jobs_dir / job_id / "checkpoint.npz"
-            wait_for(client, job_id, lambda j: j["progress"]["step"] >= 25 and checkpoint.exists(), timeout=60)
+            held = hold.wait_held()
             first.kill()
-            saved = int(np.load(checkpoint)["step"])
+            saved = int(np.load(settings.jobs_dir / job_id / "checkpoint.npz")["step"])
             stale = client.get(f"/api/v1/jobs/{job_id}").json()
-            assert stale["state"] == "running" and 20 <= saved < 400
+            assert stale["state"] == "running" and saved == held["step"] == 20
 
             second = Worker(settings, tmp_path / "second.log")
             try:
-                steps: list[int] = []
-
-                def watch(job: dict) -> bool:
-                    if job["attempts"] == 2 and job["state"] == "running":
-                        steps.append(job["progress"]["step"])
-                    return finished(job)
-
-                job = wait_for(client, job_id, watch, timeout=90)
+                job = wait_for(client, job_id, finished, timeout=90)
             finally:
                 second.stop()
             assert job["state"] == "succeeded", job["error"]
             assert job["attempts"] == 2 and job["summary"]["steps"] == 400
-            fresh = [n for n in steps if n != stale["progress"]["step"]]
-            assert fresh and min(fresh) > saved  # continued from the checkpoint, never from step 0
+            assert job["summary"]["resumed_from_step"] == saved  # continued from the checkpoint, not from step 0
     finally:
         first.stop()
 
 
 def test_kill_9_of_a_pool_child_requeues_and_the_same_worker_finishes(tmp_path: Path) -> None:
     settings = settings_for(tmp_path, "wakeyard-child", lease_seconds=3.0)
-    worker = Worker(settings, tmp_path / "worker.log")
+    hold = Hold(tmp_path / "hold", step=20)
+    worker = Worker(settings, tmp_path / "worker.log", hold=hold)
     try:
         with TestClient(create_app(settings)) as client:
             job_id = client.post("/api/v1/jobs", json=tiny(end_time=4.0, output_interval=2.0,
                                                          checkpoint_interval=10)).json()["id"]
-            checkpoint = settings.jobs_dir / job_id / "checkpoint.npz"
-            job = wait_for(client, job_id, lambda j: j["progress"]["step"] >= 25 and checkpoint.exists(), timeout=60)
-            child = int(job["worker_host"].rsplit(":", 1)[1])  # the pool process that runs the job
+            child = hold.wait_held()["pid"]  # the pool process that runs the job, parked at step 20
+            running = client.get(f"/api/v1/jobs/{job_id}").json()
+            assert running["state"] == "running" and running["worker_host"].endswith(f":{child}")
             assert child != worker.proc.pid
             os.kill(child, signal.SIGKILL)
             job = wait_for(client, job_id, finished, timeout=90)
             assert job["state"] == "succeeded", job["error"]
             assert job["attempts"] == 2 and job["summary"]["steps"] == 400
+            assert job["summary"]["resumed_from_step"] == 20
             assert worker.proc.poll() is None  # the worker replaced its child and carried on
     finally:
         worker.stop()

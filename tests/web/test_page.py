@@ -226,7 +226,7 @@ def test_bad_values_show_their_errors_beside_the_fields(page, api) -> None:
 
 
 def test_cancel_running_and_queued_jobs(page, api) -> None:
-    long_case = {**TINY, "title": "Long run to cancel", "analysis": {**TINY["analysis"], "end_time": 200.0,
+    long_case = {**TINY, "title": "Long run to cancel", "analysis": {**TINY["analysis"], "end_time": 1000.0,
                                                                       "output_interval": 100.0}}
     running = submit(api, long_case)
     waiting = submit(api, {**long_case, "title": "Queued run to cancel"})
