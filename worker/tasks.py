@@ -36,15 +36,27 @@ def _store() -> Store:
     return _stores[pid]
 
 
+# Set (from the worker's SIGTERM handler) when this process is asked to stop: the running job stops at its next
+# time step and goes back to the queue, to resume from its last checkpoint.
+SHUTDOWN = threading.Event()
+BUSY = threading.Event()  # a task is running in this (solo-pool) process
+
+
 @shared_task(name="wakeyard.run_next")
 def run_next(hint: str | None = None) -> str | None:
     """Run the next queued job, if any; ``hint`` (the submitted job id) is for logs only."""
-    job = _store().claim_next(f"{socket.gethostname()}:{os.getpid()}")
-    if job is None:
-        log.info("nothing to run (message for %s)", hint)
+    if SHUTDOWN.is_set():
         return None
-    _Attempt(_store(), _settings(), job).run()
-    return job.id
+    BUSY.set()
+    try:
+        job = _store().claim_next(f"{socket.gethostname()}:{os.getpid()}")
+        if job is None:
+            log.info("nothing to run (message for %s)", hint)
+            return None
+        _Attempt(_store(), _settings(), job).run()
+        return job.id
+    finally:
+        BUSY.clear()
 
 
 class _Attempt:
@@ -87,6 +99,9 @@ class _Attempt:
         if cancel or not ours:
             self.stop.set()
 
+    def _should_stop(self) -> bool:
+        return self.stop.is_set() or SHUTDOWN.is_set()
+
     def _beat_loop(self) -> None:
         while not self.done.wait(self.settings.heartbeat_seconds):
             self.beat()
@@ -97,7 +112,7 @@ class _Attempt:
         beater.start()
         summary = None
         try:
-            summary = solver.run(self.job.spec, out, progress=self.progress, should_stop=self.stop.is_set,
+            summary = solver.run(self.job.spec, out, progress=self.progress, should_stop=self._should_stop,
                                  wall_time_limit=self.settings.max_wall_time, resume=True)
             state, error = "succeeded", None
         except solver.Cancelled as err:
@@ -111,6 +126,10 @@ class _Attempt:
             self.done.set()
             beater.join()
         if self.lost:
+            return
+        if state == "cancelled" and not self.stop.is_set():  # stopped by SIGTERM, not by a cancel request
+            if self.store.release(self.job.id, self.job.claim):
+                log.warning("job %s handed back to the queue: this worker is stopping", self.job.id)
             return
         progress = self._values()
         if summary is not None:  # the last progress report can be half a second old
