@@ -22,6 +22,7 @@ from .problems import SpecProblems, spec_problems_handler, validation_handler
 from .reaper import Reaper
 from .settings import Settings
 from .store import Store
+from .text_checks import RefuseNul
 
 WEB = Path(__file__).resolve().parent.parent / "web"
 
@@ -50,6 +51,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.add_exception_handler(SpecProblems, spec_problems_handler)
     app.add_exception_handler(RequestValidationError, validation_handler)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
+    app.add_middleware(RefuseNul)
     for module in (routes_jobs, routes_files, routes_studies, routes_ops):
         app.include_router(module.router)
     _document_spec(app)

@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
-from fastapi import HTTPException
 from starlette.responses import JSONResponse
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
+
+from .problems import SpecProblems
 
 
 class BodyLimit:
@@ -25,8 +26,8 @@ class BodyLimit:
             nonlocal seen
             message = await receive()
             seen += len(message.get("body", b""))
-            if seen > self.max_bytes:
-                raise HTTPException(413, self._message())
+            if seen > self.max_bytes:  # the same problem shape as the refusal on Content-Length
+                raise SpecProblems([("(body)", self._message())], status=413)
             return message
 
         await self.app(scope, counted, send)

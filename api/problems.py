@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from fastapi import Request
+from fastapi import HTTPException, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
 
@@ -10,12 +10,13 @@ CAUTION = ("2D laminar results are a study aid, not design loads; applicable cod
            "engineer decide anything that matters.")
 
 
-class SpecProblems(Exception):
-    """Raised by routes for input the solver (or the service's limits) refuses."""
+class SpecProblems(HTTPException):
+    """Raised by routes for input the solver (or the service's limits) refuses. An HTTPException, so that FastAPI
+    passes it through unchanged even when it is raised while the request body is being read (the size cap)."""
 
     def __init__(self, problems: list[tuple[str, str]], status: int = 422):
-        self.problems, self.status = problems, status
-        super().__init__("; ".join(f"{f}: {m}" for f, m in problems))
+        self.problems = problems
+        super().__init__(status, "; ".join(f"{f}: {m}" for f, m in problems))
 
 
 def _field(loc: tuple[object, ...]) -> str:
@@ -27,7 +28,7 @@ def _field(loc: tuple[object, ...]) -> str:
 
 async def spec_problems_handler(_: Request, exc: Exception) -> JSONResponse:
     assert isinstance(exc, SpecProblems)
-    return JSONResponse({"detail": [{"field": f, "message": m} for f, m in exc.problems]}, status_code=exc.status)
+    return JSONResponse({"detail": [{"field": f, "message": m} for f, m in exc.problems]}, status_code=exc.status_code)
 
 
 async def validation_handler(_: Request, exc: Exception) -> JSONResponse:

@@ -11,7 +11,8 @@ router = APIRouter(tags=["operations"])
 STATES = ("queued", "running", "succeeded", "failed", "cancelled")
 
 
-@router.get("/api/v1/health", summary="ok, or degraded (503) with the problems: store, broker, workers, disk")
+@router.get("/api/v1/health", summary="ok, or degraded (503) with the problems: store, broker, workers, disk",
+            responses={503: {"description": "degraded: the same body, with the problems listed"}})
 def health(request: Request) -> JSONResponse:
     state = request.app.state
     found = check(state.settings, state.store, state.celery)

@@ -18,6 +18,7 @@ from .routes_jobs import Fresh, limits
 from .store import ACTIVE, Job, Store, Study
 from .study_plot import plot_png
 from .submission import check_cap, place, plan
+from .text_checks import NUL_MESSAGE, nul_fields
 
 router = APIRouter(prefix="/api/v1/studies", tags=["studies"])
 STUDY_BODY = {"requestBody": {"required": True,
@@ -37,6 +38,8 @@ def _expanded(data: Any, request: Request) -> tuple[StudySpec, list[tuple[dict[s
     """The solver's checks of the study and of every point, plus the service's size limits for each point."""
     if not isinstance(data, dict):
         raise SpecProblems([("(body)", f"must be a JSON object (the study), got {type(data).__name__}")])
+    if nul := nul_fields(data):
+        raise SpecProblems([(field, NUL_MESSAGE) for field in nul])
     try:
         points = expand(data)
     except solver.SpecError as err:

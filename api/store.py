@@ -447,6 +447,10 @@ class Store:
         with self.session() as s:
             return s.scalar(select(Token).where(Token.digest == digest))
 
+    def known_token_user(self, digest: str) -> tuple[str, bool] | None:
+        """(name, admin) for a token seen before, without asking the database."""
+        return self._token_users.get(digest)
+
     def token_user(self, digest: str) -> tuple[str, bool] | None:
         """(name, admin) for a token digest; known tokens are remembered (tokens are never revoked)."""
         if digest not in self._token_users:
@@ -462,9 +466,17 @@ class Store:
 
     def tokens_required(self) -> bool:
         """Once a token exists, tokens stay required; until then ask the database at most once a second."""
-        if not self._tokens_exist and time.monotonic() - self._tokens_checked > 1.0:
+        cached = self.tokens_required_cached()
+        if cached is None:
             self._tokens_exist, self._tokens_checked = self.has_tokens(), time.monotonic()
-        return self._tokens_exist
+            return self._tokens_exist
+        return cached
+
+    def tokens_required_cached(self) -> bool | None:
+        """The answer of :meth:`tokens_required` if it needs no database query, else None."""
+        if self._tokens_exist or time.monotonic() - self._tokens_checked <= 1.0:
+            return self._tokens_exist
+        return None
 
     def has_tokens(self) -> bool:
         with self.session() as s:

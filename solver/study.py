@@ -172,7 +172,7 @@ def summary_values(summary: dict[str, Any]) -> dict[str, float]:
     return out
 
 
-def convergence(summaries: list[dict[str, Any]], area: float) -> dict[str, dict[str, float | bool]]:
+def convergence(summaries: list[dict[str, Any]], area: float) -> dict[str, dict[str, float | bool | str | None]]:
     """Grid convergence of every summary value from the three finest of ``summaries`` (any order).
 
     The representative cell size is ``sqrt(area / cells)`` (Celik et al. 2008).
@@ -187,5 +187,5 @@ def convergence(summaries: list[dict[str, Any]], area: float) -> dict[str, dict[
         if all(key in v for v in values):
             g = grid_convergence(h, tuple(v[key] for v in values))  # type: ignore[arg-type]
             out[key] = {"observed_order": g.observed_order, "extrapolated": g.extrapolated,
-                        "gci_fine": g.gci_fine, "monotone": g.monotone}
+                        "gci_fine": g.gci_fine, "monotone": g.monotone, "reason": g.reason}
     return out
