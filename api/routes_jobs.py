@@ -17,7 +17,7 @@ from .auth import User, current_user
 from .problems import CAUTION, SpecProblems
 from .settings import Settings
 from .store import Job, Store
-from .submission import check_cap, place, plan
+from .submission import check_cap, check_space, place, plan
 from .text_checks import NUL_MESSAGE, nul_fields
 
 log = logging.getLogger(__name__)
@@ -91,6 +91,7 @@ def _check_tags(tags: list[str]) -> list[str]:
 
 
 def _submit(request: Request, user: User, spec: dict[str, Any], tags: list[str], fresh: bool) -> JSONResponse:
+    check_space(request)
     planned = plan(request, spec, fresh)
     check_cap(request, user.name, [planned])
     job = place(request, user.name, planned, tags)
@@ -152,19 +153,20 @@ def cancel_job(request: Request, job_id: str, user: Annotated[User, Depends(curr
     job = _own(request, job_id, user)
     if job.state not in ("queued", "running"):
         raise HTTPException(409, f"job {job_id} is already {job.state}")
-    _store(request).cancel(job_id)
+    request.app.state.reserve.retry(lambda: _store(request).cancel(job_id))  # works on a full disk too
     return view(_store(request).get(job_id) or job)
 
 
 @router.delete("/{job_id}", status_code=204, summary="Delete a job and its files")
 def delete_job(request: Request, job_id: str, user: Annotated[User, Depends(current_user)]) -> None:
     _own(request, job_id, user)
-    store = _store(request)
-    store.cancel(job_id)  # a queued job must not start while we delete it
-    if not store.delete(job_id):
+    store, reserve = _store(request), request.app.state.reserve
+    # a queued job must not start while we delete it; every write can use the reserve (deleting frees space)
+    if reserve.retry(lambda: store.cancel(job_id)) == "running":
         raise HTTPException(409, f"job {job_id} is running; it has been asked to stop: delete it again once its "
                                  "state is cancelled")
-    shutil.rmtree(_settings(request).jobs_dir / job_id, ignore_errors=True)
+    shutil.rmtree(_settings(request).jobs_dir / job_id, ignore_errors=True)  # files first: that frees the space
+    reserve.retry(lambda: store.delete(job_id))
 
 
 @router.post("/{job_id}/clone", status_code=202, openapi_extra=PARTIAL_BODY, summary="Queue a copy with edits")

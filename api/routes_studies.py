@@ -17,7 +17,7 @@ from .problems import CAUTION, SpecProblems
 from .routes_jobs import Fresh, limits
 from .store import ACTIVE, Job, Store, Study
 from .study_plot import plot_png
-from .submission import check_cap, place, plan
+from .submission import check_cap, check_space, place, plan
 from .text_checks import NUL_MESSAGE, nul_fields
 
 router = APIRouter(prefix="/api/v1/studies", tags=["studies"])
@@ -62,6 +62,7 @@ def _point_title(title: str, values: dict[str, float]) -> str:
 @router.post("", status_code=202, openapi_extra=STUDY_BODY, summary="Queue a parameter study")
 def create_study(request: Request, user: Annotated[User, Depends(current_user)], data: Annotated[Any, Body()],
                  fresh: Fresh = False) -> JSONResponse:
+    check_space(request)
     spec, points = _expanded(data, request)
     title = spec.title or str(points[0][1].get("title", "")) or spec.kind
     planned = [plan(request, case, fresh, _point_title(title, values), values=values) for values, case in points]

@@ -14,6 +14,7 @@ from celery import shared_task
 from sqlalchemy.exc import SQLAlchemyError
 
 import solver
+from api.disk import DiskReserve, disk_full
 from api.settings import Settings
 from api.store import Claimed, Store, finite
 
@@ -120,8 +121,7 @@ class _Attempt:
         except (solver.RunFailed, solver.SpecError) as err:
             state, error = "failed", str(err)
         except Exception as err:  # record every failure: a job must never stay "running" silently
-            log.exception("job %s crashed", self.job.id)
-            state, error = "failed", f"internal error: {type(err).__name__}: {err}"
+            state, error = "failed", _unexpected(self.job.id, err)
         finally:
             self.done.set()
             beater.join()
@@ -135,5 +135,17 @@ class _Attempt:
         if summary is not None:  # the last progress report can be half a second old
             progress.update(progress_fraction=1.0, progress_step=summary.get("steps", progress.get("progress_step", 0)),
                             progress_time=summary.get("simulated_time", progress.get("progress_time", 0.0)))
-        if not self.store.finish(self.job.id, self.job.claim, state, finite(summary), error, finite(progress)):
+        reserve = DiskReserve(self.settings.data_dir)  # a full disk must not keep the job "running"
+        if not reserve.retry(lambda: self.store.finish(self.job.id, self.job.claim, state, finite(summary), error,
+                                                       finite(progress))):
             log.warning("job %s changed hands before it finished; its outcome %s is not recorded", self.job.id, state)
+
+
+def _unexpected(job_id: str, err: Exception) -> str:
+    """The error recorded for a failure the solver did not raise on purpose."""
+    if disk_full(err):
+        log.error("job %s failed: the disk is full (%s)", job_id, err)
+        return (f"the results could not be written: the data folder's disk is full ({err}); free space (delete "
+                "jobs no longer needed), then run the job again")
+    log.exception("job %s crashed", job_id)
+    return f"internal error: {type(err).__name__}: {err}"
