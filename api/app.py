@@ -56,7 +56,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.add_exception_handler(OSError, disk_full_handler)
     app.add_exception_handler(SQLAlchemyError, disk_full_handler)
     app.add_exception_handler(RequestValidationError, validation_handler)
-    app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
+    app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes, max_seconds=settings.max_body_seconds)
     app.add_middleware(RefuseNul)
     for module in (routes_jobs, routes_files, routes_studies, routes_ops):
         app.include_router(module.router)

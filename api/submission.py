@@ -59,7 +59,11 @@ def check_space(request: Request) -> None:
 
 def check_cap(request: Request, owner: str, planned: list[Planned]) -> None:
     """Refuse (429) jobs that would take ``owner`` over the per-user cap of queued + running jobs."""
-    to_run = sum(p.provenance.source is None for p in planned)
+    check_room(request, owner, sum(p.provenance.source is None for p in planned))
+
+
+def check_room(request: Request, owner: str, to_run: int) -> None:
+    """Refuse (429) ``to_run`` more jobs if they would take ``owner`` over the cap."""
     if not to_run:
         return
     cap, active = request.app.state.settings.max_active_per_user, request.app.state.store.active_count(owner)

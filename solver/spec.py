@@ -229,7 +229,7 @@ def _check_geometry(spec: JobSpec) -> list[tuple[str, str]]:
             problems.append((where, f"{body.name} is {body.reference_length():.3g} across, smaller than "
                                     f"1e-5 of the channel height: too small to mesh"))
         if body.shape == "polygon" and not _polygons.is_simple(pts):
-            problems.append((f"{where}.points", "the polygon's edges cross each other"))
+            problems.append((f"{where}.points", "the polygon's edges cross or touch each other"))
         for j in range(i):
             if _polygons.overlap(outlines[j], pts, gap=1e-3 * H):
                 problems.append((where, f"{body.name} overlaps or touches {spec.bodies[j].name}"))

@@ -25,14 +25,15 @@ SPEED = {"WAKEYARD_HEARTBEAT_SECONDS": "0.5", "WAKEYARD_REAPER_SECONDS": "0.5"}
 
 
 class Serve:
-    """``wakeyard serve`` with one worker on the embedded broker, in a session of its own (as a service manager
-    would start it)."""
+    """``wakeyard serve`` (one worker unless told) on the embedded broker, in a session of its own (as a service
+    manager would start it)."""
 
-    def __init__(self, data: Path, log: Path):
+    def __init__(self, data: Path, log: Path, workers: int = 1, **env: str):
         self.data, self.log, self.port = data, log, _free_port()
         self.url = f"http://127.0.0.1:{self.port}"
         self.proc = subprocess.Popen([*WAKEYARD, "serve", "--port", str(self.port), "--data", str(data),
-                                      "--workers", "1"], env={**os.environ, **SPEED}, stdout=log.open("w"),
+                                      "--workers", str(workers)], env={**os.environ, **SPEED, **env},
+                                     stdout=log.open("w"),
                                      stderr=subprocess.STDOUT, start_new_session=True)
         until(lambda: self.url in log.read_text(), lambda: self.proc.poll() is None, log.read_text, 90)
 

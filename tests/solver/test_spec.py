@@ -90,3 +90,13 @@ def test_derived_scales_stay_bounded(data, field, words):
     """Reynolds number, viscosity and reference velocity derived from each other stay finite and in range."""
     found = problems(data)
     assert words in found[field]
+
+
+def test_polygon_whose_corner_touches_an_edge_is_refused():
+    touching = [[0.3, 0.1], [0.5, 0.1], [0.5, 0.3], [0.4, 0.1], [0.3, 0.3]]
+    assert "cross or touch" in problems({"bodies": [{"shape": "polygon", "points": touching}]})["bodies.0.points"]
+
+
+def test_a_body_inside_another_overlaps():
+    ring = {"shape": "polygon", "points": [[0.1, 0.1], [0.4, 0.1], [0.4, 0.35], [0.1, 0.35]]}
+    assert "overlaps" in problems({"bodies": [ring, {**CYLINDER, "center": [0.25, 0.22], "radius": 0.02}]})["bodies.1"]
