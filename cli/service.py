@@ -87,7 +87,7 @@ def serve(host: str, port: int) -> int:
         supervisor.stopping.set()
         if with_workers:
             supervising.join()
-            _hand_back(store, supervisor.names)
+            _hand_back(store, supervisor.stopped)
         lock.release()
     # everything is stopped and recorded: skip the interpreter's teardown of the numerical modules (up to a second)
     sys.stdout.flush()
@@ -151,7 +151,7 @@ def worker() -> int:
     supervising.start()
     while supervising.is_alive():
         supervising.join(0.5)
-    _hand_back(Store(settings.db_url), supervisor.names)
+    _hand_back(Store(settings.db_url), supervisor.stopped)
     return 0
 
 

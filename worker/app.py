@@ -55,6 +55,7 @@ app = make_celery(Settings())
 
 _stop_announcing = threading.Event()
 _name = f"{socket.gethostname()}:{os.getpid()}"  # as the job store knows this process (claims, heartbeats)
+_stores: list[Store] = []  # the announcer's, once the worker is ready
 
 
 @worker_ready.connect
@@ -62,6 +63,7 @@ def _announce(**_: object) -> None:
     """Tell the job store this worker process is alive, a few times per lease (for /api/v1/health)."""
     settings = Settings()
     store = Store(settings.db_url)
+    _stores.append(store)
     every = min(5.0, settings.lease_seconds / 3)
 
     def loop() -> None:
@@ -96,7 +98,8 @@ def _leave() -> None:
     """Exit now: Celery's own warm shutdown would first wait for its next broker poll (a second or two), and nothing
     is left to finish (wake-ups are acknowledged on receipt; the job store holds the queue)."""
     try:
-        Store(Settings().db_url).worker_gone(_name)
+        for store in _stores:
+            store.worker_gone(_name)
     except Exception:  # health stops counting this process once the lease passes anyway
         log.exception("could not record that the worker stopped")
     logging.shutdown()

@@ -31,7 +31,7 @@ class Supervisor:
         self.born = [0.0] * count
         self.failures = [0] * count
         self.due = [0.0] * count
-        self.names: list[str] = []  # host:pid of every child started (what the job store calls them)
+        self.stopped: list[str] = []  # host:pid (as the job store knows them) of the children the stop ended
         self.stopping = threading.Event()
 
     def run(self) -> None:
@@ -66,10 +66,10 @@ class Supervisor:
             self.due[i] = time.monotonic() + MAX_BACKOFF
             return
         self.procs[i], self.born[i] = proc, time.monotonic()
-        self.names.append(f"{socket.gethostname()}:{proc.pid}")
 
     def _stop_all(self) -> None:
         alive = [p for p in self.procs if p is not None and p.poll() is None]
+        self.stopped = [f"{socket.gethostname()}:{p.pid}" for p in alive]
         for proc in alive:
             proc.send_signal(signal.SIGTERM)  # the child stops its job at the next time step and hands it back
         deadline = time.monotonic() + GRACE

@@ -144,3 +144,20 @@ def test_a_worker_process_that_dies_is_started_again_with_back_off(tmp_path: Pat
         assert health["status"] == "ok" and health["workers_seen"] >= 1
     serve.stop()
     assert not alive(third)
+
+
+def test_stopped_workers_jobs_go_back_uncounted_or_end_cancelled(store_url: str) -> None:
+    """What serve does for workers it had to kill after the grace: their jobs are queued again (the attempt not
+    counted), a job with a cancel request ends cancelled, other workers' jobs are left alone."""
+    store = Store(store_url)
+    ids = [store.create("ana", tiny(), []).id for _ in range(3)]
+    held = [store.claim_next(host) for host in ("box:1", "box:2", "box:3")]
+    assert [c.id for c in held] == ids
+    store.cancel(ids[1])  # asks its worker to stop
+    assert store.release_hosts(["box:1", "box:2"]) == [ids[0]]
+    first, second, third = (store.get(i) for i in ids)
+    assert first.state == "queued" and first.attempts == 0 and first.claim is None
+    assert second.state == "cancelled" and "its worker was stopped" in second.error
+    assert third.state == "running" and third.attempts == 1
+    assert store.release(ids[2], "not-the-claim") is False
+    assert store.release(ids[2], held[2].claim) is True and store.get(ids[2]).state == "queued"
