@@ -10,18 +10,21 @@ from typing import Any
 from fastapi import FastAPI
 from fastapi.exceptions import RequestValidationError
 from fastapi.staticfiles import StaticFiles
+from sqlalchemy.exc import SQLAlchemyError
 
 import solver
 from solver.study import StudySpec
 from worker.app import make_celery  # producer side only (BLAS pinning on import is harmless here)
 
 from . import routes_files, routes_jobs, routes_ops, routes_studies
+from .disk import DiskReserve
 from .dispatch import Dispatcher
 from .limits import BodyLimit
-from .problems import SpecProblems, spec_problems_handler, validation_handler
+from .problems import SpecProblems, disk_full_handler, spec_problems_handler, validation_handler
 from .reaper import Reaper
 from .settings import Settings
 from .store import Store
+from .text_checks import RefuseNul
 
 WEB = Path(__file__).resolve().parent.parent / "web"
 
@@ -33,7 +36,9 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     store = Store(settings.db_url)
     celery = make_celery(settings)
     dispatch = Dispatcher(celery, settings.queue)
-    reaper = Reaper(settings, store, dispatch)
+    reserve = DiskReserve(settings.data_dir)
+    reserve.ensure()
+    reaper = Reaper(settings, store, dispatch, reserve)
 
     @asynccontextmanager
     async def lifespan(_: FastAPI) -> AsyncIterator[None]:
@@ -46,10 +51,13 @@ def create_app(settings: Settings | None = None) -> FastAPI:
                   description="Queued 2D incompressible flow simulations. Results of 2D laminar runs are a study "
                               "aid, not design loads; codes, standards and licensed engineers decide.")
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
-    app.state.reaper = reaper
+    app.state.reaper, app.state.reserve = reaper, reserve
     app.add_exception_handler(SpecProblems, spec_problems_handler)
+    app.add_exception_handler(OSError, disk_full_handler)
+    app.add_exception_handler(SQLAlchemyError, disk_full_handler)
     app.add_exception_handler(RequestValidationError, validation_handler)
-    app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
+    app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes, max_seconds=settings.max_body_seconds)
+    app.add_middleware(RefuseNul)
     for module in (routes_jobs, routes_files, routes_studies, routes_ops):
         app.include_router(module.router)
     _document_spec(app)

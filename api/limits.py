@@ -1,15 +1,20 @@
-"""Request-body size cap as pure ASGI middleware, so oversized bodies are refused before they are buffered."""
+"""Request-body size and time caps as pure ASGI middleware: oversized bodies are refused before they are buffered,
+and a body that arrives too slowly (or stalls) is refused instead of holding a connection open indefinitely."""
 
 from __future__ import annotations
 
-from fastapi import HTTPException
+import asyncio
+import time
+
 from starlette.responses import JSONResponse
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
+from .problems import SpecProblems
+
 
 class BodyLimit:
-    def __init__(self, app: ASGIApp, max_bytes: int):
-        self.app, self.max_bytes = app, max_bytes
+    def __init__(self, app: ASGIApp, max_bytes: int, max_seconds: float):
+        self.app, self.max_bytes, self.max_seconds = app, max_bytes, max_seconds
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         if scope["type"] != "http":
@@ -19,14 +24,21 @@ class BodyLimit:
         if declared is not None and (not declared.isdigit() or int(declared) > self.max_bytes):
             await self._refuse(scope, receive, send)
             return
-        seen = 0
+        seen, complete, deadline = 0, False, time.monotonic() + self.max_seconds
 
         async def counted() -> Message:
-            nonlocal seen
-            message = await receive()
+            nonlocal seen, complete
+            if complete:  # after the body only a disconnect can come, which a streamed response waits for
+                return await receive()
+            try:
+                message = await asyncio.wait_for(receive(), max(0.0, deadline - time.monotonic()))
+            except TimeoutError:
+                raise SpecProblems([("(body)", f"request body: not received within {self.max_seconds:g} s")],
+                                   status=408) from None
+            complete = message["type"] != "http.request" or not message.get("more_body", False)
             seen += len(message.get("body", b""))
-            if seen > self.max_bytes:
-                raise HTTPException(413, self._message())
+            if seen > self.max_bytes:  # the same problem shape as the refusal on Content-Length
+                raise SpecProblems([("(body)", self._message())], status=413)
             return message
 
         await self.app(scope, counted, send)

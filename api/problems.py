@@ -2,20 +2,23 @@
 
 from __future__ import annotations
 
-from fastapi import Request
+from fastapi import HTTPException, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
+
+from .disk import disk_full
 
 CAUTION = ("2D laminar results are a study aid, not design loads; applicable codes and standards and a licensed "
            "engineer decide anything that matters.")
 
 
-class SpecProblems(Exception):
-    """Raised by routes for input the solver (or the service's limits) refuses."""
+class SpecProblems(HTTPException):
+    """Raised by routes for input the solver (or the service's limits) refuses. An HTTPException, so that FastAPI
+    passes it through unchanged even when it is raised while the request body is being read (the size cap)."""
 
     def __init__(self, problems: list[tuple[str, str]], status: int = 422):
-        self.problems, self.status = problems, status
-        super().__init__("; ".join(f"{f}: {m}" for f, m in problems))
+        self.problems = problems
+        super().__init__(status, "; ".join(f"{f}: {m}" for f, m in problems))
 
 
 def _field(loc: tuple[object, ...]) -> str:
@@ -27,7 +30,18 @@ def _field(loc: tuple[object, ...]) -> str:
 
 async def spec_problems_handler(_: Request, exc: Exception) -> JSONResponse:
     assert isinstance(exc, SpecProblems)
-    return JSONResponse({"detail": [{"field": f, "message": m} for f, m in exc.problems]}, status_code=exc.status)
+    return JSONResponse({"detail": [{"field": f, "message": m} for f, m in exc.problems]}, status_code=exc.status_code)
+
+
+DISK_FULL = ("the data folder's disk is full: nothing new can be stored until space is freed (delete jobs that are "
+             "no longer needed)")
+
+
+async def disk_full_handler(_: Request, exc: Exception) -> JSONResponse:
+    """507 Insufficient Storage for a write the full disk refused; any other error stays a server error."""
+    if not disk_full(exc):
+        raise exc
+    return JSONResponse({"detail": DISK_FULL}, status_code=507)
 
 
 async def validation_handler(_: Request, exc: Exception) -> JSONResponse:

@@ -1,5 +1,5 @@
 """The lease: re-queue jobs whose worker went silent, re-send wake-ups that a broker may have lost, prune the
-embedded broker's delivered messages. Runs in a thread of the API process."""
+embedded broker's delivered messages, restore the disk reserve. Runs in a thread of the API process."""
 
 from __future__ import annotations
 
@@ -11,6 +11,7 @@ from datetime import datetime, timedelta
 from sqlalchemy import create_engine, text
 from sqlalchemy.exc import OperationalError
 
+from .disk import DiskReserve
 from .settings import Settings
 from .store import Store
 
@@ -18,8 +19,8 @@ log = logging.getLogger(__name__)
 
 
 class Reaper:
-    def __init__(self, settings: Settings, store: Store, dispatch: Callable[[str], None]):
-        self.settings, self.store, self.dispatch = settings, store, dispatch
+    def __init__(self, settings: Settings, store: Store, dispatch: Callable[[str], None], reserve: DiskReserve):
+        self.settings, self.store, self.dispatch, self.reserve = settings, store, dispatch, reserve
         self.stop = threading.Event()
         self.thread = threading.Thread(target=self._loop, name="wakeyard-reaper", daemon=True)
         embedded = settings.celery_broker.startswith("sqla+")
@@ -44,6 +45,7 @@ class Reaper:
                 log.exception("lease check failed")
 
     def tick(self) -> None:
+        self.reserve.ensure()  # back once space has been freed
         for job_id in self.store.expire_leases(self.settings.lease_seconds, self.settings.max_attempts):
             log.warning("job %s lost its worker: re-queued", job_id)
             self.dispatch(job_id)

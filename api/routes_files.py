@@ -32,14 +32,25 @@ def _folder(request: Request, job_id: str) -> Path:
     return (request.app.state.settings.jobs_dir / job_id).resolve()
 
 
+# What odd paths raise: a name over 255 bytes (OSError), a symlink loop (RuntimeError from resolve, OSError from
+# stat). Such a path is simply not a result file.
+BAD_PATH = (OSError, RuntimeError, ValueError)
+
+
 def _shown(folder: Path, path: Path) -> bool:
     """A result file: a regular file really inside ``folder`` (no symlink out), not hidden or internal."""
-    return path.is_file() and path.resolve().is_relative_to(folder) and path.name not in HIDDEN and not any(
-        part.startswith(".") for part in path.relative_to(folder).parts)
+    try:
+        return path.is_file() and path.resolve().is_relative_to(folder) and path.name not in HIDDEN and not any(
+            part.startswith(".") for part in path.relative_to(folder).parts)
+    except BAD_PATH:
+        return False
 
 
 def _visible(folder: Path) -> list[Path]:
-    return sorted(p for p in folder.rglob("*") if _shown(folder, p)) if folder.is_dir() else []
+    try:
+        return sorted(p for p in folder.rglob("*") if _shown(folder, p)) if folder.is_dir() else []
+    except BAD_PATH:  # a folder the walk cannot enter: list what the top level shows
+        return sorted(p for p in folder.iterdir() if _shown(folder, p))
 
 
 def _field_files(folder: Path) -> list[Path]:
@@ -63,11 +74,14 @@ def get_file(request: Request, job_id: str, path: str, _: Annotated[User, Depend
     folder = _folder(request, job_id)
     if path == ARCHIVE:
         return _archive(folder, job_id)
-    target = (folder / path).resolve()
+    try:
+        target = (folder / path).resolve()
+    except BAD_PATH:
+        raise HTTPException(404, f"no file {path[:300]!r} in job {job_id}") from None
     if not target.is_relative_to(folder) or target == folder:
-        raise HTTPException(404, f"no file {path!r} in job {job_id}")
+        raise HTTPException(404, f"no file {path[:300]!r} in job {job_id}")
     if not _shown(folder, target):
-        raise HTTPException(404, f"no file {path!r} in job {job_id} (yet)")
+        raise HTTPException(404, f"no file {path[:300]!r} in job {job_id} (yet)")
     return FileResponse(target, media_type=_content_type(target.name))
 
 

@@ -17,7 +17,8 @@ from .auth import User, current_user
 from .problems import CAUTION, SpecProblems
 from .settings import Settings
 from .store import Job, Store
-from .submission import check_cap, place, plan
+from .submission import check_cap, check_space, place, plan
+from .text_checks import NUL_MESSAGE, nul_fields
 
 log = logging.getLogger(__name__)
 router = APIRouter(prefix="/api/v1/jobs", tags=["jobs"])
@@ -26,6 +27,7 @@ SPEC_BODY = {"requestBody": {"required": True,
 PARTIAL_BODY = {"requestBody": {"required": False, "content": {"application/json": {"schema": {
     "type": "object", "description": "any part of a job spec; merged over the original job's spec"}}}}}
 MAX_TAGS, MAX_TAG_LENGTH = 20, 64
+MAX_CURSOR = 2**31  # job sequence numbers are 32-bit integers in the store
 State = Literal["queued", "running", "succeeded", "failed", "cancelled"]
 Tags = Annotated[list[str] | None, Query(description=f"up to {MAX_TAGS} labels for filtering")]
 Fresh = Annotated[bool, Query(description="run even if a succeeded job with the identical spec could be reused")]
@@ -69,6 +71,8 @@ def _validated(data: Any, settings: Settings) -> dict[str, Any]:
     """The solver's checks plus the service's size limits; returns the normalised spec."""
     if not isinstance(data, dict):
         raise SpecProblems([("(body)", f"must be a JSON object (the job spec), got {type(data).__name__}")])
+    if nul := nul_fields(data):
+        raise SpecProblems([(field, NUL_MESSAGE) for field in nul])
     try:
         spec = solver.load(data)
         solver.check_limits(spec, limits(settings))
@@ -87,6 +91,7 @@ def _check_tags(tags: list[str]) -> list[str]:
 
 
 def _submit(request: Request, user: User, spec: dict[str, Any], tags: list[str], fresh: bool) -> JSONResponse:
+    check_space(request)
     planned = plan(request, spec, fresh)
     check_cap(request, user.name, [planned])
     job = place(request, user.name, planned, tags)
@@ -124,8 +129,8 @@ def list_jobs(request: Request, _: Annotated[User, Depends(current_user)], state
               cursor: Annotated[str | None, Query(description="next_cursor of the previous page")] = None,
               ) -> dict[str, Any]:
     before = None
-    if cursor is not None:
-        if not cursor.isdigit():
+    if cursor is not None:  # ASCII digits only (int() takes other scripts' digits), within the column's range
+        if not (cursor.isascii() and cursor.isdigit() and int(cursor) < MAX_CURSOR):
             raise SpecProblems([("cursor", "use the next_cursor value of the previous page")])
         before = int(cursor)
     jobs = _store(request).list_jobs(state, owner, tag, limit, before)
@@ -134,9 +139,9 @@ def list_jobs(request: Request, _: Annotated[User, Depends(current_user)], state
 
 
 @router.get("/{job_id}", summary="Read one job")
-async def read_job(request: Request, job_id: str, _: Annotated[User, Depends(current_user)]) -> JSONResponse:
-    """On the event loop: status reads are the hottest path, and one indexed read (readers never wait for writers:
-    WAL on SQLite, MVCC on PostgreSQL) costs less than the hop to a worker thread and back."""
+def read_job(request: Request, job_id: str, _: Annotated[User, Depends(current_user)]) -> JSONResponse:
+    """In the thread pool like every database call: a read can wait on a lock (a PostgreSQL table lock, a busy
+    SQLite file), and on the event loop that wait would stall every other request."""
     job = _store(request).read(job_id)
     if job is None:
         raise HTTPException(404, f"no job {job_id}")
@@ -148,19 +153,20 @@ def cancel_job(request: Request, job_id: str, user: Annotated[User, Depends(curr
     job = _own(request, job_id, user)
     if job.state not in ("queued", "running"):
         raise HTTPException(409, f"job {job_id} is already {job.state}")
-    _store(request).cancel(job_id)
+    request.app.state.reserve.retry(lambda: _store(request).cancel(job_id))  # works on a full disk too
     return view(_store(request).get(job_id) or job)
 
 
 @router.delete("/{job_id}", status_code=204, summary="Delete a job and its files")
 def delete_job(request: Request, job_id: str, user: Annotated[User, Depends(current_user)]) -> None:
     _own(request, job_id, user)
-    store = _store(request)
-    store.cancel(job_id)  # a queued job must not start while we delete it
-    if not store.delete(job_id):
+    store, reserve = _store(request), request.app.state.reserve
+    # a queued job must not start while we delete it; every write can use the reserve (deleting frees space)
+    if reserve.retry(lambda: store.cancel(job_id)) == "running":
         raise HTTPException(409, f"job {job_id} is running; it has been asked to stop: delete it again once its "
                                  "state is cancelled")
-    shutil.rmtree(_settings(request).jobs_dir / job_id, ignore_errors=True)
+    shutil.rmtree(_settings(request).jobs_dir / job_id, ignore_errors=True)  # files first: that frees the space
+    reserve.retry(lambda: store.delete(job_id))
 
 
 @router.post("/{job_id}/clone", status_code=202, openapi_extra=PARTIAL_BODY, summary="Queue a copy with edits")

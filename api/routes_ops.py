@@ -1,44 +1,42 @@
-"""Health and Prometheus metrics, both read from the job store (the source of truth)."""
+"""Health and Prometheus metrics: the same facts (api.health), as JSON and as gauges."""
 
 from __future__ import annotations
 
-from typing import Any
-
 from fastapi import APIRouter, Request
 from fastapi.responses import JSONResponse, PlainTextResponse
+
+from .health import check
 
 router = APIRouter(tags=["operations"])
 STATES = ("queued", "running", "succeeded", "failed", "cancelled")
 
 
-@router.get("/api/v1/health", summary="Database, broker, workers seen and queue depth")
+@router.get("/api/v1/health", summary="ok, or degraded (503) with the problems: store, broker, workers, disk",
+            responses={503: {"description": "degraded: the same body, with the problems listed"}})
 def health(request: Request) -> JSONResponse:
     state = request.app.state
-    body: dict[str, Any] = {"database": "ok", "broker": "ok"}
-    try:
-        state.store.ping()
-        counts = state.store.counts()
-        body["queue_depth"] = counts.get("queued", 0)
-        body["running"] = counts.get("running", 0)
-        body["workers_seen"] = state.store.workers_seen(within=30.0)
-    except Exception as err:  # report, don't crash: health must answer when things are broken
-        body["database"] = f"error: {type(err).__name__}: {err}"
-    try:
-        with state.celery.connection_for_write() as conn:
-            conn.ensure_connection(max_retries=1, timeout=2)
-    except Exception as err:
-        body["broker"] = f"error: {type(err).__name__}: {err}"
-    ok = body["database"] == "ok" and body["broker"] == "ok"
-    body["status"] = "ok" if ok else "degraded"
-    return JSONResponse(body, status_code=200 if ok else 503)
+    found = check(state.settings, state.store, state.celery)
+    return JSONResponse(found.body(), status_code=200 if found.ok else 503)
+
+
+def _gauge(name: str, help_text: str, samples: list[tuple[str, int]]) -> list[str]:
+    return [f"# HELP {name} {help_text}", f"# TYPE {name} gauge"] + [f"{name}{labels} {int(value)}"
+                                                                     for labels, value in samples]
 
 
 @router.get("/metrics", response_class=PlainTextResponse, summary="Prometheus text format")
 def metrics(request: Request) -> PlainTextResponse:
-    store = request.app.state.store
-    counts = store.counts()
-    lines = ["# HELP wakeyard_jobs Jobs in the store by state.", "# TYPE wakeyard_jobs gauge"]
-    lines += [f'wakeyard_jobs{{state="{s}"}} {counts.get(s, 0)}' for s in STATES]
-    lines += ["# HELP wakeyard_workers_seen Worker processes that reported in the last 30 s.",
-              "# TYPE wakeyard_workers_seen gauge", f"wakeyard_workers_seen {store.workers_seen(within=30.0)}"]
+    state = request.app.state
+    found = check(state.settings, state.store, state.celery)
+    lines = _gauge("wakeyard_healthy", "1 when /api/v1/health says ok, 0 when degraded.", [("", found.ok)])
+    lines += _gauge("wakeyard_up", "1 when the component answers.",
+                    [('{component="database"}', found.database == "ok"),
+                     ('{component="broker"}', found.broker == "ok")])
+    if found.database == "ok":
+        lines += _gauge("wakeyard_jobs", "Jobs in the store by state.",
+                        [(f'{{state="{s}"}}', found.counts.get(s, 0)) for s in STATES])
+        lines += _gauge("wakeyard_workers_seen", "Worker processes that reported in within the lease.",
+                        [("", found.workers_seen or 0)])
+    if found.free_disk_bytes is not None:
+        lines += _gauge("wakeyard_free_disk_bytes", "Free space in the data folder.", [("", found.free_disk_bytes)])
     return PlainTextResponse("\n".join(lines) + "\n", media_type="text/plain; version=0.0.4; charset=utf-8")

@@ -3,6 +3,7 @@ queued exactly as single jobs are; everything else about a study is derived from
 
 from __future__ import annotations
 
+import time
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Body, Depends, HTTPException, Query, Request
@@ -17,7 +18,8 @@ from .problems import CAUTION, SpecProblems
 from .routes_jobs import Fresh, limits
 from .store import ACTIVE, Job, Store, Study
 from .study_plot import plot_png
-from .submission import check_cap, place, plan
+from .submission import check_room, check_space, place, plan
+from .text_checks import NUL_MESSAGE, nul_fields
 
 router = APIRouter(prefix="/api/v1/studies", tags=["studies"])
 STUDY_BODY = {"requestBody": {"required": True,
@@ -33,12 +35,20 @@ def _store(request: Request) -> Store:
     return request.app.state.store
 
 
-def _expanded(data: Any, request: Request) -> tuple[StudySpec, list[tuple[dict[str, float], dict[str, Any]]]]:
-    """The solver's checks of the study and of every point, plus the service's size limits for each point."""
+def _expanded(data: Any, request: Request, owner: str) -> tuple[StudySpec, list[tuple[dict[str, float],
+                                                                                    dict[str, Any]]]]:
+    """The solver's checks of the study and of every point, plus the service's size limits for each point.
+
+    The per-user cap is checked first, on the number of points (each counts, even one that will reuse a result),
+    and the checks stop at a time bound: a refused study costs little."""
     if not isinstance(data, dict):
         raise SpecProblems([("(body)", f"must be a JSON object (the study), got {type(data).__name__}")])
+    if nul := nul_fields(data):
+        raise SpecProblems([(field, NUL_MESSAGE) for field in nul])
+    settings = request.app.state.settings
+    deadline = time.monotonic() + settings.max_validation_seconds
     try:
-        points = expand(data)
+        points = expand(data, counted=lambda n: check_room(request, owner, n), deadline=deadline)
     except solver.SpecError as err:
         raise SpecProblems(err.problems) from None
     problems = []
@@ -59,10 +69,10 @@ def _point_title(title: str, values: dict[str, float]) -> str:
 @router.post("", status_code=202, openapi_extra=STUDY_BODY, summary="Queue a parameter study")
 def create_study(request: Request, user: Annotated[User, Depends(current_user)], data: Annotated[Any, Body()],
                  fresh: Fresh = False) -> JSONResponse:
-    spec, points = _expanded(data, request)
+    check_space(request)
+    spec, points = _expanded(data, request, user.name)
     title = spec.title or str(points[0][1].get("title", "")) or spec.kind
     planned = [plan(request, case, fresh, _point_title(title, values), values=values) for values, case in points]
-    check_cap(request, user.name, planned)
     study = _store(request).create_study(user.name, spec.kind, title, spec.model_dump(mode="json"))
     jobs = []
     for p in planned:

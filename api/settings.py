@@ -22,14 +22,22 @@ class Settings(BaseSettings):
     max_wall_time: float = Field(6 * 3600.0, gt=0, description="seconds one attempt of a job may run")
     max_active_per_user: int = Field(20, ge=1, description="queued + running jobs one owner may have")
     max_body_bytes: int = Field(256 * 1024, ge=1024)
+    max_body_seconds: float = Field(30.0, gt=0, description="a request body must arrive within this time")
+    max_validation_seconds: float = Field(10.0, gt=0, description="a study whose checks take longer is refused")
     heartbeat_seconds: float = Field(1.0, gt=0, description="progress/heartbeat write and cancel poll interval")
     lease_seconds: float = Field(60.0, gt=0, description="a running job whose heartbeat is older is re-queued")
     reaper_seconds: float = Field(5.0, gt=0, description="how often the API looks for expired leases")
     max_attempts: int = Field(3, ge=1)
+    min_free_mb: float = Field(512.0, ge=0, description="below this much free space in the data folder health says "
+                                                         "degraded and new jobs are refused (507)")
 
     @property
     def jobs_dir(self) -> Path:
         return self.data_dir / "jobs"
+
+    @property
+    def min_free_bytes(self) -> int:
+        return int(self.min_free_mb * 2**20)
 
     @property
     def db_url(self) -> str:

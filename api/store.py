@@ -27,6 +27,7 @@ from sqlalchemy import (
     Text,
     TypeDecorator,
     bindparam,
+    case,
     create_engine,
     delete,
     event,
@@ -214,6 +215,9 @@ _READ = select(JOBS).where(JOBS.c.id == bindparam("job_id"))
 _RESULT = (select(JOBS).where(Job.spec_hash == bindparam("spec_hash"), Job.state == "succeeded",
                              Job.reused_from.is_(None)).order_by(Job.seq.desc()).limit(1))
 _ACTIVE = select(func.count()).where(Job.owner == bindparam("owner"), Job.state.in_(ACTIVE))
+# A job handed back by a stopping worker: queued again, the interrupted attempt not counted.
+_RELEASED: dict[str, Any] = {"state": "queued", "claim": None, "eta_seconds": None,
+                             "attempts": case((Job.attempts > 0, Job.attempts - 1), else_=0)}
 
 
 class Store:
@@ -326,10 +330,13 @@ class Store:
         with self.session() as s:
             return dict(s.execute(select(Job.state, func.count()).group_by(Job.state)).all())
 
-    def workers_seen(self, within: float) -> int:
-        since = utcnow() - timedelta(seconds=within)
+    def workers_seen(self, within: float, host: str | None = None) -> int:
+        """Worker processes (of ``host``, or anywhere) that reported in within the last ``within`` seconds."""
+        q = select(func.count()).where(WorkerSeen.seen_at >= utcnow() - timedelta(seconds=within))
+        if host is not None:
+            q = q.where(WorkerSeen.name.startswith(f"{host}:", autoescape=True))
         with self.session() as s:
-            return s.scalar(select(func.count()).where(WorkerSeen.seen_at >= since)) or 0
+            return s.scalar(q) or 0
 
     def ping(self) -> None:
         with self.engine.connect() as conn:
@@ -378,6 +385,31 @@ class Store:
             if not s.execute(update(WorkerSeen).where(WorkerSeen.name == name).values(seen_at=utcnow())).rowcount:
                 s.add(WorkerSeen(name=name, seen_at=utcnow()))
 
+    def worker_gone(self, name: str) -> None:
+        """A worker process that stops says so, so health does not count it until the lease runs out."""
+        with self.session.begin() as s:
+            s.execute(delete(WorkerSeen).where(WorkerSeen.name == name))
+
+    def release(self, job_id: str, claim: str) -> bool:
+        """Hand a job back to the queue because its worker is shutting down (not the job's fault: the attempt is
+        not counted); it resumes from its last checkpoint."""
+        with self.session.begin() as s:
+            return s.execute(update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running")
+                             .values(**_RELEASED)).rowcount == 1
+
+    def release_hosts(self, hosts: list[str]) -> list[str]:
+        """After a supervisor stopped its worker processes (``host:pid`` names): re-queue the jobs they still held,
+        or finish them as cancelled when a cancel was requested. Returns the re-queued ids."""
+        if not hosts:
+            return []
+        running = (Job.state == "running", Job.worker_host.in_(hosts))
+        with self.session.begin() as s:
+            s.execute(update(Job).where(*running, Job.cancel_requested.is_(True))
+                      .values(state="cancelled", finished_at=utcnow(), error="cancelled (its worker was stopped)"))
+            ids = list(s.scalars(select(Job.id).where(*running)))
+            s.execute(update(Job).where(Job.id.in_(ids), Job.state == "running").values(**_RELEASED))
+        return ids
+
     # --- lease ----------------------------------------------------------------------------------------
     def expire_leases(self, lease_seconds: float, max_attempts: int) -> list[str]:
         """Re-queue running jobs whose heartbeat stopped; give up after ``max_attempts``. Returns re-queued ids."""
@@ -415,6 +447,10 @@ class Store:
         with self.session() as s:
             return s.scalar(select(Token).where(Token.digest == digest))
 
+    def known_token_user(self, digest: str) -> tuple[str, bool] | None:
+        """(name, admin) for a token seen before, without asking the database."""
+        return self._token_users.get(digest)
+
     def token_user(self, digest: str) -> tuple[str, bool] | None:
         """(name, admin) for a token digest; known tokens are remembered (tokens are never revoked)."""
         if digest not in self._token_users:
@@ -430,9 +466,17 @@ class Store:
 
     def tokens_required(self) -> bool:
         """Once a token exists, tokens stay required; until then ask the database at most once a second."""
-        if not self._tokens_exist and time.monotonic() - self._tokens_checked > 1.0:
+        cached = self.tokens_required_cached()
+        if cached is None:
             self._tokens_exist, self._tokens_checked = self.has_tokens(), time.monotonic()
-        return self._tokens_exist
+            return self._tokens_exist
+        return cached
+
+    def tokens_required_cached(self) -> bool | None:
+        """The answer of :meth:`tokens_required` if it needs no database query, else None."""
+        if self._tokens_exist or time.monotonic() - self._tokens_checked <= 1.0:
+            return self._tokens_exist
+        return None
 
     def has_tokens(self) -> bool:
         with self.session() as s:

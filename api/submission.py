@@ -47,9 +47,23 @@ def plan(request: Request, spec: dict[str, Any], fresh: bool, title: str | None 
                                     study_id, values))
 
 
+def check_space(request: Request) -> None:
+    """Refuse (507) new jobs while the data folder has less free space than the service keeps."""
+    settings = request.app.state.settings
+    free = shutil.disk_usage(settings.data_dir).free
+    if free < settings.min_free_bytes:
+        raise HTTPException(507, f"the data folder has {free / 2**20:.0f} MiB free, below the "
+                                 f"{settings.min_free_mb:.0f} MiB the service keeps: new jobs are refused until space "
+                                 "is freed (delete jobs that are no longer needed)")
+
+
 def check_cap(request: Request, owner: str, planned: list[Planned]) -> None:
     """Refuse (429) jobs that would take ``owner`` over the per-user cap of queued + running jobs."""
-    to_run = sum(p.provenance.source is None for p in planned)
+    check_room(request, owner, sum(p.provenance.source is None for p in planned))
+
+
+def check_room(request: Request, owner: str, to_run: int) -> None:
+    """Refuse (429) ``to_run`` more jobs if they would take ``owner`` over the cap."""
     if not to_run:
         return
     cap, active = request.app.state.settings.max_active_per_user, request.app.state.store.active_count(owner)

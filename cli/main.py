@@ -30,6 +30,8 @@ def main(argv: list[str] | None = None) -> int:
     p_worker = sub.add_parser("worker", help="only workers (more boxes sharing the broker and database)")
     p_worker.add_argument("--data", type=Path)
     p_worker.add_argument("--workers", type=int)
+    p_worker.add_argument("--check", action="store_true",
+                          help="exit 0 if a worker process on this host reported in within the lease, else 1")
     p_study = sub.add_parser("study", help="submit a parameter study to a running service",
                              description="Exit codes: 0 submitted (with --wait: all points succeeded), 1 a point "
                                          "failed or was cancelled or the service is unreachable, 2 study refused.")
@@ -58,7 +60,7 @@ def main(argv: list[str] | None = None) -> int:
     if args.command == "serve":
         return service.serve(args.host, args.port)
     if args.command == "worker":
-        return service.worker()
+        return service.check_worker() if args.check else service.worker()
     return service.create_token(args.name, args.admin)
 
 

@@ -2,14 +2,20 @@
 
 from __future__ import annotations
 
+import contextlib
 import ipaddress
+import logging
 import os
 import signal
-import subprocess
 import sys
 import threading
 import time
+from collections.abc import Callable, Iterator
 from pathlib import Path
+from types import FrameType
+from typing import Any
+
+import uvicorn
 
 
 def configure(data: Path | None, workers: int | None) -> None:
@@ -28,22 +34,33 @@ def _loopback(host: str) -> bool:
 
 
 def serve(host: str, port: int) -> int:
-    import uvicorn
-
     from api.app import create_app
     from api.settings import Settings
     from api.store import Store
+    from worker.supervisor import Supervisor
 
+    from .datalock import DataLock
+
+    _log_to_stderr()
     settings = Settings()
     settings.data_dir.mkdir(parents=True, exist_ok=True)
+    lock = DataLock(settings.data_dir)
+    if not lock.acquire(wait=5.0):
+        print(f"error: another wakeyard serve (pid {lock.holder()}) or its workers still use the data folder "
+              f"{settings.data_dir.resolve()}; stop it first, or choose another --data folder", file=sys.stderr)
+        return 2
     store, started = Store(settings.db_url), time.monotonic()
     if not _loopback(host) and not store.has_tokens():
-        print(f"error: refusing to listen on {host} without API tokens: anyone on the network could run jobs.\\n"
+        print(f"error: refusing to listen on {host} without API tokens: anyone on the network could run jobs.\n"
               "Create one first with `wakeyard token create NAME`, or serve on 127.0.0.1.", file=sys.stderr)
         return 2
     with_workers = settings.workers > 0
-    workers = _start_workers(settings.workers, settings.queue) if with_workers else None
-    server = uvicorn.Server(uvicorn.Config(create_app(settings), host=host, port=port, log_level="warning"))
+    supervisor = Supervisor(settings.workers, "warning", keep_fds=[lock.fd])
+    # the supervising thread starts and stops every worker (their parent-death signal is tied to it)
+    supervising = threading.Thread(target=supervisor.run, name="wakeyard-supervisor", daemon=True)
+    config = uvicorn.Config(create_app(settings), host=host, port=port, log_level="warning",
+                            timeout_graceful_shutdown=1)
+    server = _Server(config, on_exit=supervisor.stopping.set)
     shown = f"[{host}]" if ":" in host else host
 
     def announce() -> None:
@@ -59,49 +76,96 @@ def serve(host: str, port: int) -> int:
             print(f"wakeyard is ready at http://{shown}:{port}/ ({settings.workers} worker processes here, data in "
                   f"{settings.data_dir.resolve()}); Ctrl-C stops it", flush=True)
 
+    if with_workers:
+        supervising.start()
     threading.Thread(target=announce, daemon=True).start()
     try:
         server.run()
-    except KeyboardInterrupt:  # uvicorn re-raises the Ctrl-C it handled
+    except KeyboardInterrupt:  # a second Ctrl-C
         pass
     finally:
-        if workers is not None:
-            _stop(workers)
-    return 0
+        supervisor.stopping.set()
+        if with_workers:
+            supervising.join()
+            _hand_back(store, supervisor.stopped)
+        lock.release()
+    # everything is stopped and recorded: skip the interpreter's teardown of the numerical modules (up to a second)
+    sys.stdout.flush()
+    sys.stderr.flush()
+    os._exit(0)
 
 
-def _start_workers(count: int, queue: str) -> subprocess.Popen[bytes]:
-    """One Celery worker with ``count`` pool processes, in its own session so Ctrl-C reaches only us."""
-    command = [sys.executable, "-m", "celery", "-A", "worker.app", "worker", "-c", str(count), "-Q", queue,
-               "--loglevel", "warning", "--without-mingle", "--without-gossip"]
-    return subprocess.Popen(command, start_new_session=True)
+class _Server(uvicorn.Server):
+    """uvicorn's server, but a SIGTERM or SIGINT also starts stopping the workers at once, and is not re-raised
+    after the shutdown (uvicorn re-raises it, which would kill serve before it has stopped its workers)."""
 
+    def __init__(self, config: uvicorn.Config, on_exit: Callable[[], None]):
+        super().__init__(config)
+        self.on_exit = on_exit
 
-def _stop(proc: subprocess.Popen[bytes]) -> None:
-    """Warm shutdown, then cold: a job cut short is re-queued by the lease and resumes from its checkpoint."""
-    for sig, wait in ((signal.SIGTERM, 10), (signal.SIGQUIT, 5), (signal.SIGKILL, 5)):
-        if proc.poll() is not None:
-            return
-        if sig == signal.SIGKILL:
-            os.killpg(proc.pid, sig)
-        else:
-            proc.send_signal(sig)
+    def handle_exit(self, sig: int, frame: FrameType | None) -> None:
+        self.on_exit()
+        super().handle_exit(sig, frame)
+
+    @contextlib.contextmanager
+    def capture_signals(self) -> Iterator[None]:
+        previous = {sig: signal.signal(sig, self.handle_exit) for sig in (signal.SIGINT, signal.SIGTERM)}
         try:
-            proc.wait(wait)
-        except subprocess.TimeoutExpired:
-            continue
+            yield
+        finally:
+            for sig, handler in previous.items():
+                signal.signal(sig, handler)
+
+
+def _hand_back(store: Any, names: list[str]) -> None:
+    """Re-queue the jobs that stopped workers still held (a worker killed after the grace could not do it)."""
+    try:
+        requeued = store.release_hosts(names)
+    except Exception as err:  # the lease re-queues them later
+        print(f"warning: could not hand back the running jobs ({err}); the lease will re-queue them",
+              file=sys.stderr)
+        return
+    if requeued:
+        print(f"{len(requeued)} running job(s) handed back to the queue", file=sys.stderr)
+
+
+def _log_to_stderr() -> None:
+    logging.basicConfig(level=logging.WARNING, format="%(asctime)s %(name)s %(levelname)s: %(message)s")
 
 
 def worker() -> int:
     from api.settings import Settings
-    from worker.app import app
+    from api.store import Store
+    from worker.supervisor import Supervisor
+
+    _log_to_stderr()
+    settings = Settings()
+    supervisor = Supervisor(settings.workers or os.cpu_count() or 1, "info")
+    supervising = threading.Thread(target=supervisor.run, name="wakeyard-supervisor")
+
+    def stop(sig: int, _: FrameType | None) -> None:
+        supervisor.stopping.set()  # never waited on by this (the main) thread, so safe in a handler
+
+    for sig in (signal.SIGINT, signal.SIGTERM):
+        signal.signal(sig, stop)
+    supervising.start()
+    while supervising.is_alive():
+        supervising.join(0.5)
+    _hand_back(Store(settings.db_url), supervisor.stopped)
+    return 0
+
+
+def check_worker() -> int:
+    """For container health checks: a worker process of this host has reported in within the lease."""
+    import socket
+
+    from api.settings import Settings
+    from api.store import Store
 
     settings = Settings()
-    count = settings.workers or os.cpu_count() or 1
-    # mingle and gossip sync worker state; ours lives in the job store, so they only slow the start
-    app.worker_main(["worker", "-c", str(count), "-Q", settings.queue, "--loglevel", "info",
-                     "--without-mingle", "--without-gossip"])
-    return 0
+    seen = Store(settings.db_url).workers_seen(within=settings.lease_seconds, host=socket.gethostname())
+    print(f"{seen} worker process(es) of this host seen in the last {settings.lease_seconds:g} s")
+    return 0 if seen else 1
 
 
 def create_token(name: str, admin: bool) -> int:

@@ -8,8 +8,10 @@ parent (for locating points) and boundary facets by name ("inlet", "outlet",
 from __future__ import annotations
 
 import math
+import signal
 import threading
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from skfem import MeshTri, MeshTri2
@@ -119,10 +121,21 @@ def _sorted_quadratic(t: np.ndarray) -> np.ndarray:
     return out
 
 
+def _initialize_keeping_signal_handlers(gmsh: Any) -> None:
+    """gmsh.initialize resets SIGTERM and SIGINT to the default action in C; put back the process's own handlers,
+    so a worker asked to stop can still hand its job back instead of dying on the spot."""
+    main = threading.current_thread() is threading.main_thread()  # handlers can only be set from the main thread
+    handlers = {sig: signal.getsignal(sig) for sig in (signal.SIGINT, signal.SIGTERM)} if main else {}
+    gmsh.initialize(interruptible=False)
+    for sig, handler in handlers.items():
+        if handler is not None:
+            signal.signal(sig, handler)
+
+
 def _generate(spec: JobSpec, s: MeshSizes) -> tuple[np.ndarray, np.ndarray]:
     import gmsh
 
-    gmsh.initialize(interruptible=False)
+    _initialize_keeping_signal_handlers(gmsh)
     try:
         gmsh.option.setNumber("General.Terminal", 0)
         gmsh.option.setNumber("General.NumThreads", 1)

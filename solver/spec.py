@@ -17,6 +17,10 @@ from .errors import SpecError
 from .shapes import Body, Point
 
 _Positive = Field(gt=0, allow_inf_nan=False)
+# The range of Reynolds numbers and kinematic viscosities a case may have, given or derived from the other (a project
+# choice: creeping flow to well past the laminar range; it keeps every derived quantity finite).
+MIN_REYNOLDS, MAX_REYNOLDS = 1e-6, 1e5
+MAX_VISCOSITY = 1e6
 
 
 class _Model(BaseModel):
@@ -42,8 +46,8 @@ class Fluid(_Model):
     """Either density and kinematic viscosity, or a Reynolds number on the reference scales."""
 
     density: float = Field(1.0, gt=0, le=1e6)
-    viscosity: float | None = Field(None, gt=0, le=1e6, description="kinematic viscosity, m^2/s")
-    reynolds: float | None = Field(None, gt=0, le=1e5)
+    viscosity: float | None = Field(None, gt=0, le=MAX_VISCOSITY, description="kinematic viscosity, m^2/s")
+    reynolds: float | None = Field(None, ge=MIN_REYNOLDS, le=MAX_REYNOLDS)
     reference: Reference = Reference()
 
     @model_validator(mode="after")
@@ -225,7 +229,7 @@ def _check_geometry(spec: JobSpec) -> list[tuple[str, str]]:
             problems.append((where, f"{body.name} is {body.reference_length():.3g} across, smaller than "
                                     f"1e-5 of the channel height: too small to mesh"))
         if body.shape == "polygon" and not _polygons.is_simple(pts):
-            problems.append((f"{where}.points", "the polygon's edges cross each other"))
+            problems.append((f"{where}.points", "the polygon's edges cross or touch each other"))
         for j in range(i):
             if _polygons.overlap(outlines[j], pts, gap=1e-3 * H):
                 problems.append((where, f"{body.name} overlaps or touches {spec.bodies[j].name}"))
@@ -252,6 +256,25 @@ def _check_geometry(spec: JobSpec) -> list[tuple[str, str]]:
     return problems
 
 
+def _check_scales(spec: JobSpec) -> list[tuple[str, str]]:
+    """The derived scales (reference velocity, Reynolds number, viscosity) stay in the ranges a given one may have."""
+    U, L = spec.reference_velocity(), spec.reference_length()
+    if U <= 0:
+        return [("inflow.time_law", "the inflow's nominal velocity is zero: the time law must not be zero throughout "
+                                    "(or give fluid.reference.velocity)")]
+    if spec.fluid.reynolds is not None:
+        nu = U * L / spec.fluid.reynolds
+        if nu > MAX_VISCOSITY:
+            return [("fluid.reynolds", f"Re = {spec.fluid.reynolds:.3g} on U = {U:.3g} m/s and L = {L:.3g} m means a "
+                                       f"kinematic viscosity of {nu:.3g} m²/s, over the limit of {MAX_VISCOSITY:g}")]
+        return []
+    re = U * L / spec.fluid.viscosity  # type: ignore[operator]
+    if not MIN_REYNOLDS <= re <= MAX_REYNOLDS:
+        return [("fluid.viscosity", f"the Reynolds number U L / ν = {re:.3g} (U = {U:.3g} m/s, L = {L:.3g} m) is "
+                                    f"outside {MIN_REYNOLDS:g} to {MAX_REYNOLDS:g}")]
+    return []
+
+
 def load(data: dict[str, Any] | JobSpec) -> JobSpec:
     """Validate untrusted data into a :class:`JobSpec`.
 
@@ -269,7 +292,7 @@ def load(data: dict[str, Any] | JobSpec) -> JobSpec:
         spec = data if isinstance(data, JobSpec) else JobSpec.model_validate(data)
     except ValidationError as err:
         raise SpecError([(_path(e["loc"]), _message(e)) for e in err.errors()]) from None
-    problems = _check_geometry(spec)
+    problems = _check_geometry(spec) or _check_scales(spec)
     if problems:
         raise SpecError(problems)
     return spec

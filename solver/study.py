@@ -7,9 +7,10 @@ of every summary value (see :mod:`solver.verification`).
 
 from __future__ import annotations
 
-import copy
 import itertools
 import math
+import time
+from collections.abc import Callable
 from typing import Any, Literal
 
 import numpy as np
@@ -75,11 +76,15 @@ class StudySpec(_Model):
 MAX_POINTS = 200
 
 
-def expand(study: StudySpec | dict[str, Any]) -> list[tuple[dict[str, float], JobSpec]]:
+def expand(study: StudySpec | dict[str, Any], counted: Callable[[int], None] | None = None,
+           deadline: float = math.inf) -> list[tuple[dict[str, float], JobSpec]]:
     """The study's points: ``(varied values, job spec)``.
 
     A mesh-convergence study splits every cell of the base mesh into four,
-    ``levels - 1`` times (refinement ratio 2), coarsest first.
+    ``levels - 1`` times (refinement ratio 2), coarsest first. ``counted``
+    gets the number of points before any point is checked (a caller's cap
+    can refuse the study before that work); checking stops with an error
+    once ``time.monotonic()`` passes ``deadline``.
 
     Raises
     ------
@@ -111,12 +116,16 @@ def expand(study: StudySpec | dict[str, Any]) -> list[tuple[dict[str, float], Jo
     combos = list(itertools.product(*[vals for _, vals in axes]))
     if len(combos) > MAX_POINTS:
         raise SpecError([("vary", f"{len(combos)} points exceed the limit of {MAX_POINTS} per study")])
+    if counted is not None:
+        counted(len(combos))
     points, problems = [], []
     for k, combo in enumerate(combos):
-        case = copy.deepcopy(data)
-        values = {}
+        if time.monotonic() > deadline:
+            raise SpecError([("(body)", f"checking the study's points took too long (stopped at point {k} of "
+                                        f"{len(combos)}): use fewer points or simpler bodies")])
+        case, values = data, {}
         for (path, _), value in zip(axes, combo):
-            _set(case, path, value)
+            case = _with(case, path, value)
             values[path] = value
         try:
             points.append((values, load(case)))
@@ -140,15 +149,14 @@ def _check_path(data: dict[str, Any], path: str, where: str) -> None:
         raise SpecError([(where, f"{path!r} is not a numeric field (it holds {node!r})")])
 
 
-def _set(data: dict[str, Any], path: str, value: float) -> None:
-    *parents, last = path.split(".")
-    node: Any = data
-    for part in parents:
-        node = node[int(part)] if isinstance(node, list) else node[part]
-    if isinstance(node, list):
-        node[int(last)] = value
-    else:
-        node[last] = value
+def _with(data: Any, path: str, value: float) -> Any:
+    """A copy of ``data`` with ``path`` set to ``value``: only the containers on the path are copied (a deep copy
+    of a base with many polygon points per study point cost more than checking the point)."""
+    head, _, rest = path.partition(".")
+    out = list(data) if isinstance(data, list) else dict(data)
+    key = int(head) if isinstance(data, list) else head
+    out[key] = _with(data[key], rest, value) if rest else value  # type: ignore[index]
+    return out
 
 
 def summary_values(summary: dict[str, Any]) -> dict[str, float]:
@@ -172,7 +180,7 @@ def summary_values(summary: dict[str, Any]) -> dict[str, float]:
     return out
 
 
-def convergence(summaries: list[dict[str, Any]], area: float) -> dict[str, dict[str, float | bool]]:
+def convergence(summaries: list[dict[str, Any]], area: float) -> dict[str, dict[str, float | bool | str | None]]:
     """Grid convergence of every summary value from the three finest of ``summaries`` (any order).
 
     The representative cell size is ``sqrt(area / cells)`` (Celik et al. 2008).
@@ -187,5 +195,5 @@ def convergence(summaries: list[dict[str, Any]], area: float) -> dict[str, dict[
         if all(key in v for v in values):
             g = grid_convergence(h, tuple(v[key] for v in values))  # type: ignore[arg-type]
             out[key] = {"observed_order": g.observed_order, "extrapolated": g.extrapolated,
-                        "gci_fine": g.gci_fine, "monotone": g.monotone}
+                        "gci_fine": g.gci_fine, "monotone": g.monotone, "reason": g.reason}
     return out

@@ -19,15 +19,22 @@ class GridConvergence:
     extrapolated_error: float
     gci_fine: float
     monotone: bool
+    reason: str | None = None  # why the numbers are undefined (NaN), if they are
 
 
 def grid_convergence(h: tuple[float, float, float], phi: tuple[float, float, float],
-                     safety_factor: float = 1.25) -> GridConvergence:
+                     safety_factor: float = 1.25, noise: float = 1e-9) -> GridConvergence:
     """Analyse one quantity ``phi`` computed on three grids of cell sizes ``h`` (finest first).
 
     Errors are relative to the finest-grid value (``approximate_error``) and
     to the extrapolated value (``extrapolated_error``); ``gci_fine`` is the
     grid convergence index of the finest grid, as a fraction.
+
+    Differences between grids below ``noise`` times the largest value are
+    round-off or solver-tolerance noise, not discretisation error (the
+    threshold is a project choice, under the default Newton tolerance of
+    1e-8): order, extrapolation and GCI are then undefined (NaN) and
+    ``reason`` says why, as they are when a value does not change at all.
 
     Examples
     --------
@@ -41,8 +48,12 @@ def grid_convergence(h: tuple[float, float, float], phi: tuple[float, float, flo
         raise ValueError("cell sizes must grow from the finest to the coarsest grid")
     r21, r32 = h2 / h1, h3 / h2
     e21, e32 = p2 - p1, p3 - p2
-    if e21 == 0 or e32 == 0:
-        return GridConvergence(math.nan, p1, abs(e21 / p1) if p1 else 0.0, math.nan, math.nan, False)
+    floor = noise * max(abs(p1), abs(p2), abs(p3))
+    if abs(e21) <= floor or abs(e32) <= floor:
+        reason = ("the value does not change between grids" if e21 == 0 or e32 == 0 else
+                  f"the change between grids ({max(abs(e21), abs(e32)):.2g} at most) is at the level of round-off "
+                  f"(below {noise:g} of the value): no order can be observed")
+        return GridConvergence(math.nan, p1, abs(e21 / p1) if p1 else 0.0, math.nan, math.nan, False, reason)
     ratio = e32 / e21
     s = math.copysign(1.0, ratio)
     p = abs(math.log(abs(ratio))) / math.log(r21)

@@ -100,7 +100,14 @@ function listOf(data) {
 }
 
 export const api = {
-  health: () => request("GET", "/health"),
+  /** The health report; a degraded service answers 503 with the same body: a report, not a failure. */
+  health: async () => {
+    const response = await fetch(`${PREFIX}/health`, {headers: headers()});
+    if (response.status !== 200 && response.status !== 503) {
+      throw new ApiError(response.status, `${response.status} ${response.statusText}`);
+    }
+    return response.json();
+  },
   listJobs: async (query, signal) => listOf(await request("GET", "/jobs", {query, signal})),
   getJob: (id, signal) => request("GET", `/jobs/${encodeURIComponent(id)}`, {signal}),
   createJob: (spec, tags) => request("POST", "/jobs", {body: spec, query: tags?.length ? {tags} : undefined}),

@@ -96,11 +96,19 @@ async function health() {
     const hh = await api.health();
     dot.dataset.state = hh.status === "ok" ? "ok" : "degraded";
     dot.title = `Service ${hh.status}: ${hh.queue_depth ?? 0} queued, ${hh.running ?? 0} running, ${hh.workers_seen ?? "?"} worker(s) seen`;
+    showHealthProblems(hh.problems ?? []);
   } catch (err) {
     dot.dataset.state = "down";
     dot.title = `Service not healthy: ${err.message}`;
+    showHealthProblems([dot.title]);
   }
   dot.setAttribute("aria-label", dot.title);
+}
+
+function showHealthProblems(problems) {
+  const note = document.getElementById("health-note");
+  note.textContent = problems.length ? `Service degraded: ${problems.join("; ")}` : "";
+  note.hidden = !problems.length;
 }
 health();
 setInterval(() => {

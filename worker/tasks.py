@@ -14,6 +14,7 @@ from celery import shared_task
 from sqlalchemy.exc import SQLAlchemyError
 
 import solver
+from api.disk import DiskReserve, disk_full
 from api.settings import Settings
 from api.store import Claimed, Store, finite
 
@@ -36,15 +37,27 @@ def _store() -> Store:
     return _stores[pid]
 
 
+# Set (from the worker's SIGTERM handler) when this process is asked to stop: the running job stops at its next
+# time step and goes back to the queue, to resume from its last checkpoint.
+SHUTDOWN = threading.Event()
+BUSY = threading.Event()  # a task is running in this (solo-pool) process
+
+
 @shared_task(name="wakeyard.run_next")
 def run_next(hint: str | None = None) -> str | None:
     """Run the next queued job, if any; ``hint`` (the submitted job id) is for logs only."""
-    job = _store().claim_next(f"{socket.gethostname()}:{os.getpid()}")
-    if job is None:
-        log.info("nothing to run (message for %s)", hint)
+    if SHUTDOWN.is_set():
         return None
-    _Attempt(_store(), _settings(), job).run()
-    return job.id
+    BUSY.set()
+    try:
+        job = _store().claim_next(f"{socket.gethostname()}:{os.getpid()}")
+        if job is None:
+            log.info("nothing to run (message for %s)", hint)
+            return None
+        _Attempt(_store(), _settings(), job).run()
+        return job.id
+    finally:
+        BUSY.clear()
 
 
 class _Attempt:
@@ -87,6 +100,9 @@ class _Attempt:
         if cancel or not ours:
             self.stop.set()
 
+    def _should_stop(self) -> bool:
+        return self.stop.is_set() or SHUTDOWN.is_set()
+
     def _beat_loop(self) -> None:
         while not self.done.wait(self.settings.heartbeat_seconds):
             self.beat()
@@ -97,7 +113,7 @@ class _Attempt:
         beater.start()
         summary = None
         try:
-            summary = solver.run(self.job.spec, out, progress=self.progress, should_stop=self.stop.is_set,
+            summary = solver.run(self.job.spec, out, progress=self.progress, should_stop=self._should_stop,
                                  wall_time_limit=self.settings.max_wall_time, resume=True)
             state, error = "succeeded", None
         except solver.Cancelled as err:
@@ -105,16 +121,31 @@ class _Attempt:
         except (solver.RunFailed, solver.SpecError) as err:
             state, error = "failed", str(err)
         except Exception as err:  # record every failure: a job must never stay "running" silently
-            log.exception("job %s crashed", self.job.id)
-            state, error = "failed", f"internal error: {type(err).__name__}: {err}"
+            state, error = "failed", _unexpected(self.job.id, err)
         finally:
             self.done.set()
             beater.join()
         if self.lost:
             return
+        if state == "cancelled" and not self.stop.is_set():  # stopped by SIGTERM, not by a cancel request
+            if self.store.release(self.job.id, self.job.claim):
+                log.warning("job %s handed back to the queue: this worker is stopping", self.job.id)
+            return
         progress = self._values()
         if summary is not None:  # the last progress report can be half a second old
             progress.update(progress_fraction=1.0, progress_step=summary.get("steps", progress.get("progress_step", 0)),
                             progress_time=summary.get("simulated_time", progress.get("progress_time", 0.0)))
-        if not self.store.finish(self.job.id, self.job.claim, state, finite(summary), error, finite(progress)):
+        reserve = DiskReserve(self.settings.data_dir)  # a full disk must not keep the job "running"
+        if not reserve.retry(lambda: self.store.finish(self.job.id, self.job.claim, state, finite(summary), error,
+                                                       finite(progress))):
             log.warning("job %s changed hands before it finished; its outcome %s is not recorded", self.job.id, state)
+
+
+def _unexpected(job_id: str, err: Exception) -> str:
+    """The error recorded for a failure the solver did not raise on purpose."""
+    if disk_full(err):
+        log.error("job %s failed: the disk is full (%s)", job_id, err)
+        return (f"the results could not be written: the data folder's disk is full ({err}); free space (delete "
+                "jobs no longer needed), then run the job again")
+    log.exception("job %s crashed", job_id)
+    return f"internal error: {type(err).__name__}: {err}"

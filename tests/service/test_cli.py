@@ -39,7 +39,7 @@ def test_serve_embedded_runs_a_job_and_ctrl_c_stops_children(tmp_path: Path) -> 
             time.sleep(0.2)
         children = _children(proc.pid)
         children += [grandchild for pid in children for grandchild in _children(pid)]
-        assert len(children) >= 2  # the Celery worker and its pool process
+        assert len(children) >= 1  # the worker process
         with httpx.Client(base_url=f"http://127.0.0.1:{port}", timeout=10) as client:
             job_id = client.post("/api/v1/jobs", json=tiny(end_time=0.1)).json()["id"]
             deadline = time.monotonic() + 60

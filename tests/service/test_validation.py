@@ -131,10 +131,16 @@ def test_tokens_owner_and_admin(offline: TestClient) -> None:
 
 
 def test_health_and_metrics_on_the_embedded_broker(offline: TestClient) -> None:
+    assert offline.get("/api/v1/health").json()["status"] == "ok"  # nothing queued: no worker needed yet
     offline.post("/api/v1/jobs", json=tiny())
-    health = offline.get("/api/v1/health").json()
-    assert health["status"] == "ok" and health["queue_depth"] == 1
-    assert 'wakeyard_jobs{state="queued"} 1' in offline.get("/metrics").text
+    r = offline.get("/api/v1/health")  # a job waits and no worker has reported in: not ok
+    assert r.status_code == 503 and r.json()["status"] == "degraded" and r.json()["queue_depth"] == 1
+    assert r.json()["problems"] == ["1 job(s) queued and no worker process seen in the last 30 s"]
+    metrics = offline.get("/metrics").text
+    assert 'wakeyard_jobs{state="queued"} 1' in metrics and "wakeyard_healthy 0" in metrics
+    offline.app.state.store.worker_alive("box:1234")  # as a worker process does every few seconds
+    assert offline.get("/api/v1/health").status_code == 200
+    assert "wakeyard_healthy 1" in offline.get("/metrics").text
     assert "JobSpec" in offline.get("/openapi.json").json()["components"]["schemas"]
 
 

@@ -76,3 +76,27 @@ def test_step_limit():
     spec = load({"analysis": {"mode": "transient", "time_step": 1e-4, "end_time": 10}})
     with pytest.raises(SpecError, match="100,000 steps"):
         check_limits(spec, Limits(max_steps=1000))
+
+
+@pytest.mark.parametrize(("data", "field", "words"), [
+    ({"bodies": [CYLINDER], "fluid": {"reynolds": 4.9e-324}}, "fluid.reynolds", "greater than or equal to 0.000001"),
+    ({"bodies": [CYLINDER], "fluid": {"viscosity": 5e-324}}, "fluid.viscosity", "Reynolds number U L / ν = inf"),
+    ({"bodies": [CYLINDER], "fluid": {"reynolds": 1e-6, "reference": {"velocity": 1e4}}}, "fluid.reynolds",
+     "kinematic viscosity of 1e+09 m²/s, over the limit of 1e+06"),
+    ({"inflow": {"time_law": {"kind": "table", "points": [[0, 0], [1, 0]]}}}, "inflow.time_law",
+     "nominal velocity is zero"),
+])
+def test_derived_scales_stay_bounded(data, field, words):
+    """Reynolds number, viscosity and reference velocity derived from each other stay finite and in range."""
+    found = problems(data)
+    assert words in found[field]
+
+
+def test_polygon_whose_corner_touches_an_edge_is_refused():
+    touching = [[0.3, 0.1], [0.5, 0.1], [0.5, 0.3], [0.4, 0.1], [0.3, 0.3]]
+    assert "cross or touch" in problems({"bodies": [{"shape": "polygon", "points": touching}]})["bodies.0.points"]
+
+
+def test_a_body_inside_another_overlaps():
+    ring = {"shape": "polygon", "points": [[0.1, 0.1], [0.4, 0.1], [0.4, 0.35], [0.1, 0.35]]}
+    assert "overlaps" in problems({"bodies": [ring, {**CYLINDER, "center": [0.25, 0.22], "radius": 0.02}]})["bodies.1"]

@@ -34,7 +34,17 @@ def test_exact_second_order_data_extrapolates_to_the_limit():
 
 
 def test_identical_values_give_no_order():
-    assert math.isnan(grid_convergence((1.0, 2.0, 4.0), (2.0, 2.0, 2.0)).observed_order)
+    g = grid_convergence((1.0, 2.0, 4.0), (2.0, 2.0, 2.0))
+    assert math.isnan(g.observed_order) and g.reason == "the value does not change between grids"
+
+
+def test_round_off_differences_give_no_order_with_the_reason():
+    """Values equal to the last few bits (as a reused or grid-independent quantity) must not look converged."""
+    g = grid_convergence((1.0, 2.0, 4.0), (5.5, 5.5 + 3e-15, 5.5 - 4e-15))
+    assert math.isnan(g.observed_order) and math.isnan(g.gci_fine)
+    assert "round-off" in g.reason
+    real = grid_convergence((1.0, 2.0, 4.0), (5.5 + 1e-7, 5.5 + 4e-7, 5.5 + 1.6e-6))  # small but real: an order
+    assert real.observed_order == pytest.approx(2.0, rel=1e-6) and real.reason is None
 
 
 def test_mesh_study_extrapolates_2d1_drag_towards_reference(tmp_path):
