@@ -18,7 +18,6 @@ from api.settings import Settings
 
 # WAKEYARD_TEST_REDIS_DB lets two checkouts run the service tests at once on one Redis (default 5, 6)
 REDIS_DB = int(os.environ.get("WAKEYARD_TEST_REDIS_DB", "5"))
-REDIS_URL = f"redis://127.0.0.1:6379/{REDIS_DB}"
 
 TINY: dict[str, Any] = {
     "title": "pipe in a cooling duct (test)", "channel": {"length": 1.0, "height": 0.41},
@@ -34,7 +33,7 @@ def tiny(end_time: float = 0.3, **analysis: Any) -> dict[str, Any]:
     return spec
 
 
-def settings_for(folder: Path, queue: str, broker: str = REDIS_URL, **extra: Any) -> Settings:
+def settings_for(folder: Path, queue: str, broker: str, **extra: Any) -> Settings:
     values: dict[str, Any] = {"data_dir": folder, "broker_url": broker, "queue": queue, "heartbeat_seconds": 0.5,
                               "reaper_seconds": 0.5, "lease_seconds": 30.0, "workers": 1}
     values.update(extra)
