@@ -1,5 +1,5 @@
-"""Real parts only: Redis on 127.0.0.1 (DB 5, flushed here and nowhere else), Celery worker subprocesses,
-SQLite job stores in temporary folders."""
+"""Real parts only: Redis (database WAKEYARD_TEST_REDIS_DB, flushed here and nowhere else), PostgreSQL and
+RabbitMQ from tests/servers.py, Celery worker subprocesses, SQLite job stores in temporary folders."""
 
 from __future__ import annotations
 
@@ -14,24 +14,25 @@ from fastapi.testclient import TestClient
 
 from api.app import create_app
 
-from .helpers import REDIS_URL, Worker, settings_for
-
-POSTGRES_URL = "postgresql+psycopg://postgres@127.0.0.1:5432/test"
-
-
-@pytest.fixture(scope="session", autouse=True)
-def _clean_redis() -> Iterator[None]:
-    client = redis.Redis.from_url(REDIS_URL)
-    client.flushdb()
-    yield
-    client.flushdb()
+from .helpers import REDIS_DB, Worker, settings_for
 
 
 @pytest.fixture(scope="session")
-def service(tmp_path_factory: pytest.TempPathFactory) -> Iterator[TestClient]:
+def redis_broker(redis_url: str) -> Iterator[str]:
+    """The tests' Redis database as a broker URL, empty at the start and at the end of the session."""
+    url = f"{redis_url}/{REDIS_DB}"
+    client = redis.Redis.from_url(url)
+    client.flushdb()
+    yield url
+    client.flushdb()
+    client.close()
+
+
+@pytest.fixture(scope="session")
+def service(tmp_path_factory: pytest.TempPathFactory, redis_broker: str) -> Iterator[TestClient]:
     """API (in process, with its lease reaper) plus one single-process worker, on Redis."""
     folder = tmp_path_factory.mktemp("service")
-    settings = settings_for(folder, "wakeyard-test")
+    settings = settings_for(folder, "wakeyard-test", redis_broker)
     worker = Worker(settings, folder / "worker.log")
     try:
         with TestClient(create_app(settings)) as client:
@@ -50,16 +51,17 @@ def offline(tmp_path: Path) -> Iterator[TestClient]:
 
 @pytest.fixture(params=["sqlite", "postgresql"])
 def store_url(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[str]:
-    """A fresh job store on SQLite or on the local PostgreSQL (in a schema of its own, dropped afterwards)."""
+    """A fresh job store on SQLite or on PostgreSQL (in a schema of its own, dropped afterwards)."""
     if request.param == "sqlite":
         yield f"sqlite:///{tmp_path}/store.sqlite"
         return
+    postgres_url: str = request.getfixturevalue("postgres_url")  # started only when a PostgreSQL test runs
     schema = f"wakeyard_test_{os.getpid()}"
-    admin = sqlalchemy.create_engine(POSTGRES_URL)
+    admin = sqlalchemy.create_engine(postgres_url)
     with admin.begin() as conn:
         conn.execute(sqlalchemy.text(f"CREATE SCHEMA {schema}"))
     try:
-        yield f"{POSTGRES_URL}?options=-csearch_path%3D{schema}"
+        yield f"{postgres_url}?options=-csearch_path%3D{schema}"
     finally:
         with admin.begin() as conn:
             conn.execute(sqlalchemy.text(f"DROP SCHEMA {schema} CASCADE"))

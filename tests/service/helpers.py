@@ -20,7 +20,6 @@ from .hold import Hold
 
 # WAKEYARD_TEST_REDIS_DB lets two checkouts run the service tests at once on one Redis (default 5, 6)
 REDIS_DB = int(os.environ.get("WAKEYARD_TEST_REDIS_DB", "5"))
-REDIS_URL = f"redis://127.0.0.1:6379/{REDIS_DB}"
 
 TINY: dict[str, Any] = {
     "title": "pipe in a cooling duct (test)", "channel": {"length": 1.0, "height": 0.41},
@@ -36,7 +35,7 @@ def tiny(end_time: float = 0.3, **analysis: Any) -> dict[str, Any]:
     return spec
 
 
-def settings_for(folder: Path, queue: str, broker: str = REDIS_URL, **extra: Any) -> Settings:
+def settings_for(folder: Path, queue: str, broker: str, **extra: Any) -> Settings:
     values: dict[str, Any] = {"data_dir": folder, "broker_url": broker, "queue": queue, "heartbeat_seconds": 0.5,
                               "reaper_seconds": 0.5, "lease_seconds": 30.0, "workers": 1}
     values.update(extra)
@@ -54,12 +53,11 @@ class Worker:
 
     def __init__(self, settings: Settings, log: Path, hold: Hold | None = None):
         self.log = log
-        preload, env = "", environment(settings)
+        env = environment(settings)
         if hold is not None:  # park the solver mid-run for the test (see hold.py)
-            preload = "from tests.service import hold; hold.install(); "
             env.update(hold.environment())
         self.proc = subprocess.Popen(
-            [sys.executable, "-c", f"import sys; {preload}from cli.main import main; sys.exit(main())", "worker"],
+            [sys.executable, "-c", "import sys; from cli.main import main; sys.exit(main())", "worker"],
             env=env, stdout=log.open("w"), stderr=subprocess.STDOUT, start_new_session=True)
         deadline = time.monotonic() + 60
         while "ready." not in log.read_text():

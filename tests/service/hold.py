@@ -1,9 +1,10 @@
 """A test-only pause in the worker: the solver parks after its checkpoint at step >= N until it is killed.
 
 The kill -9 tests must find a job mid-run however fast the machine is. ``Worker(..., hold=Hold(folder, N))``
-starts the worker with this module imported first; it wraps the checkpoint write of ``solver.run`` so that the
-first process to reach step N writes ``held`` (its pid and step) into the folder and then sleeps. Only the
-first one holds: the attempt that resumes the job afterwards runs through.
+puts a ``sitecustomize`` into the folder and the folder on ``PYTHONPATH``, so every Python process of the
+worker (the supervisor's children too) installs the hold at start-up. It wraps the checkpoint write of
+``solver.run`` so that the first process to reach step N writes ``held`` (its pid and step) into the folder
+and then sleeps. Only the first one holds: the attempt that resumes the job afterwards runs through.
 """
 
 from __future__ import annotations
@@ -16,6 +17,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+ROOT = Path(__file__).resolve().parents[2]
 FOLDER_VARIABLE, STEP_VARIABLE = "WAKEYARD_TEST_HOLD_DIR", "WAKEYARD_TEST_HOLD_STEP"
 
 
@@ -26,7 +28,9 @@ class Hold:
 
     def environment(self) -> dict[str, str]:
         self.folder.mkdir(parents=True, exist_ok=True)
-        return {FOLDER_VARIABLE: str(self.folder), STEP_VARIABLE: str(self.step)}
+        (self.folder / "sitecustomize.py").write_text("from tests.service import hold\n\nhold.install()\n")
+        path = os.pathsep.join([str(self.folder), str(ROOT), os.environ.get("PYTHONPATH", "")])
+        return {FOLDER_VARIABLE: str(self.folder), STEP_VARIABLE: str(self.step), "PYTHONPATH": path}
 
     def wait_held(self, timeout: float = 120.0) -> dict[str, int]:
         """Block until a worker process is parked at the hold; returns its ``{"pid", "step"}``."""

@@ -38,8 +38,8 @@ def test_expired_lease_requeues_then_gives_up(store_url: str) -> None:
     assert job.state == "failed" and "gave up after 3 attempts" in job.error
 
 
-def test_kill_9_of_the_worker_resumes_from_checkpoint(tmp_path: Path) -> None:
-    settings = settings_for(tmp_path, "wakeyard-lease", lease_seconds=3.0)
+def test_kill_9_of_the_worker_resumes_from_checkpoint(tmp_path: Path, redis_broker: str) -> None:
+    settings = settings_for(tmp_path, "wakeyard-lease", redis_broker, lease_seconds=3.0)
     hold = Hold(tmp_path / "hold", step=20)  # the solver parks after its checkpoint at step 20
     first = Worker(settings, tmp_path / "first.log", hold=hold)
     try:
@@ -64,8 +64,8 @@ def test_kill_9_of_the_worker_resumes_from_checkpoint(tmp_path: Path) -> None:
         first.stop()
 
 
-def test_kill_9_of_a_pool_child_requeues_and_the_same_worker_finishes(tmp_path: Path) -> None:
-    settings = settings_for(tmp_path, "wakeyard-child", lease_seconds=3.0)
+def test_kill_9_of_a_pool_child_requeues_and_the_same_worker_finishes(tmp_path: Path, redis_broker: str) -> None:
+    settings = settings_for(tmp_path, "wakeyard-child", redis_broker, lease_seconds=3.0)
     hold = Hold(tmp_path / "hold", step=20)
     worker = Worker(settings, tmp_path / "worker.log", hold=hold)
     try:

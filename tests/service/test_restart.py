@@ -12,12 +12,11 @@ from api.app import create_app
 
 from .helpers import REDIS_DB, Worker, finished, settings_for, tiny, wait_for
 
-RESTART_REDIS = f"redis://127.0.0.1:6379/{REDIS_DB + 1}"  # a database of its own: the test empties it on purpose
 
-
-def test_api_and_broker_restart_with_queued_jobs(tmp_path: Path) -> None:
-    settings = settings_for(tmp_path, "wakeyard-restart", broker=RESTART_REDIS)
-    broker = redis.Redis.from_url(RESTART_REDIS)
+def test_api_and_broker_restart_with_queued_jobs(tmp_path: Path, redis_url: str) -> None:
+    restart_redis = f"{redis_url}/{REDIS_DB + 1}"  # a database of its own: the test empties it on purpose
+    settings = settings_for(tmp_path, "wakeyard-restart", broker=restart_redis)
+    broker = redis.Redis.from_url(restart_redis)
     broker.flushdb()
     try:
         with TestClient(create_app(settings)) as client:  # no worker yet: the jobs stay queued

@@ -98,7 +98,7 @@ def api(base_url: str) -> Iterator[httpx.Client]:
 def browser() -> Iterator[object]:
     sync_api = pytest.importorskip("playwright.sync_api", reason="pip install playwright (the test extra)")
     if not (shutil.which("chromium") or Path(CHROMIUM).exists()):
-        pytest.fail("Debian's chromium is needed at /usr/bin/chromium: apt-get install -y chromium")
+        pytest.fail("Debian's chromium is needed at /usr/bin/chromium: run scripts/setup --test (as root)")
     with sync_api.sync_playwright() as p:
         b = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
         yield b
