@@ -6,9 +6,6 @@ from fastapi import Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
 
-CAUTION = ("2D laminar results are a study aid, not design loads; applicable codes and standards and a licensed "
-           "engineer decide anything that matters.")
-
 
 class SpecProblems(Exception):
     """Raised by routes for input the solver (or the service's limits) refuses."""

@@ -7,6 +7,8 @@ from typing import Any
 from fastapi import APIRouter, Request
 from fastapi.responses import JSONResponse, PlainTextResponse
 
+from solver.caution import CAUTION
+
 router = APIRouter(tags=["operations"])
 STATES = ("queued", "running", "succeeded", "failed", "cancelled")
 
@@ -42,3 +44,8 @@ def metrics(request: Request) -> PlainTextResponse:
     lines += ["# HELP wakeyard_workers_seen Worker processes that reported in the last 30 s.",
               "# TYPE wakeyard_workers_seen gauge", f"wakeyard_workers_seen {store.workers_seen(within=30.0)}"]
     return PlainTextResponse("\n".join(lines) + "\n", media_type="text/plain; version=0.0.4; charset=utf-8")
+
+
+@router.get("/api/v1/caution", summary="The caution that goes with every result (the page shows it from here)")
+def caution() -> dict[str, str]:
+    return {"caution": CAUTION}

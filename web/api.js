@@ -101,6 +101,7 @@ function listOf(data) {
 
 export const api = {
   health: () => request("GET", "/health"),
+  caution: () => request("GET", "/caution"),
   listJobs: async (query, signal) => listOf(await request("GET", "/jobs", {query, signal})),
   getJob: (id, signal) => request("GET", `/jobs/${encodeURIComponent(id)}`, {signal}),
   createJob: (spec, tags) => request("POST", "/jobs", {body: spec, query: tags?.length ? {tags} : undefined}),

@@ -103,6 +103,14 @@ async function health() {
   dot.setAttribute("aria-label", dot.title);
 }
 health();
+
+// ---- the service's caution, in the page footer ----
+api.caution().then((c) => {
+  document.getElementById("caution-foot").textContent = c.caution;
+}).catch(() => {
+  /* the views show it again with every result */
+});
+
 setInterval(() => {
   if (!document.hidden) health();
 }, 30000);

@@ -67,7 +67,7 @@ export class CompareView {
   }
 
   render(loaded) {
-    const parts = [caution()];
+    const parts = [caution(loaded.find((x) => x.job.caution)?.job.caution)];
     const withForces = loaded.filter((x) => x.forces && x.forces.time.length > 1);
     let host = null;
     if (withForces.length) {
