@@ -14,6 +14,7 @@ REFERENCE = {"cd_max": 3.22739, "strouhal": 0.30184}
 def test_2d2_shedding_on_coarse_mesh(tmp_path):
     spec = {
         "title": "cylinder benchmark 2D-2",
+        "channel": {"length": 2.2, "height": 0.41},
         "bodies": [{"name": "cylinder", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
         "fluid": {"density": 1.0, "viscosity": 1e-3},
         "inflow": {"profile": "parabolic", "peak_velocity": 1.5},

@@ -6,6 +6,7 @@ import json
 import pytest
 
 from solver import run
+from solver.caution import CAUTION
 
 REFERENCE_2D1 = {"cd": 5.57953523384, "cl": 0.010618948146, "dp": 0.11752016697}
 
@@ -45,6 +46,8 @@ def test_2d1_files_follow_the_contract(result_2d1):
     summary = json.loads((result_2d1 / "summary.json").read_text())
     assert summary["mesh"]["dofs"] > 10_000 and summary["mesh"]["cells"] > 1000
     assert summary["wall_time_seconds"] > 0
+    assert summary["units"]["bodies.*.fx"] == "N/m" and summary["units"]["pressure_drop"] == "Pa"
+    assert summary["units"]["bodies.*.recirculation_length"] == "m" and summary["caution"] == CAUTION
     assert json.loads((result_2d1 / "status.json").read_text())["state"] == "succeeded"
     for name in ("speed", "vorticity", "pressure"):
         png = (result_2d1 / "pictures" / f"{name}_000000.png").read_bytes()

@@ -8,7 +8,9 @@ import pytest
 from solver import run
 
 BASE = {
+    "channel": {"length": 2.2, "height": 0.41},
     "bodies": [{"name": "cylinder", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+    "fluid": {"density": 1.0, "viscosity": 1e-3},
     "inflow": {"peak_velocity": 1.5},
     "mesh": {"preset": "coarse", "scale": 1.5},
     "analysis": {"mode": "transient", "scheme": "bdf2-implicit", "time_step": 0.01, "end_time": 8.0,
