@@ -16,7 +16,7 @@ const idOf = (path) => `f-${path.replaceAll(".", "-")}`;
 const clone = (x) => JSON.parse(JSON.stringify(x ?? {}));
 const isNum = (v) => typeof v === "number" && Number.isFinite(v);
 
-/** Seconds per (unknown × step) measured on finished jobs of this server; set by the queue view. */
+/** Seconds per (unknown × step) measured on succeeded jobs of this server; set by the queue view. */
 export const calibration = {rate: null, jobs: 0};
 
 export class CaseForm {
@@ -419,7 +419,7 @@ export class CaseForm {
     }
     if (calibration.rate && c.dofs && (!c.transient || c.steps)) {
       const work = c.dofs * (c.transient ? c.steps : 15);
-      items.push(["Run time, roughly", duration(work * calibration.rate), `from ${calibration.jobs} finished job(s) on this server`]);
+      items.push(["Run time, roughly", duration(work * calibration.rate), `from ${calibration.jobs} succeeded job(s) on this server`]);
     }
     if (block > 0.5) warnings.push({message: `The bodies block ${num(100 * block, 3)} % of the channel: the walls will dominate the forces.`});
     fill(this.figures, items.map(([k, v, note]) => h("div", {class: "figure"},
