@@ -48,18 +48,18 @@ def _match(table: dict[str, str], path: str) -> str | None:
     return None
 
 
-def _leaves(value: Any, path: str = "") -> list[str]:
+def number_paths(value: Any, path: str = "") -> list[str]:
     """Dotted paths of every number in a JSON-like value (booleans are not numbers here)."""
     if isinstance(value, dict):
-        return [p for k, v in value.items() for p in _leaves(v, f"{path}.{k}" if path else str(k))]
+        return [p for k, v in value.items() for p in number_paths(v, f"{path}.{k}" if path else str(k))]
     if isinstance(value, list):
-        return [p for i, v in enumerate(value) for p in _leaves(v, f"{path}.{i}" if path else str(i))]
+        return [p for i, v in enumerate(value) for p in number_paths(v, f"{path}.{i}" if path else str(i))]
     return [path] if isinstance(value, int | float) and not isinstance(value, bool) else []
 
 
 def summary_units(summary: dict[str, Any]) -> dict[str, str]:
     """The ``units`` map of a summary: every pattern that matches one of its numbers, in table order."""
-    used = {pattern for leaf in _leaves(summary) for pattern, unit in _SUMMARY.items()
+    used = {pattern for leaf in number_paths(summary) for pattern, unit in _SUMMARY.items()
             if _match({pattern: unit}, leaf) is not None}
     return {pattern: unit for pattern, unit in _SUMMARY.items() if pattern in used}
 

@@ -10,7 +10,7 @@ import pytest
 from solver import Cancelled, Diverged, run
 from solver.caution import CAUTION
 from solver.output import read_forces
-from solver.units import unit_of
+from solver.units import number_paths, unit_of
 
 # The cylinder and fluid of the 2D-1 benchmark (Schäfer & Turek 1996) in a channel shortened to 1.0: a cheap Re-20
 # case whose behaviour is well known; no published value is checked in this file.
@@ -52,21 +52,12 @@ def test_transient_outputs(full_run):
     assert not (out / "checkpoint.npz").exists()
 
 
-def numbers(value, path=""):
-    """Dotted paths of every number in a JSON value."""
-    if isinstance(value, dict):
-        return [p for k, v in value.items() for p in numbers(v, f"{path}.{k}".lstrip("."))]
-    if isinstance(value, list):
-        return [p for i, v in enumerate(value) for p in numbers(v, f"{path}.{i}".lstrip("."))]
-    return [path] if isinstance(value, int | float) and not isinstance(value, bool) else []
-
-
 def test_summary_carries_the_caution_and_a_unit_for_every_number(full_run):
     out, summary = full_run
     written = json.loads((out / "summary.json").read_text())
     assert written["caution"] == summary["caution"] == CAUTION
     units = written["units"]
-    missing = [p for p in numbers({k: v for k, v in written.items() if k != "units"}) if unit_of(units, p) is None]
+    missing = [p for p in number_paths({k: v for k, v in written.items() if k != "units"}) if unit_of(units, p) is None]
     assert missing == []
     assert unit_of(units, "pressure_drop.mean") == "Pa" and unit_of(units, "window.start") == "s"
     assert unit_of(units, "time_step") == "s" and unit_of(units, "simulated_time") == "s"
