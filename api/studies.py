@@ -59,7 +59,7 @@ def grid_convergence(study: Study, jobs: list[Job]) -> dict[str, Any]:
 
 def units(paths: list[str], keys: list[str]) -> dict[str, str]:
     """Units of the varied fields and of the summary values ("1": dimension one)."""
-    return {**{p: spec_unit(p) or "1" for p in paths}, **{k: value_unit(k) for k in keys}}
+    return {**{p: u for p in paths if (u := spec_unit(p)) is not None}, **{k: value_unit(k) for k in keys}}
 
 
 def table_csv(study: Study, jobs: list[Job]) -> str:
@@ -71,7 +71,7 @@ def table_csv(study: Study, jobs: list[Job]) -> str:
     out = io.StringIO()
     out.write(f"# Caution: {CAUTION}\n")
     writer = csv.writer(out, lineterminator="\n")
-    writer.writerow([*(labelled(p, unit[p]) for p in paths), "job", "state", *(labelled(k, unit[k]) for k in keys)])
+    writer.writerow([*(labelled(p, unit.get(p)) for p in paths), "job", "state", *(labelled(k, unit[k]) for k in keys)])
     for job, row in zip(jobs, rows):
         point = job.study_values or {}
         writer.writerow([*(point.get(p, "") for p in paths), job.id, job.state,

@@ -22,12 +22,10 @@ def plot_png(points: list[Point], paths: list[str], y: str, title: str) -> bytes
     for values, value in points:
         key = values.get(paths[1]) if len(paths) > 1 else None
         groups.setdefault(key, []).append((values[paths[0]], value))
-    second_unit = spec_unit(paths[1]) if len(paths) > 1 else None
+    second = labelled(paths[1], spec_unit(paths[1])) if len(paths) > 1 else ""
     for key, xy in groups.items():
         xs, ys = zip(*sorted(xy))
-        label = None if key is None else f"{paths[1]} = {key:g}" + (f" {second_unit}" if second_unit not in
-                                                                      (None, "1") else "")
-        ax.plot(xs, ys, marker="o", label=label)
+        ax.plot(xs, ys, marker="o", label=None if key is None else f"{second} = {key:g}")
     if len(groups) > 1:
         ax.legend()
     ax.set_xlabel(labelled(paths[0], spec_unit(paths[0])))
