@@ -13,6 +13,7 @@ from fastapi.staticfiles import StaticFiles
 from sqlalchemy.exc import SQLAlchemyError
 
 import solver
+from solver.caution import CAUTION
 from solver.study import StudySpec
 from worker.app import make_celery  # producer side only (BLAS pinning on import is harmless here)
 
@@ -48,8 +49,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         dispatch.close()
 
     app = FastAPI(title="wakeyard", version=solver.__version__, lifespan=lifespan,
-                  description="Queued 2D incompressible flow simulations. Results of 2D laminar runs are a study "
-                              "aid, not design loads; codes, standards and licensed engineers decide.")
+                  description=f"Queued 2D incompressible flow simulations. Caution: {CAUTION}")
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
     app.state.reaper, app.state.reserve = reaper, reserve
     app.add_exception_handler(SpecProblems, spec_problems_handler)

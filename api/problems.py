@@ -8,9 +8,6 @@ from fastapi.responses import JSONResponse
 
 from .disk import disk_full
 
-CAUTION = ("2D laminar results are a study aid, not design loads; applicable codes and standards and a licensed "
-           "engineer decide anything that matters.")
-
 
 class SpecProblems(HTTPException):
     """Raised by routes for input the solver (or the service's limits) refuses. An HTTPException, so that FastAPI

@@ -12,11 +12,13 @@ from typing import IO, Annotated, Any
 from fastapi import APIRouter, Depends, HTTPException, Request
 from fastapi.responses import FileResponse, StreamingResponse
 
+from solver.caution import CAUTION, caution_lines
+
 from .auth import User, current_user
-from .problems import CAUTION
 
 router = APIRouter(prefix="/api/v1/jobs", tags=["files"])
 ARCHIVE = "fields.zip"
+ARCHIVE_NOTE = "CAUTION.txt"  # the caution travels inside the archive with the fields
 HIDDEN = {"checkpoint.npz"}  # the solver's restart state, not a result
 TYPES = {".csv": "text/csv", ".json": "application/json", ".png": "image/png", ".vtu": "application/xml",
          ".pvd": "application/xml", ".npz": "application/octet-stream", ".zip": "application/zip"}
@@ -92,6 +94,7 @@ def _archive(folder: Path, job_id: str) -> StreamingResponse:
         raise HTTPException(404, f"job {job_id} has no VTU files (yet)")
     spool = tempfile.SpooledTemporaryFile(max_size=32 * 2**20)  # noqa: SIM115 - closed by _chunks
     with zipfile.ZipFile(spool, "w", zipfile.ZIP_DEFLATED) as zf:
+        zf.writestr(ARCHIVE_NOTE, "\n".join(caution_lines(100)) + "\n")
         for p in files:
             zf.write(p, p.relative_to(folder / "fields").as_posix())
     spool.seek(0)

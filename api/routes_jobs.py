@@ -12,9 +12,10 @@ from fastapi.responses import JSONResponse
 from sqlalchemy.engine import Row
 
 import solver
+from solver.caution import CAUTION
 
 from .auth import User, current_user
-from .problems import CAUTION, SpecProblems
+from .problems import SpecProblems
 from .settings import Settings
 from .store import Job, Store
 from .submission import check_cap, check_space, place, plan

@@ -5,6 +5,8 @@ from __future__ import annotations
 from fastapi import APIRouter, Request
 from fastapi.responses import JSONResponse, PlainTextResponse
 
+from solver.caution import CAUTION
+
 from .health import check
 
 router = APIRouter(tags=["operations"])
@@ -40,3 +42,8 @@ def metrics(request: Request) -> PlainTextResponse:
     if found.free_disk_bytes is not None:
         lines += _gauge("wakeyard_free_disk_bytes", "Free space in the data folder.", [("", found.free_disk_bytes)])
     return PlainTextResponse("\n".join(lines) + "\n", media_type="text/plain; version=0.0.4; charset=utf-8")
+
+
+@router.get("/api/v1/caution", summary="The caution that goes with every result (the page shows it from here)")
+def caution() -> dict[str, str]:
+    return {"caution": CAUTION}

@@ -10,11 +10,12 @@ from fastapi import APIRouter, Body, Depends, HTTPException, Query, Request
 from fastapi.responses import JSONResponse, Response
 
 import solver
+from solver.caution import CAUTION
 from solver.study import StudySpec, expand
 
 from . import studies
 from .auth import User, current_user
-from .problems import CAUTION, SpecProblems
+from .problems import SpecProblems
 from .routes_jobs import Fresh, limits
 from .store import ACTIVE, Job, Store, Study
 from .study_plot import plot_png
@@ -115,6 +116,8 @@ def read_study(request: Request, study_id: str, _: Annotated[User, Depends(curre
                        "summary": studies.values_of(j) or None} for j in jobs]
     if study.kind == "mesh-convergence":
         body["convergence"] = studies.grid_convergence(study, jobs)
+    keys = list(dict.fromkeys(k for p in body["points"] for k in p["summary"] or {}))
+    body["units"] = studies.units(body["varied"], keys)
     body["caution"] = CAUTION
     return JSONResponse(body)
 

@@ -9,7 +9,9 @@ from typing import Any
 import numpy as np
 
 import solver
+from solver.caution import CAUTION
 from solver.study import convergence, summary_values
+from solver.units import labelled, spec_unit, value_unit
 
 from .store import ACTIVE, Job, Study, finite
 
@@ -55,13 +57,21 @@ def grid_convergence(study: Study, jobs: list[Job]) -> dict[str, Any]:
     return finite(convergence(done, fluid_area(study.spec["base"]))) if len(done) >= 3 else {}
 
 
+def units(paths: list[str], keys: list[str]) -> dict[str, str]:
+    """Units of the varied fields and of the summary values ("1": dimension one)."""
+    return {**{p: u for p in paths if (u := spec_unit(p)) is not None}, **{k: value_unit(k) for k in keys}}
+
+
 def table_csv(study: Study, jobs: list[Job]) -> str:
-    """One row per point: the varied values, job id, state, then every summary value any point has."""
+    """A ``#`` caution line, then one row per point: the varied values, job id, state, every summary value;
+    headers carry their units (``inflow.mean_velocity [m/s]``, ``pier.cd [-]``)."""
     paths, rows = varied(study), [values_of(j) for j in jobs]
     keys = list(dict.fromkeys(k for row in rows for k in row))
+    unit = units(paths, keys)
     out = io.StringIO()
+    out.write(f"# Caution: {CAUTION}\n")
     writer = csv.writer(out, lineterminator="\n")
-    writer.writerow([*paths, "job", "state", *keys])
+    writer.writerow([*(labelled(p, unit.get(p)) for p in paths), "job", "state", *(labelled(k, unit[k]) for k in keys)])
     for job, row in zip(jobs, rows):
         point = job.study_values or {}
         writer.writerow([*(point.get(p, "") for p in paths), job.id, job.state,

@@ -3,12 +3,12 @@
 from __future__ import annotations
 
 import io
-import textwrap
 
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
-from .problems import CAUTION
+from solver.caution import add_footer
+from solver.units import labelled, spec_unit, value_unit
 
 Point = tuple[dict[str, float], float]  # (varied values, summary value)
 
@@ -22,17 +22,18 @@ def plot_png(points: list[Point], paths: list[str], y: str, title: str) -> bytes
     for values, value in points:
         key = values.get(paths[1]) if len(paths) > 1 else None
         groups.setdefault(key, []).append((values[paths[0]], value))
+    second = labelled(paths[1], spec_unit(paths[1])) if len(paths) > 1 else ""
     for key, xy in groups.items():
         xs, ys = zip(*sorted(xy))
-        ax.plot(xs, ys, marker="o", label=None if key is None else f"{paths[1]} = {key:g}")
+        ax.plot(xs, ys, marker="o", label=None if key is None else f"{second} = {key:g}")
     if len(groups) > 1:
         ax.legend()
-    ax.set_xlabel(paths[0])
-    ax.set_ylabel(y)
+    ax.set_xlabel(labelled(paths[0], spec_unit(paths[0])))
+    ax.set_ylabel(labelled(y, value_unit(y)))
     ax.set_title(title or f"{y} against {paths[0]}")
     ax.grid(True, alpha=0.3)
-    fig.text(0.01, 0.01, "\n".join(textwrap.wrap(CAUTION, 110)), fontsize=7, color="0.35", va="bottom")
-    fig.subplots_adjust(bottom=0.22)
+    fig.tight_layout()
+    add_footer(fig)
     buf = io.BytesIO()
-    fig.savefig(buf, format="png")
+    fig.savefig(buf, format="png", bbox_inches="tight", pad_inches=0.12)
     return buf.getvalue()

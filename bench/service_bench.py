@@ -32,8 +32,10 @@ import solver
 REDIS_URL = "redis://127.0.0.1:6379/6"
 CREATIONS, READS, CLIENTS, LATENCY_JOBS = 400, 2000, 8, 5
 CASE: dict[str, Any] = {
-    "title": "pipe in a cooling duct (benchmark)", "channel": {"length": 1.0, "height": 0.41},
+    # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a channel shortened to 1.0
+    "title": "cylinder in a shortened 2D-1 channel (benchmark)", "channel": {"length": 1.0, "height": 0.41},
     "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+    "fluid": {"density": 1.0, "viscosity": 1e-3},
     "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2}, "mesh": {"preset": "coarse", "scale": 2.0},
     "analysis": {"mode": "transient", "time_step": 0.01, "end_time": 0.3, "output_interval": 0.1}}
 

@@ -66,6 +66,7 @@ def main(argv: list[str] | None = None) -> int:
 
 def _run(spec_path: Path, out: Path, quiet: bool) -> int:
     import solver
+    from solver.caution import caution_lines
 
     try:
         data = json.loads(spec_path.read_text())
@@ -96,10 +97,12 @@ def _run(spec_path: Path, out: Path, quiet: bool) -> int:
         if bar is not None:
             bar.close()
         print(f"run failed: {err}", file=sys.stderr)
+        print("\n".join(caution_lines()), file=sys.stderr)  # partial results stay in the folder
         return 3
     if bar is not None:
         bar.n = 1000
         bar.close()
+    print("\n".join(caution_lines()), file=sys.stderr)
     print(json.dumps({k: summary[k] for k in ("bodies", "strouhal_number", "pressure_drop", "mesh",
                                                "wall_time_seconds") if k in summary}, indent=2))
     return 0

@@ -11,6 +11,7 @@ import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 from matplotlib.tri import Triangulation  # noqa: E402
 
+from .caution import add_footer  # noqa: E402
 from .spec import JobSpec  # noqa: E402
 
 FIELDS = {
@@ -65,6 +66,7 @@ def field_picture(path: Path, spec: JobSpec, tri: Triangulation, fields: dict[st
     ax.set_title(f"{title}: {label.split(' [')[0].lower()}" + (f" at t = {time:.4g} s" if time is not None else ""),
                  fontsize=10)
     fig.colorbar(art, ax=ax, label=label, fraction=0.05, pad=0.015)
+    add_footer(fig)
     fig.savefig(path, dpi=110, bbox_inches="tight", pad_inches=0.12)
     plt.close(fig)
 
@@ -83,5 +85,6 @@ def force_plot(path: Path, columns: list[str], data: np.ndarray, body_names: lis
         ax.grid(alpha=0.3)
     if len(body_names) > 1:
         top.legend(fontsize=8)
-    fig.savefig(path, dpi=110)
+    add_footer(fig)
+    fig.savefig(path, dpi=110, bbox_inches="tight", pad_inches=0.12)
     plt.close(fig)

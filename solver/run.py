@@ -14,11 +14,13 @@ import numpy as np
 
 from . import analysis, output, pictures
 from .case import Case
+from .caution import CAUTION
 from .errors import Cancelled, Diverged, WallTimeExceeded
 from .probes import probe_matrix
 from .spec import JobSpec, load
 from .steady import solve_steady
 from .transient import Stepper
+from .units import summary_units
 
 MAX_PICTURES = 12
 
@@ -70,6 +72,7 @@ def run(spec: JobSpec | dict[str, Any], out: str | Path, *, progress: ProgressCa
         else:
             summary = _Transient(case, out, progress, should_stop, deadline, resume).run()
         summary["wall_time_seconds"] = time.perf_counter() - started
+        summary.update(caution=CAUTION, units=summary_units(summary))
         output.write_json(out / "summary.json", summary)
         output.write_json(out / "status.json", {"state": "succeeded"})
         return summary

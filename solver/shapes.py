@@ -50,8 +50,8 @@ class Circle(_Body):
     """A circular cylinder, optionally spinning at ``spin`` rad/s (counter-clockwise)."""
 
     shape: Literal["circle"] = "circle"
-    center: Point = (0.2, 0.2)
-    radius: float = Field(0.05, gt=0, le=1e6)
+    center: Point = (0.1, 0.05)
+    radius: float = Field(0.01, gt=0, le=1e6)
     spin: float = Field(0.0, ge=-1e6, le=1e6, description="rad/s, counter-clockwise")
 
     def outline(self, n: int = 256) -> np.ndarray:

@@ -108,6 +108,7 @@ export const api = {
     }
     return response.json();
   },
+  caution: () => request("GET", "/caution"),
   listJobs: async (query, signal) => listOf(await request("GET", "/jobs", {query, signal})),
   getJob: (id, signal) => request("GET", `/jobs/${encodeURIComponent(id)}`, {signal}),
   createJob: (spec, tags) => request("POST", "/jobs", {body: spec, query: tags?.length ? {tags} : undefined}),

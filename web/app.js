@@ -111,6 +111,14 @@ function showHealthProblems(problems) {
   note.hidden = !problems.length;
 }
 health();
+
+// ---- the service's caution, in the page footer ----
+api.caution().then((c) => {
+  document.getElementById("caution-foot").textContent = c.caution;
+}).catch(() => {
+  /* the views show it again with every result */
+});
+
 setInterval(() => {
   if (!document.hidden) health();
 }, 30000);

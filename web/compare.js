@@ -40,7 +40,7 @@ export class CompareView {
   }
 
   async renderPicker(ids) {
-    fill(this.picker, h("h3", {id: "pick-heading"}, "Jobs to compare"), h("p", {class: "hint"}, "Loading recent finished jobs…"));
+    fill(this.picker, h("h3", {id: "pick-heading"}, "Jobs to compare"), h("p", {class: "hint"}, "Loading recent succeeded jobs…"));
     let jobs = [];
     try {
       jobs = (await api.listJobs({state: "succeeded", limit: 50})).items;
@@ -62,12 +62,12 @@ export class CompareView {
       location.hash = `#/compare?ids=${all.join(",")}`;
     }}, "Compare these");
     fill(this.picker, h("h3", {id: "pick-heading"}, "Jobs to compare"),
-      jobs.length ? h("details", {open: ids.length < 2}, h("summary", {}, `Recent finished jobs (${jobs.length})`), list, apply)
-        : h("p", {class: "hint"}, "No finished jobs yet."));
+      jobs.length ? h("details", {open: ids.length < 2}, h("summary", {}, `Recent succeeded jobs (${jobs.length})`), list, apply)
+        : h("p", {class: "hint"}, "No succeeded jobs yet."));
   }
 
   render(loaded) {
-    const parts = [caution()];
+    const parts = [caution(loaded.find((x) => x.job.caution)?.job.caution)];
     const withForces = loaded.filter((x) => x.forces && x.forces.time.length > 1);
     let host = null;
     if (withForces.length) {

@@ -1,56 +1,60 @@
-// Starting points for the case form: invented demonstration scenarios, not real structures.
+// Starting points for the case form: invented demonstration scenarios with real fluid properties and sizes,
+// small and slow enough to stay laminar (Re ≤ 200). None is a full-size structure: real piers, cables and
+// vanes in rivers and ducts meet Reynolds numbers of 1e4 to 1e7 and turbulent flow, which wakeyard does not model.
+// Water at 20 °C: 998.2 kg/m³, 1.004e-6 m²/s; at 15 °C: 999.1 kg/m³, 1.139e-6 m²/s; air at 20 °C and 1 atm:
+// 1.204 kg/m³, 1.516e-5 m²/s (property tables, common knowledge).
 
 export const EXAMPLES = {
-  pipe: {
-    label: "Pipe in a cooling duct (quick, transient)",
+  post: {
+    label: "20 mm post in a slow water channel, Re 20 (quick, transient)",
     spec: {
-      title: "Pipe in a cooling duct (demo)",
-      channel: {length: 1.0, height: 0.41, walls: "no-slip"},
-      bodies: [{name: "pipe", shape: "circle", center: [0.2, 0.2], radius: 0.05}],
-      fluid: {density: 1.0, viscosity: 0.001},
-      inflow: {profile: "parabolic", peak_velocity: 0.3, ramp_time: 0.2},
+      title: "20 mm post in a laboratory water channel, 20 °C, 1 mm/s (demo)",
+      channel: {length: 0.4, height: 0.1, walls: "no-slip"},
+      bodies: [{name: "post", shape: "circle", center: [0.1, 0.05], radius: 0.01}],
+      fluid: {density: 998.2, viscosity: 1.004e-6},
+      inflow: {profile: "parabolic", peak_velocity: 0.0015, ramp_time: 8},
       mesh: {preset: "coarse", scale: 2.0},
-      analysis: {mode: "transient", scheme: "bdf2-imex", time_step: 0.01, end_time: 1.0, output_interval: 0.1},
+      analysis: {mode: "transient", scheme: "bdf2-imex", time_step: 0.4, end_time: 40, output_interval: 4},
     },
   },
   pier: {
-    label: "Bridge pier in a river channel (steady)",
+    label: "Scale-model pier in a laboratory flume, Re 40 (steady)",
     spec: {
-      title: "Bridge pier in a river channel (demo, steady)",
-      channel: {length: 16.0, height: 6.0, walls: "slip"},
-      bodies: [{name: "pier", shape: "rectangle", center: [4.0, 3.05], width: 1.6, height: 0.8, corner_radius: 0.25}],
-      fluid: {density: 1000.0, reynolds: 40, reference: {length: 0.8}},
-      inflow: {profile: "uniform", mean_velocity: 0.5},
+      title: "Scale-model pier in a laboratory flume, water at 15 °C, Re 40 (demo, steady)",
+      channel: {length: 0.4, height: 0.15, walls: "slip"},
+      bodies: [{name: "pier", shape: "rectangle", center: [0.1, 0.07625], width: 0.04, height: 0.02, corner_radius: 0.00625}],
+      fluid: {density: 999.1, viscosity: 1.139e-6},
+      inflow: {profile: "uniform", mean_velocity: 0.0023},
       mesh: {preset: "coarse"},
       analysis: {mode: "steady"},
-      probes: {pressure_drop: [[2.5, 3.05], [6.0, 3.05]]},
+      probes: {pressure_drop: [[0.0625, 0.07625], [0.15, 0.07625]]},
     },
   },
-  tubes: {
-    label: "Two tubes in tandem in a cooling duct (steady)",
+  rods: {
+    label: "Two 2 mm rods in tandem in an air channel, Re 40 (steady)",
     spec: {
-      title: "Two tubes in tandem in a cooling duct (demo)",
-      channel: {length: 1.2, height: 0.3, walls: "no-slip"},
+      title: "Two 2 mm rods in tandem in a small air channel at 20 °C, Re 40 (demo, steady)",
+      channel: {length: 0.06, height: 0.015, walls: "no-slip"},
       bodies: [
-        {name: "upstream", shape: "circle", center: [0.25, 0.15], radius: 0.02},
-        {name: "downstream", shape: "circle", center: [0.37, 0.15], radius: 0.02},
+        {name: "upstream", shape: "circle", center: [0.0125, 0.0075], radius: 0.001},
+        {name: "downstream", shape: "circle", center: [0.0185, 0.0075], radius: 0.001},
       ],
-      fluid: {density: 1.2, viscosity: 1.5e-5},
-      inflow: {profile: "parabolic", mean_velocity: 0.02},
+      fluid: {density: 1.204, viscosity: 1.516e-5},
+      inflow: {profile: "parabolic", mean_velocity: 0.3},
       mesh: {preset: "coarse"},
       analysis: {mode: "steady"},
     },
   },
   vane: {
-    label: "Guide vane in a duct (airfoil, transient)",
+    label: "Guide-vane model in an air channel, Re 200 (airfoil, transient)",
     spec: {
-      title: "Guide vane in a ventilation duct (demo)",
-      channel: {length: 2.0, height: 0.5, walls: "no-slip"},
-      bodies: [{name: "vane", shape: "naca4", code: "2412", chord: 0.2, leading_edge: [0.4, 0.25], angle_of_attack: 8}],
-      fluid: {density: 1.0, reynolds: 200},
-      inflow: {profile: "parabolic", mean_velocity: 0.2, ramp_time: 0.5},
+      title: "20 mm guide-vane model in a small air channel at 20 °C, Re 200 (demo)",
+      channel: {length: 0.2, height: 0.05, walls: "no-slip"},
+      bodies: [{name: "vane", shape: "naca4", code: "2412", chord: 0.02, leading_edge: [0.04, 0.025], angle_of_attack: 8}],
+      fluid: {density: 1.204, viscosity: 1.516e-5},
+      inflow: {profile: "parabolic", mean_velocity: 0.15, ramp_time: 0.067},
       mesh: {preset: "coarse"},
-      analysis: {mode: "transient", scheme: "bdf2-imex", time_step: 0.005, end_time: 4.0, output_interval: 0.2},
+      analysis: {mode: "transient", scheme: "bdf2-imex", time_step: 0.00067, end_time: 0.54, output_interval: 0.027},
     },
   },
 };

@@ -4,6 +4,7 @@
 
 import {ApiError, api} from "./api.js";
 import {CaseDrawing, translateBody} from "./drawing.js";
+import {DEFAULTS} from "./defaults.js";
 import {EXAMPLES, newBody} from "./examples.js";
 import {blockage, channelOf, cost, geometryWarnings, nominalVelocity, referenceLength, reynolds} from "./geometry.js";
 import {duration, fill, getPath, h, integer, num, prune, setPath, toast} from "./util.js";
@@ -15,14 +16,14 @@ const idOf = (path) => `f-${path.replaceAll(".", "-")}`;
 const clone = (x) => JSON.parse(JSON.stringify(x ?? {}));
 const isNum = (v) => typeof v === "number" && Number.isFinite(v);
 
-/** Seconds per (unknown × step) measured on finished jobs of this server; set by the queue view. */
+/** Seconds per (unknown × step) measured on succeeded jobs of this server; set by the queue view. */
 export const calibration = {rate: null, jobs: 0};
 
 export class CaseForm {
   constructor(root, {onQueued}) {
     this.root = root;
     this.onQueued = onQueued;
-    this.spec = clone(EXAMPLES.pipe.spec);
+    this.spec = clone(EXAMPLES.post.spec);
     this.tags = "";
     this.from = null; // job whose spec was loaded for a re-run
     this.localErrors = new Map(); // path -> message (unparseable numbers)
@@ -131,8 +132,8 @@ export class CaseForm {
         textField("title", "Title", sp, {placeholder: "A short description of the case"})),
       fieldset("Channel", "channel",
         h("div", {class: "row"},
-          numberField("channel.length", "Length", sp, {unit: "m", placeholder: "2.2"}),
-          numberField("channel.height", "Height", sp, {unit: "m", placeholder: "0.41"})),
+          numberField("channel.length", "Length", sp, {unit: "m", placeholder: String(DEFAULTS.channel.length)}),
+          numberField("channel.height", "Height", sp, {unit: "m", placeholder: String(DEFAULTS.channel.height)})),
         selectField("channel.walls", "Top and bottom walls", sp, [["no-slip", "No-slip (fluid sticks to the walls)"],
           ["slip", "Slip (free stream, walls do not slow the flow)"]], "no-slip")),
       fieldset(`Bodies (${bodies.length})`, "bodies",
@@ -144,13 +145,14 @@ export class CaseForm {
           h("button", {type: "button", class: "btn", id: "add-body", disabled: bodies.length >= 20,
             onclick: () => this.addBody(document.getElementById("new-shape").value)}, "Add body"))),
       fieldset("Fluid", "fluid",
-        numberField("fluid.density", "Density ρ", sp, {unit: "kg/m³", placeholder: "1",
+        numberField("fluid.density", "Density ρ", sp, {unit: "kg/m³", placeholder: String(DEFAULTS.fluid.density),
           hint: "Only scales forces and pressure; the coefficients do not depend on it."}),
         radioGroup("fluid-by", "Set the viscosity by", [["viscosity", "Kinematic viscosity ν"], ["reynolds", "Reynolds number Re"]],
           byReynolds ? "reynolds" : "viscosity", (v) => this.switchFluid(v)),
         byReynolds
           ? numberField("fluid.reynolds", "Reynolds number Re", sp, {hint: "Re = U·L/ν on the reference scales below."})
-          : numberField("fluid.viscosity", "Kinematic viscosity ν", sp, {unit: "m²/s", placeholder: "0.001"}),
+          : numberField("fluid.viscosity", "Kinematic viscosity ν", sp, {unit: "m²/s",
+            placeholder: String(DEFAULTS.fluid.viscosity), hint: "Water at 20 °C: 1.004e-6 m²/s; air at 20 °C: 1.516e-5 m²/s."}),
         h("details", {class: "more", open: !!(sp.fluid?.reference?.velocity || sp.fluid?.reference?.length)},
           h("summary", {}, "Reference scales (optional)"),
           h("p", {class: "hint"}, "By default U is the mean inflow velocity and L the first body's diameter, chord or frontal height."),
@@ -163,7 +165,7 @@ export class CaseForm {
         radioGroup("inflow-by", "Give the inflow speed as", [["peak", "Peak velocity"], ["mean", "Mean velocity"]],
           byMean ? "mean" : "peak", (v) => this.switchInflow(v)),
         byMean ? numberField("inflow.mean_velocity", "Mean velocity", sp, {unit: "m/s"})
-          : numberField("inflow.peak_velocity", "Peak velocity", sp, {unit: "m/s", placeholder: "0.3"}),
+          : numberField("inflow.peak_velocity", "Peak velocity", sp, {unit: "m/s", placeholder: String(DEFAULTS.inflow.peak_velocity)}),
         numberField("inflow.ramp_time", "Ramp-up time", sp, {unit: "s", placeholder: "0",
           hint: "The inflow rises smoothly from rest over this time (transient runs)."}),
         selectField("inflow.time_law.kind", "Change over time", sp, [["constant", "Constant"],
@@ -207,7 +209,7 @@ export class CaseForm {
             numberField("analysis.until_periodic.cycles", "Matching cycles", sp, {placeholder: "3"}),
             numberField("analysis.until_periodic.tolerance", "Tolerance", sp, {placeholder: "0.01"})) : null,
         ] : h("div", {class: "row"},
-          numberField("analysis.newton_tolerance", "Newton tolerance", sp, {placeholder: "1e-10"}),
+          numberField("analysis.newton_tolerance", "Newton tolerance", sp, {placeholder: String(DEFAULTS.analysis.newton_tolerance)}),
           numberField("analysis.max_newton_iterations", "Max. Newton iterations", sp, {placeholder: "30"}))),
       fieldset("Probes", "probes",
         checkboxToggle("probes.pressure_drop", "Measure the pressure drop Δp = p(a) − p(b)", sp, null,
@@ -228,7 +230,7 @@ export class CaseForm {
     const sp = this.spec;
     const shapeFields = {
       circle: () => [pointField(`${p}.center`, "Centre", sp),
-        h("div", {class: "row"}, numberField(`${p}.radius`, "Radius", sp, {unit: "m", placeholder: "0.05"}),
+        h("div", {class: "row"}, numberField(`${p}.radius`, "Radius", sp, {unit: "m", placeholder: String(DEFAULTS.circle.radius)}),
           numberField(`${p}.spin`, "Spin", sp, {unit: "rad/s", placeholder: "0", hint: "Counter-clockwise rotation of the surface."}))],
       rectangle: () => [pointField(`${p}.center`, "Centre", sp),
         h("div", {class: "row"}, numberField(`${p}.width`, "Width", sp, {unit: "m"}), numberField(`${p}.height`, "Height", sp, {unit: "m"})),
@@ -321,7 +323,7 @@ export class CaseForm {
       fluid.reynolds = isNum(re) ? Number(re.toPrecision(4)) : 100;
     } else {
       delete fluid.reynolds;
-      fluid.viscosity = isNum(nu) ? Number(nu.toPrecision(4)) : 1e-3;
+      fluid.viscosity = isNum(nu) ? Number(nu.toPrecision(4)) : DEFAULTS.fluid.viscosity;
     }
     this.renderFields();
     this.update();
@@ -417,7 +419,7 @@ export class CaseForm {
     }
     if (calibration.rate && c.dofs && (!c.transient || c.steps)) {
       const work = c.dofs * (c.transient ? c.steps : 15);
-      items.push(["Run time, roughly", duration(work * calibration.rate), `from ${calibration.jobs} finished job(s) on this server`]);
+      items.push(["Run time, roughly", duration(work * calibration.rate), `from ${calibration.jobs} succeeded job(s) on this server`]);
     }
     if (block > 0.5) warnings.push({message: `The bodies block ${num(100 * block, 3)} % of the channel: the walls will dominate the forces.`});
     fill(this.figures, items.map(([k, v, note]) => h("div", {class: "figure"},

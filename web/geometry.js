@@ -3,6 +3,8 @@
 // They follow the solver's own rules (solver/spec.py, solver/meshing.py) closely enough to guide a
 // person; the service's answer is the authority.
 
+import {DEFAULTS} from "./defaults.js";
+
 const finite = (v) => typeof v === "number" && Number.isFinite(v);
 
 function rotate(points, angleDeg, [cx, cy]) {
@@ -47,11 +49,11 @@ function airfoil(body, n = 96) {
 /** Closed outline of a body as [[x, y], ...], or null when its fields are incomplete. */
 export function outline(body, n = 96) {
   if (!body) return null;
-  const c = body.center ?? (body.shape === "circle" ? [0.2, 0.2] : null);
+  const c = body.center ?? (body.shape === "circle" ? DEFAULTS.circle.center : null);
   const okCenter = Array.isArray(c) && finite(c[0]) && finite(c[1]);
   switch (body.shape) {
     case "circle": {
-      const r = body.radius ?? 0.05;
+      const r = body.radius ?? DEFAULTS.circle.radius;
       if (!okCenter || !finite(r) || r <= 0) return null;
       return Array.from({length: n}, (_, i) => [c[0] + r * Math.cos((2 * Math.PI * i) / n), c[1] + r * Math.sin((2 * Math.PI * i) / n)]);
     }
@@ -107,7 +109,7 @@ function perimeter(points) {
 
 /** The length that makes cD, cL and Re: diameter, chord, otherwise the frontal height. */
 export function referenceLength(body) {
-  if (body?.shape === "circle") return 2 * (body.radius ?? 0.05);
+  if (body?.shape === "circle") return 2 * (body.radius ?? DEFAULTS.circle.radius);
   if (body?.shape === "naca4") return body.chord;
   const pts = outline(body);
   return pts ? bounds(pts).y1 - bounds(pts).y0 : null;
@@ -115,7 +117,8 @@ export function referenceLength(body) {
 
 export function channelOf(spec) {
   const ch = spec.channel ?? {};
-  return {length: ch.length ?? 2.2, height: ch.height ?? 0.41, walls: ch.walls ?? "no-slip"};
+  const d = DEFAULTS.channel;
+  return {length: ch.length ?? d.length, height: ch.height ?? d.height, walls: ch.walls ?? d.walls};
 }
 
 /** Mean inflow velocity times the time law's nominal factor (as the solver scales its coefficients). */
@@ -125,7 +128,7 @@ export function nominalVelocity(spec) {
   let peak = inflow.peak_velocity;
   if (peak === undefined || peak === null) {
     peak = inflow.mean_velocity !== undefined && inflow.mean_velocity !== null
-      ? inflow.mean_velocity * (profile === "parabolic" ? 1.5 : 1) : 0.3;
+      ? inflow.mean_velocity * (profile === "parabolic" ? 1.5 : 1) : DEFAULTS.inflow.peak_velocity;
   }
   const mean = peak * (profile === "parabolic" ? 2 / 3 : 1);
   const law = inflow.time_law ?? {};
@@ -150,7 +153,7 @@ export function reynolds(spec) {
   if (fluid.viscosity !== undefined && fluid.viscosity !== null && !(finite(fluid.viscosity) && fluid.viscosity > 0)) {
     return {re: null, nu: null, U, L};
   }
-  const nu = fluid.viscosity ?? 1e-3;
+  const nu = fluid.viscosity ?? DEFAULTS.fluid.viscosity;
   return {re: (U * L) / nu, nu, U, L};
 }
 

@@ -111,7 +111,7 @@ export class JobView {
     }
     const paths = new Set(files.map((f) => f.path));
     const parts = [];
-    if (job.summary || paths.has("forces.csv")) parts.push(caution());
+    if (job.summary || paths.has("forces.csv")) parts.push(caution(job.caution));
     if (job.state !== "succeeded" && paths.has("forces.csv")) {
       parts.push(h("p", {class: "hint"}, "The run did not finish: these are the results it wrote before it stopped."));
     }

@@ -229,7 +229,7 @@ export class QueueView {
   }
 }
 
-/** Learn seconds per (unknown × step) from finished jobs, for the form's run-time estimate. */
+/** Learn seconds per (unknown × step) from succeeded jobs, for the form's run-time estimate. */
 function learnSpeed(jobs) {
   const rates = [];
   for (const j of jobs) {

@@ -3,13 +3,10 @@
 import {api, getToken} from "./api.js";
 import {duration, h, integer, num, parseCsv, toast} from "./util.js";
 
-export const CAUTION_TEXT = "These are 2D laminar flow results: a study aid, not design loads. Real structures see " +
-  "three-dimensional, turbulent flow. Check against measurements or established methods, and defer to the " +
-  "applicable local codes and standards and to a licensed engineer for any decision that matters.";
-
-export function caution() {
-  return h("aside", {class: "caution", role: "note", "aria-label": "Caution"},
-    h("strong", {}, "Caution. "), CAUTION_TEXT);
+/** The service's one caution text (sent with every job and study), shown beside results. */
+export function caution(text) {
+  if (!text) return null;
+  return h("aside", {class: "caution", role: "note", "aria-label": "Caution"}, h("strong", {}, "Caution. "), text);
 }
 
 /** Is a summary value a statistics object (transient) or a plain number (steady)? */
@@ -127,7 +124,7 @@ export function sizeText(bytes) {
 }
 
 export function stateBadge(state, extra = "") {
-  const words = {queued: "queued", running: "running", succeeded: "finished", failed: "failed", cancelled: "cancelled"};
+  const words = {queued: "queued", running: "running", succeeded: "succeeded", failed: "failed", cancelled: "cancelled"};
   return h("span", {class: `badge state-${state}`, dataset: {state}}, (words[state] ?? state) + extra);
 }
 

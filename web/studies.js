@@ -1,10 +1,8 @@
 // Studies: the list of parameter studies, and one study's points, plots and grid convergence.
 
 import {ACTIVE, api} from "./api.js";
+import {caution} from "./results.js";
 import {fill, h, num, shortId, toast, when} from "./util.js";
-
-const CAUTION = "2D laminar results: a study aid, not design loads. Defer to the applicable codes and " +
-  "standards and to a licensed engineer.";
 
 export class StudiesView {
   constructor(root) {
@@ -49,8 +47,10 @@ export class StudiesView {
     const study = await api.getStudy(id);
     const varied = study.varied ?? Object.keys(study.points[0]?.values ?? {});
     const keys = [...new Set(study.points.flatMap((p) => Object.keys(p.summary ?? {})))];
+    // "name [unit]" as the service writes its table headers; "[-]" for dimension one
+    const label = (k) => (study.units?.[k] === undefined ? k : `${k} [${study.units[k] === "1" ? "-" : study.units[k]}]`);
     const table = h("table", {class: "table study-points"},
-      h("thead", {}, h("tr", {}, ...[...varied, "State", "Job", ...keys].map((t) => h("th", {scope: "col"}, t)))),
+      h("thead", {}, h("tr", {}, ...[...varied.map(label), "State", "Job", ...keys.map(label)].map((t) => h("th", {scope: "col"}, t)))),
       h("tbody", {}, ...study.points.map((p) => h("tr", {},
         ...varied.map((v) => h("td", {}, num(p.values?.[v]))),
         h("td", {}, h("span", {class: `state state-${p.state}`}, p.state)),
@@ -58,7 +58,7 @@ export class StudiesView {
         ...keys.map((k) => h("td", {}, p.summary && k in p.summary ? num(p.summary[k]) : "—"))))));
     const plot = h("img", {class: "study-plot", alt: "summary value against the varied field"});
     const choice = h("select", {id: "study-y", "aria-label": "Value to plot"},
-      ...keys.map((k) => h("option", {value: k}, k)));
+      ...keys.map((k) => h("option", {value: k}, label(k))));
     const drawPlot = async () => {
       if (!choice.value || study.kind !== "sweep") return;
       try {
@@ -92,7 +92,7 @@ export class StudiesView {
       h("h2", {}, study.title || `Study ${shortId(id)}`),
       h("p", {}, `${study.kind} · `, h("span", {class: `state state-${study.state}`}, study.state),
         ` · ${Math.round(100 * study.progress)} % · owner ${study.owner}`),
-      h("p", {class: "caution", role: "note"}, h("strong", {}, "Caution. "), study.caution || CAUTION),
+      caution(study.caution),
       h("div", {class: "actions"}, download, cancel),
       h("section", {class: "card"}, h("h3", {}, "Points"), table),
     ];

@@ -11,6 +11,7 @@ import zipfile
 from fastapi.testclient import TestClient
 
 from api.store import Store
+from solver.caution import CAUTION
 
 from .helpers import finished, tiny, wait_for
 
@@ -23,7 +24,7 @@ def test_submit_runs_to_success_with_files(service: TestClient) -> None:
     assert job["attempts"] == 1 and job["progress"]["fraction"] == 1.0 and job["progress"]["step"] == 30
     assert job["started_at"] <= job["finished_at"]
     assert job["summary"]["steps"] == 30 and job["summary"]["bodies"][0]["name"] == "pipe"
-    assert "not design loads" in job["caution"]
+    assert job["caution"] == CAUTION and job["summary"]["caution"] == CAUTION
 
     files = {f["path"]: f for f in service.get(job["links"]["files"]).json()["files"]}
     assert {"forces.csv", "summary.json", "forces.png", "fields/flow.pvd", "fields.zip"} <= set(files)
@@ -33,10 +34,11 @@ def test_submit_runs_to_success_with_files(service: TestClient) -> None:
     assert len(list(csv.reader(io.StringIO(forces.text)))) == 31  # header + one row per step
     summary = service.get(files["summary.json"]["url"])
     assert summary.headers["content-type"] == "application/json"
-    assert json.loads(summary.content)["steps"] == 30
+    assert json.loads(summary.content)["steps"] == 30 and json.loads(summary.content)["caution"] == CAUTION
     assert service.get(files["forces.png"]["url"]).content[:4] == b"\x89PNG"
     archive = zipfile.ZipFile(io.BytesIO(service.get(files["fields.zip"]["url"]).content))
     assert "flow.pvd" in archive.namelist() and sum(n.endswith(".vtu") for n in archive.namelist()) == 4
+    assert " ".join(archive.read("CAUTION.txt").decode().split()) == f"Caution: {CAUTION}"
 
     health = service.get("/api/v1/health").json()
     assert health["status"] == "ok" and health["workers_seen"] >= 1

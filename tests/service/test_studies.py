@@ -22,14 +22,16 @@ from fastapi.testclient import TestClient
 from api.store import Job, Provenance, Store
 from api.studies import fluid_area
 from api.submission import spec_hash
+from solver.caution import CAUTION
 
 from .helpers import finished, wait_for
 from .test_cli import WAKEYARD, _free_port
 
+# the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a channel shortened to 1.0 (Re 20 at peak 0.3)
 STEADY: dict[str, Any] = {
-    "title": "pipe in a cooling duct (study test)", "channel": {"length": 1.0, "height": 0.41},
+    "title": "cylinder in a shortened 2D-1 channel (study test)", "channel": {"length": 1.0, "height": 0.41},
     "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-    "mesh": {"preset": "coarse", "scale": 2.0}}
+    "fluid": {"density": 1.0, "viscosity": 1e-3}, "mesh": {"preset": "coarse", "scale": 2.0}}
 
 
 def steady(title: str, **inflow: float) -> dict[str, Any]:
@@ -54,7 +56,10 @@ def wait_study(client: TestClient, study_id: str, timeout: float = 60.0) -> dict
 
 
 def rows(text: str) -> list[dict[str, str]]:
-    return list(csv.DictReader(io.StringIO(text)))
+    """The table's rows after its first line, the caution as a ``#`` comment."""
+    caution, _, table = text.partition("\n")
+    assert caution == f"# Caution: {CAUTION}"
+    return list(csv.DictReader(io.StringIO(table)))
 
 
 def test_sweep_runs_every_point_with_table_and_plot(service: TestClient) -> None:
@@ -66,7 +71,8 @@ def test_sweep_runs_every_point_with_table_and_plot(service: TestClient) -> None
     assert study["state"] == "succeeded" and study["progress"] == 1.0 and study["kind"] == "sweep"
     assert [p["job"] for p in study["points"]] == created["jobs"]
     assert [p["values"] for p in study["points"]] == [{"inflow.peak_velocity": v} for v in (0.2, 0.3, 0.45)]
-    assert "not design loads" in study["caution"] and "convergence" not in study
+    assert study["caution"] == CAUTION and "convergence" not in study
+    assert study["units"] == {"inflow.peak_velocity": "m/s", "pipe.cd": "1", "pipe.cl": "1"}
     job = service.get(f"/api/v1/jobs/{created['jobs'][1]}").json()
     assert job["study"] == created["id"] and job["spec"]["inflow"]["peak_velocity"] == 0.3
     assert job["summary"]["reynolds_number"] == pytest.approx(20.0)
@@ -74,10 +80,10 @@ def test_sweep_runs_every_point_with_table_and_plot(service: TestClient) -> None
     table = service.get(study["links"]["table"])
     assert table.headers["content-type"].startswith("text/csv")
     got = rows(table.text)
-    assert list(got[0])[:5] == ["inflow.peak_velocity", "job", "state", "pipe.cd", "pipe.cl"]
-    assert [float(r["inflow.peak_velocity"]) for r in got] == [0.2, 0.3, 0.45]
+    assert list(got[0])[:5] == ["inflow.peak_velocity [m/s]", "job", "state", "pipe.cd [-]", "pipe.cl [-]"]
+    assert [float(r["inflow.peak_velocity [m/s]"]) for r in got] == [0.2, 0.3, 0.45]
     assert [r["job"] for r in got] == created["jobs"] and {r["state"] for r in got} == {"succeeded"}
-    cd = [float(r["pipe.cd"]) for r in got]
+    cd = [float(r["pipe.cd [-]"]) for r in got]
     assert cd[0] > cd[1] > cd[2] > 1.0  # viscous drag weighs less as the Reynolds number grows
     assert cd[1] == pytest.approx(study["points"][1]["summary"]["pipe.cd"])
 
@@ -156,11 +162,11 @@ def test_mesh_convergence_reports_order_extrapolation_and_gci(offline: TestClien
     assert cd["monotone"] is True and cd["gci_fine"] == pytest.approx(1.25 * fine_error / (5.5 + fine_error))
     assert study["convergence"]["pipe.cl"]["observed_order"] is None  # identical on every mesh: no order
     table = rows(offline.get(f"/api/v1/studies/{created['id']}/table.csv").text)
-    assert [r["mesh.refinements"] for r in table] == ["0", "1", "2"]
+    assert [r["mesh.refinements [-]"] for r in table] == ["0", "1", "2"]
 
 
 def test_identical_job_reuses_the_result_unless_fresh(service: TestClient) -> None:
-    spec = steady("pipe in a cooling duct (reuse test)", peak_velocity=0.35)
+    spec = steady("shortened 2D-1 cylinder (reuse test)", peak_velocity=0.35)
     first = wait_for(service, service.post("/api/v1/jobs", json=spec).json()["id"], finished)
     assert first["state"] == "succeeded" and first["reused_from"] is None
     r = service.post("/api/v1/jobs", json=spec)
@@ -180,7 +186,7 @@ def test_identical_job_reuses_the_result_unless_fresh(service: TestClient) -> No
     summary = service.get(f"/api/v1/jobs/{second['id']}/files/summary.json")
     assert summary.status_code == 200 and json.loads(summary.content)["title"] == spec["title"]
     assert service.post("/api/v1/jobs", json=spec).json()["reused_from"] == third["id"]
-    other = service.post("/api/v1/jobs", json=steady("pipe in a cooling duct (reuse test)", peak_velocity=0.36))
+    other = service.post("/api/v1/jobs", json=steady("shortened 2D-1 cylinder (reuse test)", peak_velocity=0.36))
     assert other.json()["state"] == "queued"
     assert service.post(f"/api/v1/jobs/{other.json()['id']}/cancel").json()["state"] in ("running", "cancelled")
 
@@ -210,9 +216,9 @@ def test_cli_study_waits_and_prints_the_table(http_url: str, tmp_path: Path) -> 
     assert done.returncode == 0, done.stderr
     study_id, *lines = done.stdout.splitlines()
     table = rows("\n".join(lines))
-    assert [(float(r["inflow.peak_velocity"]), r["state"]) for r in table] == [(0.25, "succeeded"),
-                                                                              (0.4, "succeeded")]
-    assert float(table[0]["pipe.cd"]) > float(table[1]["pipe.cd"])
+    assert [(float(r["inflow.peak_velocity [m/s]"]), r["state"]) for r in table] == [(0.25, "succeeded"),
+                                                                                    (0.4, "succeeded")]
+    assert float(table[0]["pipe.cd [-]"]) > float(table[1]["pipe.cd [-]"])
     assert f"study {study_id}: succeeded, 2 of 2 points finished" in done.stderr and "not design loads" in done.stderr
 
     spec.write_text(json.dumps({**sweep("bad", [0.1]), "vary": [{"path": "inflow.gust", "values": [0.1]}]}))

@@ -11,7 +11,9 @@ from fastapi.testclient import TestClient
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from api.app import WEB
 from api.auth import create_token
+from solver.caution import CAUTION
 
 from .helpers import TINY, tiny
 
@@ -142,6 +144,12 @@ def test_health_and_metrics_on_the_embedded_broker(offline: TestClient) -> None:
     assert offline.get("/api/v1/health").status_code == 200
     assert "wakeyard_healthy 1" in offline.get("/metrics").text
     assert "JobSpec" in offline.get("/openapi.json").json()["components"]["schemas"]
+
+
+def test_the_page_reads_the_one_caution_from_the_service(offline: TestClient) -> None:
+    assert offline.get("/api/v1/caution").json() == {"caution": CAUTION}
+    for page_file in WEB.iterdir():  # the page shows the service's text and has no wording of its own
+        assert "design loads" not in page_file.read_text(), page_file.name
 
 
 json_values = st.recursive(st.none() | st.booleans() | st.integers(-10**6, 10**6) | st.floats(allow_nan=False)

@@ -8,12 +8,17 @@ import numpy as np
 import pytest
 
 from solver import Cancelled, Diverged, run
+from solver.caution import CAUTION
 from solver.output import read_forces
+from solver.units import number_paths, unit_of
 
+# The cylinder and fluid of the 2D-1 benchmark (Schäfer & Turek 1996) in a channel shortened to 1.0: a cheap Re-20
+# case whose behaviour is well known; no published value is checked in this file.
 SMALL = {
-    "title": "pipe in a cooling duct (demo)",
+    "title": "cylinder in a shortened 2D-1 channel (test)",
     "channel": {"length": 1.0, "height": 0.41},
     "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+    "fluid": {"density": 1.0, "viscosity": 1e-3},
     "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2},
     "mesh": {"preset": "coarse", "scale": 2.0},
     "analysis": {"mode": "transient", "scheme": "bdf2-imex", "time_step": 0.01, "end_time": 0.3,
@@ -38,12 +43,25 @@ def test_transient_outputs(full_run):
     stats = summary["bodies"][0]["drag_coefficient"]
     assert set(stats) == {"mean", "min", "max", "amplitude", "rms"}
     assert stats["min"] <= stats["mean"] <= stats["max"]
-    assert summary["strouhal_number"] is None  # Re 20: no shedding
+    # Re 20: no shedding (common knowledge: a circular cylinder's wake stays steady below Re of about 47)
+    assert summary["strouhal_number"] is None
     assert sorted(p.name for p in (out / "fields").glob("*.vtu")) == [
         "step_000000.vtu", "step_000010.vtu", "step_000020.vtu", "step_000030.vtu"]
     assert len(list((out / "pictures").glob("vorticity_*.png"))) == 4
     assert (out / "forces.png").stat().st_size > 1000
     assert not (out / "checkpoint.npz").exists()
+
+
+def test_summary_carries_the_caution_and_a_unit_for_every_number(full_run):
+    out, summary = full_run
+    written = json.loads((out / "summary.json").read_text())
+    assert written["caution"] == summary["caution"] == CAUTION
+    units = written["units"]
+    missing = [p for p in number_paths({k: v for k, v in written.items() if k != "units"}) if unit_of(units, p) is None]
+    assert missing == []
+    assert unit_of(units, "pressure_drop.mean") == "Pa" and unit_of(units, "window.start") == "s"
+    assert unit_of(units, "time_step") == "s" and unit_of(units, "simulated_time") == "s"
+    assert unit_of(units, "bodies.0.drag_coefficient.mean") == "1" and unit_of(units, "reference.velocity") == "m/s"
 
 
 def test_cancel_keeps_partial_history_and_resume_gives_same_result(full_run, tmp_path):
@@ -91,9 +109,11 @@ def test_cli_exit_codes(tmp_path):
                                                   "time_step": 0.05, "end_time": 5.0}}))
     done = cli("run", str(diverging), "--out", str(tmp_path / "div"), "--quiet")
     assert done.returncode == 3 and "blew up" in done.stderr
+    assert " ".join(done.stderr.split()).endswith(f"Caution: {CAUTION}")  # the partial results are kept
 
     good = tmp_path / "good.json"
     good.write_text(json.dumps({**SMALL, "analysis": {**SMALL["analysis"], "end_time": 0.05}}))
     done = cli("run", str(good), "--out", str(tmp_path / "good"), "--quiet")
     assert done.returncode == 0, done.stderr
     assert (tmp_path / "good" / "summary.json").exists() and (tmp_path / "good" / "forces.csv").exists()
+    assert " ".join(done.stderr.split()) == f"Caution: {CAUTION}" and "Caution" not in done.stdout

@@ -3,8 +3,11 @@
 import pytest
 
 from solver import Limits, SpecError, check_limits, load
+from solver.spec import DEFAULT_POST
 
+# the cylinder and channel of the 2D-1 benchmark (Schäfer & Turek 1996), given explicitly: not the defaults
 CYLINDER = {"shape": "circle", "center": [0.2, 0.2], "radius": 0.05}
+CHANNEL = {"length": 2.2, "height": 0.41}
 
 
 def problems(data):
@@ -14,14 +17,18 @@ def problems(data):
 
 
 def test_three_line_spec_gets_defaults():
-    spec = load({"bodies": [CYLINDER]})
+    spec = load({"bodies": [{**DEFAULT_POST, "name": ""}]})
     assert spec.bodies[0].name == "body1"
-    assert spec.inflow.mean() == pytest.approx(0.2)  # 2/3 of the default peak 0.3
-    assert spec.reynolds() == pytest.approx(20.0)
+    # a 20 mm post in a 0.4 m x 0.1 m channel of water at 20 °C, mean speed 1 mm/s (2/3 of the default peak)
+    assert (spec.channel.length, spec.channel.height) == (0.4, 0.1)
+    assert spec.fluid.density == 998.2 and spec.viscosity() == 1.004e-6
+    assert spec.inflow.mean() == pytest.approx(0.001)
+    assert spec.reynolds() == pytest.approx(0.001 * 0.02 / 1.004e-6)  # 19.9
 
 
 def test_reynolds_number_sets_viscosity_from_reference_scales():
-    spec = load({"bodies": [CYLINDER], "fluid": {"reynolds": 100}, "inflow": {"peak_velocity": 1.5}})
+    spec = load({"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"reynolds": 100},
+                 "inflow": {"peak_velocity": 1.5}})
     assert spec.viscosity() == pytest.approx(1.0 * 0.1 / 100)
 
 
@@ -33,12 +40,12 @@ def test_time_law_amplitude_not_instant_value_sets_reference_velocity():
 
 
 @pytest.mark.parametrize(("data", "field", "words"), [
-    ({"bodies": [{**CYLINDER, "radius": -1}]}, "bodies.0.radius", "greater than 0"),
+    ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": -1}]}, "bodies.0.radius", "greater than 0"),
     ({"fluid": {"viscosity": 0}}, "fluid.viscosity", "greater than 0"),
     ({"analysis": {"time_step": -1e-3}}, "analysis.time_step", "greater than 0"),
-    ({"bodies": [{**CYLINDER, "radius": 0.3}]}, "bodies.0", "not strictly inside the channel"),
-    ({"bodies": [CYLINDER, {**CYLINDER, "center": [0.25, 0.2]}]}, "bodies.1", "overlaps"),
-    ({"bodies": [CYLINDER], "probes": {"pressure_drop": [[0.2, 0.2], [0.5, 0.2]]}},
+    ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": 0.3}]}, "bodies.0", "not strictly inside the channel"),
+    ({"channel": CHANNEL, "bodies": [CYLINDER, {**CYLINDER, "center": [0.25, 0.2]}]}, "bodies.1", "overlaps"),
+    ({"channel": CHANNEL, "bodies": [CYLINDER], "probes": {"pressure_drop": [[0.2, 0.2], [0.5, 0.2]]}},
      "probes.pressure_drop.0", "inside body"),
     ({"analysis": {"mode": "transient", "time_step": 0.1, "end_time": 0.01}}, "analysis.end_time", "shorter"),
     ({"colour": "red"}, "colour", "not permitted"),
@@ -48,9 +55,9 @@ def test_time_law_amplitude_not_instant_value_sets_reference_velocity():
      "bodies.0.points", "cross"),
     ({"fluid": {"viscosity": 1e-3, "reynolds": 100}}, "fluid", "not both"),
     ({"channel": {"length": "long"}}, "channel.length", "number"),
-    ({"bodies": [{**CYLINDER, "radius": 1e300}]}, "bodies.0.radius", "less than or equal"),
-    ({"bodies": [{**CYLINDER, "center": [1e300, 0.2]}]}, "bodies.0.center.0", "less than or equal"),
-    ({"bodies": [{**CYLINDER, "radius": 1e-9}]}, "bodies.0", "too small to mesh"),
+    ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": 1e300}]}, "bodies.0.radius", "less than or equal"),
+    ({"channel": CHANNEL, "bodies": [{**CYLINDER, "center": [1e300, 0.2]}]}, "bodies.0.center.0", "less than or equal"),
+    ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": 1e-9}]}, "bodies.0", "too small to mesh"),
 ])
 def test_bad_input_names_field(data, field, words):
     found = problems(data)
@@ -59,7 +66,7 @@ def test_bad_input_names_field(data, field, words):
 
 
 def test_limits_name_the_estimated_size():
-    spec = load({"bodies": [CYLINDER], "mesh": {"preset": "fine", "scale": 0.1}})
+    spec = load({"channel": CHANNEL, "bodies": [CYLINDER], "mesh": {"preset": "fine", "scale": 0.1}})
     with pytest.raises(SpecError) as err:
         check_limits(spec, Limits(max_dofs=100_000))
     field, message = err.value.problems[0]

@@ -2,8 +2,9 @@
 
 import pytest
 
-from solver import SpecError
+from solver import SpecError, load
 from solver.study import expand, summary_values
+from solver.units import labelled, number_paths, spec_unit, value_unit
 
 PIER = {"channel": {"length": 2.0, "height": 1.0},
         "bodies": [{"name": "pier", "shape": "rectangle", "center": [0.5, 0.5], "width": 0.1, "height": 0.1}]}
@@ -42,3 +43,25 @@ def test_summary_values_flatten_transient_statistics():
                "pressure_drop": {"mean": 2.0}, "strouhal_number": 0.2}
     assert summary_values(summary) == {"a.cd_mean": 1.0, "a.cd_amplitude": 0.1, "a.cl_mean": 0.0,
                                        "a.cl_amplitude": 0.5, "pressure_drop_mean": 2.0, "strouhal_number": 0.2}
+
+
+def test_every_numeric_spec_field_has_a_unit_for_study_axes():
+    full = load({"bodies": [
+        {"shape": "circle", "center": [0.05, 0.05], "radius": 0.005, "spin": 1.0},
+        {"shape": "rectangle", "center": [0.1, 0.05], "width": 0.01, "height": 0.01, "angle": 10,
+         "corner_radius": 0.001},
+        {"shape": "ellipse", "center": [0.15, 0.05], "width": 0.02, "height": 0.01, "angle": 5},
+        {"shape": "naca4", "code": "0012", "chord": 0.02, "leading_edge": [0.2, 0.05], "angle_of_attack": 4},
+        {"shape": "polygon", "points": [[0.3, 0.04], [0.32, 0.05], [0.3, 0.06]]}],
+        "fluid": {"reference": {"velocity": 0.001, "length": 0.01}},
+        "inflow": {"time_law": {"kind": "table", "points": [[0, 0.5], [1, 1.0]]}},
+        "mesh": {"body_size": 0.001, "wake_size": 0.002, "far_size": 0.01, "wake_length": 0.1},
+        "analysis": {"output_interval": 1.0, "until_periodic": {}},
+        "probes": {"pressure_drop": [[0.01, 0.05], [0.39, 0.05]], "velocity": [[0.2, 0.02]]}})
+    data = full.model_dump(mode="json")
+    assert [p for p in number_paths(data) if spec_unit(p) is None] == []
+    assert spec_unit("inflow.mean_velocity") == "m/s" and spec_unit("bodies.1.center.0") == "m"
+    assert spec_unit("fluid.viscosity") == "m^2/s" and spec_unit("bodies.0.angle") == "deg"
+    assert labelled("inflow.mean_velocity", "m/s") == "inflow.mean_velocity [m/s]"
+    assert labelled("pier.cd", value_unit("pier.cd")) == "pier.cd [-]"
+    assert value_unit("pressure_drop_mean") == "Pa" and labelled("x", None) == "x"

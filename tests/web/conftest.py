@@ -26,12 +26,13 @@ CHROMIUM = "/usr/bin/chromium"
 CHROMIUM_ARGS = ["--headless=new", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
                  "--disable-background-networking", "--disable-component-update", "--disable-sync"]
 
-# The small case of the tests: about a second of solving plus the pictures.
+# The small case of the tests: about a second of solving plus the pictures. The cylinder and fluid of the 2D-1
+# benchmark (Schäfer & Turek 1996) in a channel shortened to 1.0, a well-known Re-20 case (no published value used).
 TINY = {
-    "title": "Pipe in a cooling duct (browser test)",
+    "title": "Cylinder in a shortened 2D-1 channel (browser test)",
     "channel": {"length": 1.0, "height": 0.41},
     "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-    "fluid": {"viscosity": 0.001},
+    "fluid": {"density": 1.0, "viscosity": 0.001},
     "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2},
     "mesh": {"preset": "coarse", "scale": 2.0},
     "analysis": {"mode": "transient", "scheme": "bdf2-imex", "time_step": 0.01, "end_time": 0.3,

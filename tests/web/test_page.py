@@ -14,6 +14,9 @@ import re
 
 import pytest
 
+from solver import JobSpec
+from solver.caution import CAUTION
+
 from .conftest import TINY, shot, submit, wait_state
 
 pytestmark = pytest.mark.timeout(180)
@@ -64,7 +67,8 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
     page.locator("#new-shape").select_option("circle")
     page.locator("#add-body").click()
     expect(page.locator(".body-card")).to_have_count(1)
-    fill(page, "title", "Pipe in a cooling duct (form test)")
+    # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a shortened channel, typed in by hand
+    fill(page, "title", "Cylinder in a shortened 2D-1 channel (form test)")
     fill(page, "channel.length", 1.0)
     fill(page, "channel.height", 0.41)
     fill(page, "bodies.0.name", "pipe")
@@ -114,7 +118,8 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
     badge = page.locator("#job-heading .badge")
     expect(badge).to_have_attribute("data-state", re.compile("queued|running|succeeded"))
     expect(badge).to_have_attribute("data-state", "succeeded", timeout=90_000)
-    expect(page.locator(".caution")).to_contain_text("not design loads")
+    expect(badge).to_have_text("succeeded")  # the API's word, also in the queue's state filter
+    expect(page.locator(".caution")).to_have_text(f"Caution. {CAUTION}")
     summary = page.locator(".summary-table")
     expect(summary).to_contain_text("Reynolds number")
     expect(summary.locator("tr", has_text="Reynolds number").locator("td")).to_have_text("20")
@@ -214,10 +219,10 @@ def test_bad_values_show_their_errors_beside_the_fields(page, api) -> None:
     expect(summary).to_contain_text("Body 1 › radius")
     shot(page, "04-form-errors")
     # fixing a field clears its message; a cross-field problem lands on the body it names
-    fill(page, "bodies.0.radius", 0.05)
+    fill(page, "bodies.0.radius", 0.01)
     expect(radius_error).to_be_hidden()
     fill(page, "analysis.time_step", 0.01)
-    fill(page, "bodies.0.center.1", 0.39)
+    fill(page, "bodies.0.center.1", 0.095)  # the default post (r = 0.01) then crosses the 0.1 m wall
     page.locator("#submit-case").click()
     body_error = page.locator('[data-error-for="bodies.0"]')
     expect(body_error).to_contain_text("not strictly inside the channel")
@@ -300,20 +305,20 @@ def test_json_spec_round_trip_and_upload(page, base_url, tmp_path) -> None:
     box = page.locator("#spec-json")
     # copy puts the spec on the clipboard; paste reads one back into the form
     page.get_by_role("button", name="Copy").click()
-    page.wait_for_function("async () => (await navigator.clipboard.readText()).includes('cooling duct')")
+    page.wait_for_function("async () => (await navigator.clipboard.readText()).includes('water channel')")
     copied = json.loads(page.evaluate("navigator.clipboard.readText()"))
     assert copied == json.loads(box.input_value())
-    copied["bodies"][0]["center"] = [0.3, 0.15]
+    copied["bodies"][0]["center"] = [0.3, 0.06]
     page.evaluate("text => navigator.clipboard.writeText(text)", json.dumps(copied))
     page.get_by_role("button", name="Paste").click()
     expect(page.locator("#f-bodies-0-center-0")).to_have_value("0.3")
-    expect(page.locator("#f-bodies-0-center-1")).to_have_value("0.15")
+    expect(page.locator("#f-bodies-0-center-1")).to_have_value("0.06")
     spec = json.loads(box.input_value())
-    spec["bodies"][0]["radius"] = 0.08
+    spec["bodies"][0]["radius"] = 0.015
     spec["channel"]["walls"] = "slip"
     box.fill(json.dumps(spec))
     page.get_by_role("button", name="Apply JSON to form").click()
-    expect(page.locator("#f-bodies-0-radius")).to_have_value("0.08")
+    expect(page.locator("#f-bodies-0-radius")).to_have_value("0.015")
     expect(page.locator("#f-channel-walls")).to_have_value("slip")
     box.fill("{not json")
     page.get_by_role("button", name="Apply JSON to form").click()
@@ -340,11 +345,12 @@ def test_bodies_move_with_the_keyboard(page) -> None:
     body.focus()
     page.keyboard.press("ArrowRight")
     page.keyboard.press("Shift+ArrowUp")
-    expect(page.locator("#f-bodies-0-center-0")).to_have_value("0.205")
-    expect(page.locator("#f-bodies-0-center-1")).to_have_value("0.25")
+    # steps of 1/100 (Shift: 1/10) of the 0.1 m channel width, from the default post at (0.1, 0.05)
+    expect(page.locator("#f-bodies-0-center-0")).to_have_value("0.201")
+    expect(page.locator("#f-bodies-0-center-1")).to_have_value("0.06")
     # drag it with the mouse: 0.1 m to the right at the drawing's scale
     channel = page.locator(".case-svg .fluid-area").bounding_box()
-    per_metre = channel["width"] / 1.0
+    per_metre = channel["width"] / 0.4
     start = page.locator(".case-svg g.body path").first.bounding_box()
     x, y = start["x"] + start["width"] / 2, start["y"] + start["height"] / 2
     page.mouse.move(x, y)
@@ -352,8 +358,9 @@ def test_bodies_move_with_the_keyboard(page) -> None:
     page.mouse.move(x + 0.1 * per_metre, y, steps=8)
     page.mouse.up()
     moved = float(page.locator("#f-bodies-0-center-0").input_value())
-    assert moved == pytest.approx(0.305, abs=0.005)
-    assert float(page.locator("#f-bodies-0-center-1").input_value()) == pytest.approx(0.25, abs=0.005)
+    # within 0.002 m: the 0.005 m of the former 1 m long example channel, scaled to the 0.4 m one
+    assert moved == pytest.approx(0.301, abs=0.002)
+    assert float(page.locator("#f-bodies-0-center-1").input_value()) == pytest.approx(0.06, abs=0.002)
     # add and remove bodies of other shapes with the keyboard only
     page.locator("#new-shape").select_option("naca4")
     page.locator("#add-body").press("Enter")
@@ -478,8 +485,10 @@ def test_long_force_history_is_thinned_but_keeps_its_extremes(page) -> None:
 
 
 def test_study_view_shows_points_plot_and_links(page, api) -> None:
+    # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a shortened channel
     base = {"title": "Pier sweep (web test)", "channel": {"length": 1.0, "height": 0.41},
             "bodies": [{"name": "pier", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+            "fluid": {"density": 1.0, "viscosity": 1e-3},
             "mesh": {"preset": "coarse", "scale": 2.0}}
     r = api.post("/studies", json={"kind": "sweep", "base": base,
                                    "vary": [{"path": "inflow.peak_velocity", "values": [0.2, 0.3, 0.45]}]})
@@ -489,10 +498,11 @@ def test_study_view_shows_points_plot_and_links(page, api) -> None:
     rows = page.locator("table.study-points tbody tr")
     expect(rows).to_have_count(3)
     expect(page.locator("table.study-points .state-succeeded")).to_have_count(3, timeout=120_000)
-    expect(page.locator(".caution").first).to_contain_text("not design loads")
+    expect(page.locator(".caution").first).to_have_text(f"Caution. {CAUTION}")
     # the drag column falls as the velocity rises (Re 13 -> 30 steady cylinder in a channel)
     headers = page.locator("table.study-points thead th").all_inner_texts()
-    cd = [float(rows.nth(i).locator("td").nth(headers.index("pier.cd")).inner_text()) for i in range(3)]
+    assert headers[0] == "inflow.peak_velocity [m/s]"
+    cd = [float(rows.nth(i).locator("td").nth(headers.index("pier.cd [-]")).inner_text()) for i in range(3)]
     assert cd[0] > cd[1] > cd[2]
     page.wait_for_function("document.querySelector('img.study-plot')?.naturalWidth > 0")
     shot(page, "08-study-detail")
@@ -501,3 +511,21 @@ def test_study_view_shows_points_plot_and_links(page, api) -> None:
     page.goto("/#/studies")
     expect(page.locator("table.studies-table")).to_contain_text("Pier sweep (web test)")
     shot(page, "09-studies")
+
+
+def test_placeholders_drawing_and_footer_follow_the_service(page) -> None:
+    page.goto("/#/new")
+    # the page's copy of the spec defaults (placeholders, drawing fallbacks) is the solver's
+    defaults = page.evaluate("import('/defaults.js').then((m) => m.DEFAULTS)")
+    spec = JobSpec()
+    assert defaults["channel"] == {"length": spec.channel.length, "height": spec.channel.height,
+                                   "walls": spec.channel.walls}
+    assert defaults["fluid"] == {"density": spec.fluid.density, "viscosity": spec.viscosity()}
+    assert defaults["inflow"] == {"peak_velocity": spec.inflow.peak()}
+    assert defaults["analysis"] == {"newton_tolerance": spec.analysis.newton_tolerance}
+    circle = JobSpec.model_validate({"bodies": [{"shape": "circle"}]}).bodies[0]
+    assert defaults["circle"] == {"center": list(circle.center), "radius": circle.radius}
+    page.locator("#example").select_option("pier")
+    expect(page.locator("#f-analysis-newton_tolerance")).to_have_attribute("placeholder", "1e-8")
+    expect(page.locator("#f-channel-length")).to_have_attribute("placeholder", "0.4")
+    expect(page.locator("#caution-foot")).to_have_text(CAUTION)
