@@ -102,11 +102,14 @@ class _Attempt:
             state, error = "succeeded", None
         except solver.Cancelled as err:
             state, error = "cancelled", str(err)
+        except solver.InternalError as err:  # the message names the stage; the log keeps the traceback
+            log.exception("job %s failed in %s", self.job.id, err.stage)
+            state, error = "failed", str(err)
         except (solver.RunFailed, solver.SpecError) as err:
             state, error = "failed", str(err)
         except Exception as err:  # record every failure: a job must never stay "running" silently
             log.exception("job %s crashed", self.job.id)
-            state, error = "failed", f"internal error: {type(err).__name__}: {err}"
+            state, error = "failed", f"the worker failed: {type(err).__name__}: {err}"
         finally:
             self.done.set()
             beater.join()
