@@ -14,6 +14,8 @@ import re
 
 import pytest
 
+from tests.solver.test_post_processing import TANDEM
+
 from .conftest import TINY, shot, submit, wait_state
 
 pytestmark = pytest.mark.timeout(180)
@@ -501,3 +503,14 @@ def test_study_view_shows_points_plot_and_links(page, api) -> None:
     page.goto("/#/studies")
     expect(page.locator("table.studies-table")).to_contain_text("Pier sweep (web test)")
     shot(page, "09-studies")
+
+
+def test_a_quantity_not_computed_is_shown_with_its_reason(page, api) -> None:
+    job_id = submit(api, {**TANDEM, "title": "Tandem tubes, wake length undefined"})
+    job = wait_state(api, job_id, {"succeeded", "failed"}, timeout=150)
+    assert job["state"] == "succeeded", job["error"]
+    page.goto(f"/#/jobs/{job_id}")
+    row = page.locator(".summary-table tr", has_text="upstream: recirculation length (not computed)")
+    expect(row.locator("td")).to_contain_text("reaches downstream")
+    length = page.locator(".summary-table tr", has_text="upstream: recirculation length (m)")
+    expect(length.locator("td")).to_have_text("—")
