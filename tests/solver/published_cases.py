@@ -80,9 +80,11 @@ def free_stream(bodies: list[dict[str, Any]], reynolds: float, scale: float, *, 
             "analysis": analysis or {"mode": "steady"}}
 
 
-def circle(offset: float = 0.0, spin_ratio: float = 0.0) -> list[dict[str, Any]]:
-    """Cylinder of diameter 1 10 D behind the inlet; ``offset`` lifts it off the centre line to seed shedding."""
-    return [{"name": "cylinder", "shape": "circle", "center": [10.0, 10.0 + offset], "radius": 0.5,
+def circle(offset: float = 0.0, spin_ratio: float = 0.0, centre: tuple[float, float] = (10.0, 10.0)
+           ) -> list[dict[str, Any]]:
+    """Cylinder of diameter 1 (10 D behind the inlet of the 20 D wide channel by default); ``offset`` lifts it off
+    the centre line to seed shedding."""
+    return [{"name": "cylinder", "shape": "circle", "center": [centre[0], centre[1] + offset], "radius": 0.5,
              "spin": 2.0 * spin_ratio}]
 
 
