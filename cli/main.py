@@ -67,7 +67,7 @@ def _run(spec_path: Path, out: Path, quiet: bool) -> int:
 
     try:
         data = json.loads(spec_path.read_text())
-    except (OSError, json.JSONDecodeError) as err:
+    except (OSError, ValueError, RecursionError) as err:  # unreadable, not UTF-8, not JSON, nested too deep
         print(f"error: cannot read {spec_path}: {err}", file=sys.stderr)
         return 2
     try:

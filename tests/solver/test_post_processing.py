@@ -98,3 +98,14 @@ def test_cli_reports_a_failure_in_one_line_with_exit_code_3(tmp_path):
     assert done.stderr.strip().splitlines() == [done.stderr.strip()]  # one line
     assert done.stderr.startswith("run failed: writing result files failed: ") and "Traceback" not in done.stderr
 
+
+
+def test_cli_refuses_unreadable_specs_in_one_line_with_exit_code_2(tmp_path):
+    cases = {"deep.json": "[" * 100_000 + "]" * 100_000, "latin1.json": "{\"title\": \"caf\xe9\"}",
+             "list.json": "[1, 2]"}
+    for name, text in cases.items():
+        path = tmp_path / name
+        path.write_bytes(text.encode("latin-1"))
+        done = cli("run", str(path), "--out", str(tmp_path / "out"), "--quiet")
+        assert done.returncode == 2, (name, done.stderr)
+        assert "Traceback" not in done.stderr and len(done.stderr.strip().splitlines()) == 1, (name, done.stderr)
