@@ -50,7 +50,8 @@ SQUARE_CHANNEL_RE100 = {"strouhal": 0.139, "cd_mean": 1.40}
 # NACA 0012 at Re = 1000 (chord, free stream), two-dimensional laminar: Kurtulus (2015, Int. J. Micro Air
 # Vehicles 7:301). Read (abstract): the flow becomes unsteady at about 8 degrees, so 5 degrees is steady.
 # Lift 0.20 and drag 0.13 at 5 degrees are recalled from the paper's force figures (from memory). The recalled
-# lift is doubtful: the bench's mesh sequence converges towards about 0.24, so read the source before using it.
+# lift is doubtful: the bench's mesh sequence converges to 0.246 (drag 0.128), so read the source before using
+# it (0.20 would fit 4 degrees rather than 5).
 NACA0012_RE1000_AOA5 = {"cl": 0.20, "cd": 0.13}
 
 # Onset of shedding behind a circular cylinder: Provansal, Mathis & Boyer (1987, J. Fluid Mech. 182:1) and
