@@ -70,7 +70,7 @@ def _run(spec_path: Path, out: Path, quiet: bool) -> int:
 
     try:
         data = json.loads(spec_path.read_text())
-    except (OSError, json.JSONDecodeError) as err:
+    except (OSError, ValueError, RecursionError) as err:  # unreadable, not UTF-8, not JSON, nested too deep
         print(f"error: cannot read {spec_path}: {err}", file=sys.stderr)
         return 2
     try:
@@ -93,16 +93,17 @@ def _run(spec_path: Path, out: Path, quiet: bool) -> int:
 
     try:
         summary = solver.run(spec, out, progress=progress)
-    except solver.RunFailed as err:
+    except Exception as err:  # every failure is exit code 3 with one line, never a traceback
         if bar is not None:
             bar.close()
-        print(f"run failed: {err}", file=sys.stderr)
+        reason = str(err) if isinstance(err, solver.RunFailed) else f"{type(err).__name__}: {err}"
+        print(f"run failed: {reason}", file=sys.stderr)
         print("\n".join(caution_lines()), file=sys.stderr)  # partial results stay in the folder
         return 3
     if bar is not None:
         bar.n = 1000
         bar.close()
     print("\n".join(caution_lines()), file=sys.stderr)
-    print(json.dumps({k: summary[k] for k in ("bodies", "strouhal_number", "pressure_drop", "mesh",
+    print(json.dumps({k: summary[k] for k in ("bodies", "strouhal_number", "pressure_drop", "mesh", "unavailable",
                                                "wall_time_seconds") if k in summary}, indent=2))
     return 0

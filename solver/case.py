@@ -28,7 +28,9 @@ class Case:
     coefficient_scale: dict[str, float]
     pressure_probes: sp.csr_matrix | None
     velocity_probes: sp.csr_matrix | None
+    velocity_found: np.ndarray
     timings: dict[str, float] = field(default_factory=dict)
+    unavailable: dict[str, str] = field(default_factory=dict)
 
     @classmethod
     def build(cls, spec: JobSpec) -> Case:
@@ -40,12 +42,25 @@ class Case:
         rho, U = spec.fluid.density, spec.reference_velocity()
         forces = BodyForces(ns, body_dofs(th, cm, spec), rho)
         scale = {b.name: 2.0 / (rho * U**2 * spec.reference_length(i)) for i, b in enumerate(spec.bodies)}
-        dp = spec.probes.pressure_drop
-        pressure = probe_matrix(th.pressure, cm.parent, np.array(dp).T) if dp else None
-        vel = spec.probes.velocity
-        velocity = probe_matrix(th.velocity, cm.parent, np.array(vel).T) if vel else None
+        unavailable: dict[str, str] = {}
+        pressure = None
+        if spec.probes.pressure_drop:
+            points = np.array(spec.probes.pressure_drop).T
+            matrix, found = probe_matrix(th.pressure, cm.parent, points)
+            if found.all():
+                pressure = matrix
+            else:
+                unavailable["pressure_drop"] = _outside(points[:, ~found])
+        velocity, velocity_found = None, np.zeros(len(spec.probes.velocity), dtype=bool)
+        if spec.probes.velocity:
+            points = np.array(spec.probes.velocity).T
+            matrix, velocity_found = probe_matrix(th.velocity, cm.parent, points)
+            velocity = matrix[velocity_found] if velocity_found.any() else None
+            for k in np.nonzero(~velocity_found)[0]:
+                unavailable[f"velocity_probes.{k}"] = _outside(points[:, [k]])
         t2 = time.perf_counter()
-        return cls(spec, cm, th, ns, forces, scale, pressure, velocity, {"mesh": t1 - t0, "setup": t2 - t1})
+        return cls(spec, cm, th, ns, forces, scale, pressure, velocity, velocity_found,
+                   {"mesh": t1 - t0, "setup": t2 - t1}, unavailable)
 
     @property
     def cells(self) -> int:
@@ -66,8 +81,15 @@ class Case:
         return row
 
     def columns(self) -> list[str]:
+        """forces.csv header; a probe point outside the fluid has no columns (summary.json says why)."""
         return force_columns([b.name for b in self.spec.bodies], self.pressure_probes is not None,
-                             len(self.spec.probes.velocity))
+                             [k + 1 for k in np.nonzero(self.velocity_found)[0]])
+
+    def velocity_probe_values(self, row: list[float]) -> list[list[float] | None]:
+        """Probe velocities ``[ux, uy]`` from a forces row, ``None`` for a point outside the fluid."""
+        found = int(self.velocity_found.sum())
+        values = iter(np.reshape(row[len(row) - 2 * found:], (-1, 2)).tolist() if found else [])
+        return [next(values) if ok else None for ok in self.velocity_found]
 
     def cfl(self, x: np.ndarray, dt: float) -> float:
         """Largest |u| dt / h over the cells, h the cell's shortest edge divided by the velocity degree."""
@@ -78,3 +100,8 @@ class Case:
         ux, uy, _ = self.th.split(x)
         speed = np.hypot(ux, uy)[self.th.velocity.element_dofs].max(axis=0)
         return float((speed * dt * degree / edges).max())
+
+
+def _outside(points: np.ndarray) -> str:
+    where = ", ".join(f"({x:g}, {y:g})" for x, y in points.T)
+    return f"probe point {where} is not in the fluid (inside a body or off the mesh): no value"

@@ -29,3 +29,11 @@ class WallTimeExceeded(RunFailed):
 
 class Cancelled(RunFailed):
     """Someone asked the run to stop."""
+
+
+class InternalError(RunFailed):
+    """An unexpected exception inside a run; ``stage`` names the part of the run it came from."""
+
+    def __init__(self, stage: str, message: str):
+        self.stage = stage
+        super().__init__(f"{stage} failed: {message}")

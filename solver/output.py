@@ -36,13 +36,13 @@ def _plain(value: Any) -> Any:
     raise TypeError(f"cannot write {type(value).__name__} to JSON")
 
 
-def force_columns(body_names: list[str], pressure_drop: bool, velocity_probes: int = 0) -> list[str]:
-    """forces.csv header: time, four columns per body, the pressure drop, then probe velocities."""
+def force_columns(body_names: list[str], pressure_drop: bool, velocity_probes: list[int] | None = None) -> list[str]:
+    """forces.csv header: time, four columns per body, the pressure drop, then velocities of the numbered probes."""
     cols = ["time"]
     for name in body_names:
         cols += [f"{name}_fx", f"{name}_fy", f"{name}_cd", f"{name}_cl"]
     cols += ["pressure_drop"] if pressure_drop else []
-    for k in range(1, velocity_probes + 1):
+    for k in velocity_probes or []:
         cols += [f"probe{k}_ux", f"probe{k}_uy"]
     return cols
 

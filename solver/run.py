@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+import logging
 import math
 import time
 from collections.abc import Callable
@@ -15,14 +16,17 @@ import numpy as np
 from . import analysis, output, pictures
 from .case import Case
 from .caution import CAUTION
-from .errors import Cancelled, Diverged, WallTimeExceeded
-from .probes import probe_matrix
+from .errors import Cancelled, Diverged, InternalError, RunFailed, WallTimeExceeded
+from .recirculation import recirculation_length
 from .spec import JobSpec, load
+from .stages import failed_stage
 from .steady import solve_steady
 from .transient import Stepper
 from .units import summary_units
 
 MAX_PICTURES = 12
+
+log = logging.getLogger(__name__)
 
 
 @dataclass
@@ -51,12 +55,18 @@ def run(spec: JobSpec | dict[str, Any], out: str | Path, *, progress: ProgressCa
     ``resume``, continues from the last checkpoint in ``out``. status.json
     always tells how the run ended. Returns the summary.
 
+    A derived quantity that cannot be computed (a recirculation length that
+    runs into another body, a probe point outside the fluid, the pictures) is
+    ``null`` in the summary, with the reason under ``unavailable``: it never
+    fails a finished solve.
+
     Raises
     ------
     SpecError
         Invalid spec (nothing is written).
     RunFailed
         Diverged, WallTimeExceeded or Cancelled; partial results stay in ``out``.
+        Any unexpected exception becomes an InternalError naming the stage it came from.
     """
     spec = load(spec)
     out = Path(out)
@@ -71,6 +81,7 @@ def run(spec: JobSpec | dict[str, Any], out: str | Path, *, progress: ProgressCa
             summary = _steady(case, out, progress)
         else:
             summary = _Transient(case, out, progress, should_stop, deadline, resume).run()
+        summary["unavailable"] = dict(case.unavailable)
         summary["wall_time_seconds"] = time.perf_counter() - started
         summary.update(caution=CAUTION, units=summary_units(summary))
         output.write_json(out / "summary.json", summary)
@@ -79,9 +90,13 @@ def run(spec: JobSpec | dict[str, Any], out: str | Path, *, progress: ProgressCa
     except Cancelled as err:
         output.write_json(out / "status.json", {"state": "cancelled", "message": str(err)})
         raise
-    except Exception as err:
+    except RunFailed as err:
         output.write_json(out / "status.json", {"state": "failed", "message": str(err) or type(err).__name__})
         raise
+    except Exception as err:
+        failure = InternalError(failed_stage(err), f"{type(err).__name__}: {err}")
+        output.write_json(out / "status.json", {"state": "failed", "message": str(failure)})
+        raise failure from err
 
 
 def _common_summary(case: Case) -> dict[str, Any]:
@@ -107,14 +122,18 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
     row = case.force_row(0.0, x, case.ns.convection(x), None)
     output.write_forces(out / "forces.csv", case.columns(), [row])
     summary = _common_summary(case)
-    summary["bodies"] = [{"name": b.name, "fx": row[1 + 4 * i], "fy": row[2 + 4 * i],
-                          "drag_coefficient": row[3 + 4 * i], "lift_coefficient": row[4 + 4 * i],
-                          "recirculation_length": _recirculation_length(case, x, i)}
-                         for i, b in enumerate(spec.bodies)]
+    summary["bodies"] = []
+    for i, b in enumerate(spec.bodies):
+        length, reason = recirculation_length(case, x, i)
+        if reason:
+            case.unavailable[f"bodies.{i}.recirculation_length"] = reason
+        summary["bodies"].append({"name": b.name, "fx": row[1 + 4 * i], "fy": row[2 + 4 * i],
+                                  "drag_coefficient": row[3 + 4 * i], "lift_coefficient": row[4 + 4 * i],
+                                  "recirculation_length": length})
     nb = 1 + 4 * len(spec.bodies)
     summary["pressure_drop"] = row[nb] if case.pressure_probes is not None else None
-    if case.velocity_probes is not None:
-        summary["velocity_probes"] = np.reshape(row[-2 * len(spec.probes.velocity):], (-1, 2)).tolist()
+    if spec.probes.velocity:
+        summary["velocity_probes"] = case.velocity_probe_values(row)
     summary["newton"] = {"iterations": newton.iterations, "residual": newton.residual,
                          "continuation": newton.continuation_steps}
     t1 = time.perf_counter()
@@ -124,24 +143,17 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
     return summary
 
 
-def _recirculation_length(case: Case, x: np.ndarray, body: int) -> float:
-    """Length of the reversed-flow zone behind a body along its centre line (0 when there is none)."""
-    b = case.spec.bodies[body]
-    pts = b.outline()
-    x_back, y_c = float(pts[:, 0].max()), float(b.reference_point()[1])
-    xs = np.linspace(x_back, case.spec.channel.length, 2000)[1:]
-    ux = probe_matrix(case.th.velocity, case.mesh.parent, np.vstack([xs, np.full_like(xs, y_c)])) @ case.th.split(x)[0]
-    if ux[0] >= 0:
-        return 0.0
-    i = int(np.argmax(ux >= 0))
-    if ux[i] < 0:
-        return float(xs[-1] - x_back)
-    x_r = xs[i - 1] - ux[i - 1] * (xs[i] - xs[i - 1]) / (ux[i] - ux[i - 1])
-    return float(x_r - x_back)
-
-
 def _pictures(case: Case, out: Path, steps: list[int]) -> None:
-    """Field pictures of up to MAX_PICTURES saved snapshots, one colour scale for the whole run."""
+    """Field pictures of up to MAX_PICTURES saved snapshots; a failure is recorded, never raised (the solve is done)."""
+    try:
+        _draw_pictures(case, out, steps)
+    except Exception as err:
+        case.unavailable["pictures"] = f"the field pictures could not be drawn: {type(err).__name__}: {err}"
+        log.warning("%s: %s", out, case.unavailable["pictures"])
+
+
+def _draw_pictures(case: Case, out: Path, steps: list[int]) -> None:
+    """One colour scale for the whole run."""
     steps = sorted(set(steps))
     pick = np.unique(np.linspace(0, len(steps) - 1, min(MAX_PICTURES, len(steps))).round().astype(int))
     loaded = [np.load(out / "fields" / f"step_{steps[i]:06d}.npz") for i in pick]

@@ -42,6 +42,9 @@ export function summaryRows(job) {
     rows.push(["Pressure drop Δp mean (Pa)", num(stat(s.pressure_drop, "mean"), 5)]);
     if (typeof s.pressure_drop === "object") rows.push(["Pressure drop Δp amplitude (Pa)", num(s.pressure_drop.amplitude, 4)]);
   }
+  for (const [key, reason] of Object.entries(s.unavailable ?? {})) {
+    rows.push([`${unavailableLabel(key, s.bodies)} (not computed)`, reason]);
+  }
   rows.push(["Mesh cells", integer(s.mesh?.cells)]);
   rows.push(["Unknowns (DoFs)", integer(s.mesh?.dofs)]);
   if (transient) {
@@ -52,6 +55,13 @@ export function summaryRows(job) {
   } else if (s.newton) rows.push(["Newton iterations", integer(s.newton.iterations)]);
   rows.push(["Run time", duration(s.wall_time_seconds)]);
   return rows;
+}
+
+/** A summary path such as "bodies.0.recirculation_length" in words: "upstream: recirculation length". */
+function unavailableLabel(key, bodies) {
+  const m = /^bodies\.(\d+)\.(.+)$/.exec(key);
+  const what = (m ? m[2] : key).replace(/\.(\d+)$/, (_, k) => ` ${Number(k) + 1}`).replaceAll("_", " ");
+  return m && bodies?.[Number(m[1])] ? `${bodies[Number(m[1])].name}: ${what}` : what;
 }
 
 export function summaryTable(job) {

@@ -118,6 +118,9 @@ class _Attempt:
             state, error = "succeeded", None
         except solver.Cancelled as err:
             state, error = "cancelled", str(err)
+        except solver.InternalError as err:  # the message names the stage; the log keeps the traceback
+            log.exception("job %s failed in %s", self.job.id, err.stage)
+            state, error = "failed", str(err)
         except (solver.RunFailed, solver.SpecError) as err:
             state, error = "failed", str(err)
         except Exception as err:  # record every failure: a job must never stay "running" silently
@@ -148,4 +151,4 @@ def _unexpected(job_id: str, err: Exception) -> str:
         return (f"the results could not be written: the data folder's disk is full ({err}); free space (delete "
                 "jobs no longer needed), then run the job again")
     log.exception("job %s crashed", job_id)
-    return f"internal error: {type(err).__name__}: {err}"
+    return f"the worker failed: {type(err).__name__}: {err}"

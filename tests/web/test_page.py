@@ -16,6 +16,7 @@ import pytest
 
 from solver import JobSpec
 from solver.caution import CAUTION
+from tests.solver.test_post_processing import TANDEM
 
 from .conftest import TINY, shot, submit, wait_state
 
@@ -529,3 +530,14 @@ def test_placeholders_drawing_and_footer_follow_the_service(page) -> None:
     expect(page.locator("#f-analysis-newton_tolerance")).to_have_attribute("placeholder", "1e-8")
     expect(page.locator("#f-channel-length")).to_have_attribute("placeholder", "0.4")
     expect(page.locator("#caution-foot")).to_have_text(CAUTION)
+
+
+def test_a_quantity_not_computed_is_shown_with_its_reason(page, api) -> None:
+    job_id = submit(api, {**TANDEM, "title": "Tandem tubes, wake length undefined"})
+    job = wait_state(api, job_id, {"succeeded", "failed"}, timeout=150)
+    assert job["state"] == "succeeded", job["error"]
+    page.goto(f"/#/jobs/{job_id}")
+    row = page.locator(".summary-table tr", has_text="upstream: recirculation length (not computed)")
+    expect(row.locator("td")).to_contain_text("reaches downstream")
+    length = page.locator(".summary-table tr", has_text="upstream: recirculation length (m)")
+    expect(length.locator("td")).to_have_text("—")
