@@ -13,18 +13,17 @@ from pathlib import Path
 import httpx
 import sqlalchemy
 
-from .conftest import POSTGRES_URL
 from .helpers import tiny
 from .test_cli import WAKEYARD, _free_port
 
 
-def test_a_table_lock_does_not_stall_other_requests(tmp_path: Path) -> None:
+def test_a_table_lock_does_not_stall_other_requests(tmp_path: Path, postgres_url: str) -> None:
     schema = f"wakeyard_lock_{os.getpid()}"
-    admin = sqlalchemy.create_engine(POSTGRES_URL)
+    admin = sqlalchemy.create_engine(postgres_url)
     with admin.begin() as conn:
         conn.execute(sqlalchemy.text(f"CREATE SCHEMA {schema}"))
     port, log = _free_port(), tmp_path / "serve.log"
-    env = {**os.environ, "WAKEYARD_DATABASE_URL": f"{POSTGRES_URL}?options=-csearch_path%3D{schema}"}
+    env = {**os.environ, "WAKEYARD_DATABASE_URL": f"{postgres_url}?options=-csearch_path%3D{schema}"}
     proc = subprocess.Popen([*WAKEYARD, "serve", "--port", str(port), "--data", str(tmp_path), "--workers", "0"],
                             env=env, stdout=log.open("w"), stderr=subprocess.STDOUT, start_new_session=True)
     try:
