@@ -34,7 +34,7 @@ EXAMPLES = all_examples()
 
 def test_the_examples_are_found():
     assert len([k for k in EXAMPLES if k.startswith("examples/")]) >= 3
-    assert {"web:pipe", "web:pier", "web:tubes", "web:vane"} <= set(EXAMPLES)
+    assert {"web:post", "web:pier", "web:rods", "web:vane"} <= set(EXAMPLES)
 
 
 @pytest.mark.parametrize("name", sorted(EXAMPLES))

@@ -86,9 +86,12 @@ def test_step_limit():
 
 
 @pytest.mark.parametrize(("data", "field", "words"), [
-    ({"bodies": [CYLINDER], "fluid": {"reynolds": 4.9e-324}}, "fluid.reynolds", "greater than or equal to 0.000001"),
-    ({"bodies": [CYLINDER], "fluid": {"viscosity": 5e-324}}, "fluid.viscosity", "Reynolds number U L / ν = inf"),
-    ({"bodies": [CYLINDER], "fluid": {"reynolds": 1e-6, "reference": {"velocity": 1e4}}}, "fluid.reynolds",
+    ({"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"reynolds": 4.9e-324}}, "fluid.reynolds",
+     "greater than or equal to 0.000001"),
+    ({"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"viscosity": 5e-324}}, "fluid.viscosity",
+     "Reynolds number U L / ν = inf"),
+    ({"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"reynolds": 1e-6, "reference": {"velocity": 1e4}}},
+     "fluid.reynolds",
      "kinematic viscosity of 1e+09 m²/s, over the limit of 1e+06"),
     ({"inflow": {"time_law": {"kind": "table", "points": [[0, 0], [1, 0]]}}}, "inflow.time_law",
      "nominal velocity is zero"),
