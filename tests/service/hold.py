@@ -29,7 +29,7 @@ class Hold:
     def environment(self) -> dict[str, str]:
         self.folder.mkdir(parents=True, exist_ok=True)
         (self.folder / "sitecustomize.py").write_text("from tests.service import hold\n\nhold.install()\n")
-        path = os.pathsep.join([str(self.folder), str(ROOT), os.environ.get("PYTHONPATH", "")])
+        path = os.pathsep.join(filter(None, [str(self.folder), str(ROOT), os.environ.get("PYTHONPATH")]))
         return {FOLDER_VARIABLE: str(self.folder), STEP_VARIABLE: str(self.step), "PYTHONPATH": path}
 
     def wait_held(self, timeout: float = 120.0) -> dict[str, int]:
