@@ -48,8 +48,12 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         reaper.close()
         dispatch.close()
 
-    app = FastAPI(title="wakeyard", version=solver.__version__, lifespan=lifespan,
-                  description=f"Queued 2D incompressible flow simulations. Caution: {CAUTION}")
+    app = FastAPI(
+        title="wakeyard",
+        version=solver.__version__,
+        lifespan=lifespan,
+        description=f"Queued 2D incompressible flow simulations. Caution: {CAUTION}",
+    )
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
     app.state.reaper, app.state.reserve = reaper, reserve
     app.add_exception_handler(SpecProblems, spec_problems_handler)

@@ -51,6 +51,7 @@ async def current_user(request: Request) -> User:
     if required is None:
         required = await run_in_threadpool(store.tokens_required)
     if required:
-        raise HTTPException(401, "this service needs a token: Authorization: Bearer <token>",
-                            headers={"WWW-Authenticate": "Bearer"})
+        raise HTTPException(
+            401, "this service needs a token: Authorization: Bearer <token>", headers={"WWW-Authenticate": "Bearer"}
+        )
     return User(LOCAL_USER, True)

@@ -30,10 +30,16 @@ class Health:
         return not self.problems
 
     def body(self) -> dict[str, Any]:
-        return {"status": "ok" if self.ok else "degraded", "problems": self.problems, "database": self.database,
-                "broker": self.broker, "queue_depth": self.counts.get("queued", 0),
-                "running": self.counts.get("running", 0), "workers_seen": self.workers_seen,
-                "free_disk_bytes": self.free_disk_bytes}
+        return {
+            "status": "ok" if self.ok else "degraded",
+            "problems": self.problems,
+            "database": self.database,
+            "broker": self.broker,
+            "queue_depth": self.counts.get("queued", 0),
+            "running": self.counts.get("running", 0),
+            "workers_seen": self.workers_seen,
+            "free_disk_bytes": self.free_disk_bytes,
+        }
 
 
 def check(settings: Settings, store: Store, celery: Celery) -> Health:
@@ -47,8 +53,9 @@ def check(settings: Settings, store: Store, celery: Celery) -> Health:
         health.problems.append(f"the job store does not answer ({type(err).__name__})")
     queued = health.counts.get("queued", 0)
     if queued and health.workers_seen == 0:
-        health.problems.append(f"{queued} job(s) queued and no worker process seen in the last "
-                               f"{settings.lease_seconds:g} s")
+        health.problems.append(
+            f"{queued} job(s) queued and no worker process seen in the last {settings.lease_seconds:g} s"
+        )
     try:
         with celery.connection_for_write() as conn:
             conn.ensure_connection(max_retries=1, timeout=2)
@@ -61,6 +68,8 @@ def check(settings: Settings, store: Store, celery: Celery) -> Health:
         health.problems.append(f"cannot read the free space of the data folder: {err.strerror}")
     else:
         if health.free_disk_bytes < settings.min_free_bytes:
-            health.problems.append(f"only {health.free_disk_bytes / 2**20:.0f} MiB free in the data folder, below "
-                                   f"{settings.min_free_mb:.0f} MiB: new jobs are refused until space is freed")
+            health.problems.append(
+                f"only {health.free_disk_bytes / 2**20:.0f} MiB free in the data folder, below "
+                f"{settings.min_free_mb:.0f} MiB: new jobs are refused until space is freed"
+            )
     return health

@@ -33,8 +33,9 @@ class BodyLimit:
             try:
                 message = await asyncio.wait_for(receive(), max(0.0, deadline - time.monotonic()))
             except TimeoutError:
-                raise SpecProblems([("(body)", f"request body: not received within {self.max_seconds:g} s")],
-                                   status=408) from None
+                raise SpecProblems(
+                    [("(body)", f"request body: not received within {self.max_seconds:g} s")], status=408
+                ) from None
             complete = message["type"] != "http.request" or not message.get("more_body", False)
             seen += len(message.get("body", b""))
             if seen > self.max_bytes:  # the same problem shape as the refusal on Content-Length

@@ -30,8 +30,10 @@ async def spec_problems_handler(_: Request, exc: Exception) -> JSONResponse:
     return JSONResponse({"detail": [{"field": f, "message": m} for f, m in exc.problems]}, status_code=exc.status_code)
 
 
-DISK_FULL = ("the data folder's disk is full: nothing new can be stored until space is freed (delete jobs that are "
-             "no longer needed)")
+DISK_FULL = (
+    "the data folder's disk is full: nothing new can be stored until space is freed (delete jobs that are "
+    "no longer needed)"
+)
 
 
 async def disk_full_handler(_: Request, exc: Exception) -> JSONResponse:

@@ -61,7 +61,8 @@ class Reaper:
         cutoff = datetime.now() - timedelta(hours=1)  # the transport stores local naive times
         try:
             with self.broker_db.begin() as conn:
-                conn.execute(text("DELETE FROM kombu_message WHERE visible = 0 AND timestamp < :cutoff"),
-                             {"cutoff": cutoff})
+                conn.execute(
+                    text("DELETE FROM kombu_message WHERE visible = 0 AND timestamp < :cutoff"), {"cutoff": cutoff}
+                )
         except OperationalError:  # no message table until the first message is sent
             log.debug("no broker table to prune yet")

@@ -20,8 +20,15 @@ router = APIRouter(prefix="/api/v1/jobs", tags=["files"])
 ARCHIVE = "fields.zip"
 ARCHIVE_NOTE = "CAUTION.txt"  # the caution travels inside the archive with the fields
 HIDDEN = {"checkpoint.npz"}  # the solver's restart state, not a result
-TYPES = {".csv": "text/csv", ".json": "application/json", ".png": "image/png", ".vtu": "application/xml",
-         ".pvd": "application/xml", ".npz": "application/octet-stream", ".zip": "application/zip"}
+TYPES = {
+    ".csv": "text/csv",
+    ".json": "application/json",
+    ".png": "image/png",
+    ".vtu": "application/xml",
+    ".pvd": "application/xml",
+    ".npz": "application/octet-stream",
+    ".zip": "application/zip",
+}
 
 
 def _content_type(path: str) -> str:
@@ -42,8 +49,12 @@ BAD_PATH = (OSError, RuntimeError, ValueError)
 def _shown(folder: Path, path: Path) -> bool:
     """A result file: a regular file really inside ``folder`` (no symlink out), not hidden or internal."""
     try:
-        return path.is_file() and path.resolve().is_relative_to(folder) and path.name not in HIDDEN and not any(
-            part.startswith(".") for part in path.relative_to(folder).parts)
+        return (
+            path.is_file()
+            and path.resolve().is_relative_to(folder)
+            and path.name not in HIDDEN
+            and not any(part.startswith(".") for part in path.relative_to(folder).parts)
+        )
     except BAD_PATH:
         return False
 
@@ -63,9 +74,15 @@ def _field_files(folder: Path) -> list[Path]:
 def list_files(request: Request, job_id: str, _: Annotated[User, Depends(current_user)]) -> dict[str, Any]:
     folder = _folder(request, job_id)
     base = f"/api/v1/jobs/{job_id}/files"
-    files = [{"path": p.relative_to(folder).as_posix(), "size": p.stat().st_size,
-              "content_type": _content_type(p.name), "url": f"{base}/{p.relative_to(folder).as_posix()}"}
-             for p in _visible(folder)]
+    files = [
+        {
+            "path": p.relative_to(folder).as_posix(),
+            "size": p.stat().st_size,
+            "content_type": _content_type(p.name),
+            "url": f"{base}/{p.relative_to(folder).as_posix()}",
+        }
+        for p in _visible(folder)
+    ]
     if _field_files(folder):
         files.append({"path": ARCHIVE, "size": None, "content_type": "application/zip", "url": f"{base}/{ARCHIVE}"})
     return {"files": files, "caution": CAUTION}
@@ -98,8 +115,11 @@ def _archive(folder: Path, job_id: str) -> StreamingResponse:
         for p in files:
             zf.write(p, p.relative_to(folder / "fields").as_posix())
     spool.seek(0)
-    return StreamingResponse(_chunks(spool), media_type="application/zip",
-                             headers={"Content-Disposition": f'attachment; filename="{job_id}-fields.zip"'})
+    return StreamingResponse(
+        _chunks(spool),
+        media_type="application/zip",
+        headers={"Content-Disposition": f'attachment; filename="{job_id}-fields.zip"'},
+    )
 
 
 def _chunks(f: IO[bytes]) -> Iterator[bytes]:

@@ -23,10 +23,25 @@ from .text_checks import NUL_MESSAGE, nul_fields
 
 log = logging.getLogger(__name__)
 router = APIRouter(prefix="/api/v1/jobs", tags=["jobs"])
-SPEC_BODY = {"requestBody": {"required": True,
-                             "content": {"application/json": {"schema": {"$ref": "#/components/schemas/JobSpec"}}}}}
-PARTIAL_BODY = {"requestBody": {"required": False, "content": {"application/json": {"schema": {
-    "type": "object", "description": "any part of a job spec; merged over the original job's spec"}}}}}
+SPEC_BODY = {
+    "requestBody": {
+        "required": True,
+        "content": {"application/json": {"schema": {"$ref": "#/components/schemas/JobSpec"}}},
+    }
+}
+PARTIAL_BODY = {
+    "requestBody": {
+        "required": False,
+        "content": {
+            "application/json": {
+                "schema": {
+                    "type": "object",
+                    "description": "any part of a job spec; merged over the original job's spec",
+                }
+            }
+        },
+    }
+}
 MAX_TAGS, MAX_TAG_LENGTH = 20, 64
 MAX_CURSOR = 2**31  # job sequence numbers are 32-bit integers in the store
 State = Literal["queued", "running", "succeeded", "failed", "cancelled"]
@@ -45,15 +60,33 @@ def _stamp(moment: datetime | None) -> str | None:
 
 def view(job: Job | Row[Any]) -> dict[str, Any]:
     """The job as the contract shows it (from an ORM object or a Core row of the jobs table)."""
-    return {"id": job.id, "state": job.state, "owner": job.owner, "title": job.title, "tags": job.tags,
-            "spec": job.spec,
-            "progress": {"fraction": job.progress_fraction, "step": job.progress_step, "time": job.progress_time,
-                         "eta_seconds": job.eta_seconds},
-            "created_at": _stamp(job.created_at), "started_at": _stamp(job.started_at),
-            "finished_at": _stamp(job.finished_at), "heartbeat_at": _stamp(job.heartbeat_at),
-            "attempts": job.attempts, "worker_host": job.worker_host, "cancel_requested": job.cancel_requested,
-            "summary": job.summary, "error": job.error, "reused_from": job.reused_from, "study": job.study_id,
-            "links": links(job.id), "caution": CAUTION}
+    return {
+        "id": job.id,
+        "state": job.state,
+        "owner": job.owner,
+        "title": job.title,
+        "tags": job.tags,
+        "spec": job.spec,
+        "progress": {
+            "fraction": job.progress_fraction,
+            "step": job.progress_step,
+            "time": job.progress_time,
+            "eta_seconds": job.eta_seconds,
+        },
+        "created_at": _stamp(job.created_at),
+        "started_at": _stamp(job.started_at),
+        "finished_at": _stamp(job.finished_at),
+        "heartbeat_at": _stamp(job.heartbeat_at),
+        "attempts": job.attempts,
+        "worker_host": job.worker_host,
+        "cancel_requested": job.cancel_requested,
+        "summary": job.summary,
+        "error": job.error,
+        "reused_from": job.reused_from,
+        "study": job.study_id,
+        "links": links(job.id),
+        "caution": CAUTION,
+    }
 
 
 def _store(request: Request) -> Store:
@@ -96,8 +129,11 @@ def _submit(request: Request, user: User, spec: dict[str, Any], tags: list[str],
     planned = plan(request, spec, fresh)
     check_cap(request, user.name, [planned])
     job = place(request, user.name, planned, tags)
-    return JSONResponse({"id": job.id, "state": job.state, "reused_from": job.reused_from, "links": links(job.id)},
-                        status_code=202, headers={"Location": links(job.id)["self"]})
+    return JSONResponse(
+        {"id": job.id, "state": job.state, "reused_from": job.reused_from, "links": links(job.id)},
+        status_code=202,
+        headers={"Location": links(job.id)["self"]},
+    )
 
 
 def _own(request: Request, job_id: str, user: User) -> Job:
@@ -118,17 +154,26 @@ def merge(base: dict[str, Any], edits: dict[str, Any]) -> dict[str, Any]:
 
 
 @router.post("", status_code=202, openapi_extra=SPEC_BODY, summary="Queue a job")
-def create_job(request: Request, user: Annotated[User, Depends(current_user)],
-               data: Annotated[Any, Body()], tags: Tags = None, fresh: Fresh = False) -> JSONResponse:
+def create_job(
+    request: Request,
+    user: Annotated[User, Depends(current_user)],
+    data: Annotated[Any, Body()],
+    tags: Tags = None,
+    fresh: Fresh = False,
+) -> JSONResponse:
     return _submit(request, user, _validated(data, _settings(request)), _check_tags(tags or []), fresh)
 
 
 @router.get("", summary="List jobs, newest first")
-def list_jobs(request: Request, _: Annotated[User, Depends(current_user)], state: State | None = None,
-              owner: str | None = None, tag: str | None = None,
-              limit: Annotated[int, Query(ge=1, le=500)] = 50,
-              cursor: Annotated[str | None, Query(description="next_cursor of the previous page")] = None,
-              ) -> dict[str, Any]:
+def list_jobs(
+    request: Request,
+    _: Annotated[User, Depends(current_user)],
+    state: State | None = None,
+    owner: str | None = None,
+    tag: str | None = None,
+    limit: Annotated[int, Query(ge=1, le=500)] = 50,
+    cursor: Annotated[str | None, Query(description="next_cursor of the previous page")] = None,
+) -> dict[str, Any]:
     before = None
     if cursor is not None:  # ASCII digits only (int() takes other scripts' digits), within the column's range
         if not (cursor.isascii() and cursor.isdigit() and int(cursor) < MAX_CURSOR):
@@ -164,15 +209,22 @@ def delete_job(request: Request, job_id: str, user: Annotated[User, Depends(curr
     store, reserve = _store(request), request.app.state.reserve
     # a queued job must not start while we delete it; every write can use the reserve (deleting frees space)
     if reserve.retry(lambda: store.cancel(job_id)) == "running":
-        raise HTTPException(409, f"job {job_id} is running; it has been asked to stop: delete it again once its "
-                                 "state is cancelled")
+        raise HTTPException(
+            409, f"job {job_id} is running; it has been asked to stop: delete it again once its state is cancelled"
+        )
     shutil.rmtree(_settings(request).jobs_dir / job_id, ignore_errors=True)  # files first: that frees the space
     reserve.retry(lambda: store.delete(job_id))
 
 
 @router.post("/{job_id}/clone", status_code=202, openapi_extra=PARTIAL_BODY, summary="Queue a copy with edits")
-def clone_job(request: Request, job_id: str, user: Annotated[User, Depends(current_user)],
-              edits: Annotated[Any, Body()] = None, tags: Tags = None, fresh: Fresh = False) -> JSONResponse:
+def clone_job(
+    request: Request,
+    job_id: str,
+    user: Annotated[User, Depends(current_user)],
+    edits: Annotated[Any, Body()] = None,
+    tags: Tags = None,
+    fresh: Fresh = False,
+) -> JSONResponse:
     job = _store(request).get(job_id)
     if job is None:
         raise HTTPException(404, f"no job {job_id}")

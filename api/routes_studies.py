@@ -23,8 +23,12 @@ from .submission import check_room, check_space, place, plan
 from .text_checks import NUL_MESSAGE, nul_fields
 
 router = APIRouter(prefix="/api/v1/studies", tags=["studies"])
-STUDY_BODY = {"requestBody": {"required": True,
-                              "content": {"application/json": {"schema": {"$ref": "#/components/schemas/StudySpec"}}}}}
+STUDY_BODY = {
+    "requestBody": {
+        "required": True,
+        "content": {"application/json": {"schema": {"$ref": "#/components/schemas/StudySpec"}}},
+    }
+}
 
 
 def links(study_id: str) -> dict[str, str]:
@@ -36,8 +40,9 @@ def _store(request: Request) -> Store:
     return request.app.state.store
 
 
-def _expanded(data: Any, request: Request, owner: str) -> tuple[StudySpec, list[tuple[dict[str, float],
-                                                                                    dict[str, Any]]]]:
+def _expanded(
+    data: Any, request: Request, owner: str
+) -> tuple[StudySpec, list[tuple[dict[str, float], dict[str, Any]]]]:
     """The solver's checks of the study and of every point, plus the service's size limits for each point.
 
     The per-user cap is checked first, on the number of points (each counts, even one that will reuse a result),
@@ -68,8 +73,9 @@ def _point_title(title: str, values: dict[str, float]) -> str:
 
 
 @router.post("", status_code=202, openapi_extra=STUDY_BODY, summary="Queue a parameter study")
-def create_study(request: Request, user: Annotated[User, Depends(current_user)], data: Annotated[Any, Body()],
-                 fresh: Fresh = False) -> JSONResponse:
+def create_study(
+    request: Request, user: Annotated[User, Depends(current_user)], data: Annotated[Any, Body()], fresh: Fresh = False
+) -> JSONResponse:
     check_space(request)
     spec, points = _expanded(data, request, user.name)
     title = spec.title or str(points[0][1].get("title", "")) or spec.kind
@@ -79,20 +85,32 @@ def create_study(request: Request, user: Annotated[User, Depends(current_user)],
     for p in planned:
         p.provenance.study_id = study.id
         jobs.append(place(request, user.name, p, []))
-    return JSONResponse({"id": study.id, "state": studies.state(jobs), "jobs": [j.id for j in jobs],
-                         "links": links(study.id)}, status_code=202, headers={"Location": links(study.id)["self"]})
+    return JSONResponse(
+        {"id": study.id, "state": studies.state(jobs), "jobs": [j.id for j in jobs], "links": links(study.id)},
+        status_code=202,
+        headers={"Location": links(study.id)["self"]},
+    )
 
 
 def _brief(study: Study, jobs: list[Job]) -> dict[str, Any]:
-    return {"id": study.id, "kind": study.kind, "title": study.title, "owner": study.owner,
-            "created_at": study.created_at.isoformat(), "varied": studies.varied(study),
-            "state": studies.state(jobs), "progress": studies.progress(jobs), "points_count": len(jobs),
-            "links": links(study.id)}
+    return {
+        "id": study.id,
+        "kind": study.kind,
+        "title": study.title,
+        "owner": study.owner,
+        "created_at": study.created_at.isoformat(),
+        "varied": studies.varied(study),
+        "state": studies.state(jobs),
+        "progress": studies.progress(jobs),
+        "points_count": len(jobs),
+        "links": links(study.id),
+    }
 
 
 @router.get("", summary="List studies, newest first")
-def list_studies(request: Request, _: Annotated[User, Depends(current_user)],
-                 limit: Annotated[int, Query(ge=1, le=200)] = 50) -> dict[str, Any]:
+def list_studies(
+    request: Request, _: Annotated[User, Depends(current_user)], limit: Annotated[int, Query(ge=1, le=200)] = 50
+) -> dict[str, Any]:
     found = _store(request).list_studies(limit)
     jobs: dict[str, list[Job]] = {s.id: [] for s in found}
     for job in _store(request).study_jobs(list(jobs)):
@@ -112,8 +130,16 @@ def read_study(request: Request, study_id: str, _: Annotated[User, Depends(curre
     study, jobs = _load(request, study_id)
     body = _brief(study, jobs)
     body["spec"] = study.spec
-    body["points"] = [{"values": j.study_values, "job": j.id, "state": j.state, "reused_from": j.reused_from,
-                       "summary": studies.values_of(j) or None} for j in jobs]
+    body["points"] = [
+        {
+            "values": j.study_values,
+            "job": j.id,
+            "state": j.state,
+            "reused_from": j.reused_from,
+            "summary": studies.values_of(j) or None,
+        }
+        for j in jobs
+    ]
     if study.kind == "mesh-convergence":
         body["convergence"] = studies.grid_convergence(study, jobs)
     keys = list(dict.fromkeys(k for p in body["points"] for k in p["summary"] or {}))
@@ -125,14 +151,20 @@ def read_study(request: Request, study_id: str, _: Annotated[User, Depends(curre
 @router.get("/{study_id}/table.csv", summary="The points and their summary values as CSV")
 def study_table(request: Request, study_id: str, _: Annotated[User, Depends(current_user)]) -> Response:
     study, jobs = _load(request, study_id)
-    return Response(studies.table_csv(study, jobs), media_type="text/csv",
-                    headers={"Content-Disposition": f'attachment; filename="study-{study_id}.csv"',
-                             "X-Caution": CAUTION})
+    return Response(
+        studies.table_csv(study, jobs),
+        media_type="text/csv",
+        headers={"Content-Disposition": f'attachment; filename="study-{study_id}.csv"', "X-Caution": CAUTION},
+    )
 
 
 @router.get("/{study_id}/plot.png", summary="One summary value against the first varied field")
-def study_plot(request: Request, study_id: str, _: Annotated[User, Depends(current_user)],
-               y: Annotated[str, Query(description="a summary value, e.g. pipe.cd or strouhal_number")]) -> Response:
+def study_plot(
+    request: Request,
+    study_id: str,
+    _: Annotated[User, Depends(current_user)],
+    y: Annotated[str, Query(description="a summary value, e.g. pipe.cd or strouhal_number")],
+) -> Response:
     study, jobs = _load(request, study_id)
     paths = studies.varied(study)
     points = [(j.study_values or {}, v[y]) for j in jobs if (v := studies.values_of(j)).get(y) is not None]

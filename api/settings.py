@@ -28,8 +28,11 @@ class Settings(BaseSettings):
     lease_seconds: float = Field(60.0, gt=0, description="a running job whose heartbeat is older is re-queued")
     reaper_seconds: float = Field(5.0, gt=0, description="how often the API looks for expired leases")
     max_attempts: int = Field(3, ge=1)
-    min_free_mb: float = Field(512.0, ge=0, description="below this much free space in the data folder health says "
-                                                         "degraded and new jobs are refused (507)")
+    min_free_mb: float = Field(
+        512.0,
+        ge=0,
+        description="below this much free space in the data folder health says degraded and new jobs are refused (507)",
+    )
 
     @property
     def jobs_dir(self) -> Path:

@@ -177,8 +177,12 @@ def make_engine(url: str) -> Engine:
     """Engine with SQLite tuned for several processes (WAL, waiting on locks instead of failing)."""
     if url.startswith("sqlite"):
         # enough pooled connections that a burst of requests does not open (and set up) one each
-        engine = create_engine(url, pool_size=16, max_overflow=MAX_CONNECTIONS - 16,
-                               connect_args={"timeout": 30, "check_same_thread": False})
+        engine = create_engine(
+            url,
+            pool_size=16,
+            max_overflow=MAX_CONNECTIONS - 16,
+            connect_args={"timeout": 30, "check_same_thread": False},
+        )
 
         @event.listens_for(engine, "connect")
         def _pragmas(conn: Any, _record: Any) -> None:
@@ -201,8 +205,9 @@ def upgrade_schema(engine: Engine) -> None:
         for table in Base.metadata.sorted_tables:
             have = {c["name"] for c in inspector.get_columns(table.name)}
             for column in (c for c in table.columns if c.name not in have):
-                conn.execute(text(f"ALTER TABLE {table.name} ADD COLUMN {column.name} "
-                                  f"{column.type.compile(engine.dialect)}"))
+                conn.execute(
+                    text(f"ALTER TABLE {table.name} ADD COLUMN {column.name} {column.type.compile(engine.dialect)}")
+                )
             indexed = {i["name"] for i in inspector.get_indexes(table.name)}
             for index in table.indexes:
                 if index.name not in indexed:
@@ -212,12 +217,20 @@ def upgrade_schema(engine: Engine) -> None:
 # Statements built once (their SQL is compiled and cached once too) for the per-request look-ups.
 JOBS = Job.__table__
 _READ = select(JOBS).where(JOBS.c.id == bindparam("job_id"))
-_RESULT = (select(JOBS).where(Job.spec_hash == bindparam("spec_hash"), Job.state == "succeeded",
-                             Job.reused_from.is_(None)).order_by(Job.seq.desc()).limit(1))
+_RESULT = (
+    select(JOBS)
+    .where(Job.spec_hash == bindparam("spec_hash"), Job.state == "succeeded", Job.reused_from.is_(None))
+    .order_by(Job.seq.desc())
+    .limit(1)
+)
 _ACTIVE = select(func.count()).where(Job.owner == bindparam("owner"), Job.state.in_(ACTIVE))
 # A job handed back by a stopping worker: queued again, the interrupted attempt not counted.
-_RELEASED: dict[str, Any] = {"state": "queued", "claim": None, "eta_seconds": None,
-                             "attempts": case((Job.attempts > 0, Job.attempts - 1), else_=0)}
+_RELEASED: dict[str, Any] = {
+    "state": "queued",
+    "claim": None,
+    "eta_seconds": None,
+    "attempts": case((Job.attempts > 0, Job.attempts - 1), else_=0),
+}
 
 
 class Store:
@@ -233,12 +246,29 @@ class Store:
         self._token_users: dict[str, tuple[str, bool]] = {}
 
     # --- API side -------------------------------------------------------------------------------------
-    def create(self, owner: str, spec: dict[str, Any], tags: list[str], new: Provenance | None = None,
-               job_id: str | None = None) -> Job:
+    def create(
+        self,
+        owner: str,
+        spec: dict[str, Any],
+        tags: list[str],
+        new: Provenance | None = None,
+        job_id: str | None = None,
+    ) -> Job:
         """A queued job, or with ``new.source`` one that is succeeded at once with the source's result."""
-        job = Job(id=job_id or uuid.uuid4().hex, state="queued", owner=owner, title=str(spec.get("title", ""))[:200],
-                  spec=spec, tags=tags, created_at=utcnow(), attempts=0, cancel_requested=False,
-                  progress_fraction=0.0, progress_step=0, progress_time=0.0)
+        job = Job(
+            id=job_id or uuid.uuid4().hex,
+            state="queued",
+            owner=owner,
+            title=str(spec.get("title", ""))[:200],
+            spec=spec,
+            tags=tags,
+            created_at=utcnow(),
+            attempts=0,
+            cancel_requested=False,
+            progress_fraction=0.0,
+            progress_step=0,
+            progress_time=0.0,
+        )
         if new is not None:
             job.title, job.spec_hash = new.title[:200], new.spec_hash
             job.study_id, job.study_values = new.study_id, new.study_values
@@ -269,8 +299,9 @@ class Store:
         with self.engine.connect() as conn:
             return conn.execute(_READ, {"job_id": job_id}).first()
 
-    def list_jobs(self, state: str | None, owner: str | None, tag: str | None, limit: int,
-             before_seq: int | None) -> list[Job]:
+    def list_jobs(
+        self, state: str | None, owner: str | None, tag: str | None, limit: int, before_seq: int | None
+    ) -> list[Job]:
         q = select(Job).order_by(Job.seq.desc()).limit(limit)
         if state:
             q = q.where(Job.state == state)
@@ -290,9 +321,13 @@ class Store:
     def cancel(self, job_id: str) -> str | None:
         """Cancel a queued job at once, flag a running one for its worker; returns the new state."""
         with self.session.begin() as s:
-            done = s.execute(update(Job).where(Job.id == job_id, Job.state == "queued")
-                             .values(state="cancelled", cancel_requested=True, finished_at=utcnow(),
-                                     error="cancelled before it started")).rowcount
+            done = s.execute(
+                update(Job)
+                .where(Job.id == job_id, Job.state == "queued")
+                .values(
+                    state="cancelled", cancel_requested=True, finished_at=utcnow(), error="cancelled before it started"
+                )
+            ).rowcount
             if not done:
                 s.execute(update(Job).where(Job.id == job_id, Job.state == "running").values(cancel_requested=True))
             return s.scalar(select(Job.state).where(Job.id == job_id))
@@ -345,20 +380,35 @@ class Store:
     # --- worker side ----------------------------------------------------------------------------------
     def claim_next(self, host: str, tries: int = 8) -> Claimed | None:
         """Claim the next job (fair share: oldest job of the owner with the fewest running) by compare-and-set."""
-        running = (select(Job.owner, func.count().label("n")).where(Job.state == "running")
-                   .group_by(Job.owner).subquery())
-        pick = (select(Job.id).outerjoin(running, running.c.owner == Job.owner).where(Job.state == "queued")
-                .order_by(func.coalesce(running.c.n, 0), Job.seq).limit(1))
+        running = (
+            select(Job.owner, func.count().label("n")).where(Job.state == "running").group_by(Job.owner).subquery()
+        )
+        pick = (
+            select(Job.id)
+            .outerjoin(running, running.c.owner == Job.owner)
+            .where(Job.state == "queued")
+            .order_by(func.coalesce(running.c.n, 0), Job.seq)
+            .limit(1)
+        )
         for _ in range(tries):
             with self.session.begin() as s:
                 job_id = s.scalar(pick)
                 if job_id is None:
                     return None
                 claim, now = secrets.token_hex(16), utcnow()
-                won = s.execute(update(Job).where(Job.id == job_id, Job.state == "queued")
-                                .values(state="running", claim=claim, attempts=Job.attempts + 1, worker_host=host,
-                                        started_at=func.coalesce(Job.started_at, now), heartbeat_at=now,
-                                        eta_seconds=None)).rowcount
+                won = s.execute(
+                    update(Job)
+                    .where(Job.id == job_id, Job.state == "queued")
+                    .values(
+                        state="running",
+                        claim=claim,
+                        attempts=Job.attempts + 1,
+                        worker_host=host,
+                        started_at=func.coalesce(Job.started_at, now),
+                        heartbeat_at=now,
+                        eta_seconds=None,
+                    )
+                ).rowcount
                 if won:
                     job = s.scalar(select(Job).where(Job.id == job_id))
                     return Claimed(job.id, claim, job.spec, job.attempts)
@@ -367,18 +417,41 @@ class Store:
     def heartbeat(self, job_id: str, claim: str, values: dict[str, Any]) -> tuple[bool, bool]:
         """Record progress; returns (still ours, cancel requested)."""
         with self.session.begin() as s:
-            ours = s.execute(update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running")
-                             .values(heartbeat_at=utcnow(), **values)).rowcount == 1
+            ours = (
+                s.execute(
+                    update(Job)
+                    .where(Job.id == job_id, Job.claim == claim, Job.state == "running")
+                    .values(heartbeat_at=utcnow(), **values)
+                ).rowcount
+                == 1
+            )
             cancel = bool(s.scalar(select(Job.cancel_requested).where(Job.id == job_id)))
             return ours, cancel
 
-    def finish(self, job_id: str, claim: str, state: str, summary: dict[str, Any] | None = None,
-               error: str | None = None, progress: dict[str, Any] | None = None) -> bool:
-        values: dict[str, Any] = {**(progress or {}), "state": state, "finished_at": utcnow(), "summary": summary,
-                                  "error": error, "eta_seconds": None}
+    def finish(
+        self,
+        job_id: str,
+        claim: str,
+        state: str,
+        summary: dict[str, Any] | None = None,
+        error: str | None = None,
+        progress: dict[str, Any] | None = None,
+    ) -> bool:
+        values: dict[str, Any] = {
+            **(progress or {}),
+            "state": state,
+            "finished_at": utcnow(),
+            "summary": summary,
+            "error": error,
+            "eta_seconds": None,
+        }
         with self.session.begin() as s:
-            return s.execute(update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running")
-                             .values(**values)).rowcount == 1
+            return (
+                s.execute(
+                    update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running").values(**values)
+                ).rowcount
+                == 1
+            )
 
     def worker_alive(self, name: str) -> None:
         with self.session.begin() as s:
@@ -394,8 +467,12 @@ class Store:
         """Hand a job back to the queue because its worker is shutting down (not the job's fault: the attempt is
         not counted); it resumes from its last checkpoint."""
         with self.session.begin() as s:
-            return s.execute(update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running")
-                             .values(**_RELEASED)).rowcount == 1
+            return (
+                s.execute(
+                    update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running").values(**_RELEASED)
+                ).rowcount
+                == 1
+            )
 
     def release_hosts(self, hosts: list[str]) -> list[str]:
         """After a supervisor stopped its worker processes (``host:pid`` names): re-queue the jobs they still held,
@@ -404,8 +481,11 @@ class Store:
             return []
         running = (Job.state == "running", Job.worker_host.in_(hosts))
         with self.session.begin() as s:
-            s.execute(update(Job).where(*running, Job.cancel_requested.is_(True))
-                      .values(state="cancelled", finished_at=utcnow(), error="cancelled (its worker was stopped)"))
+            s.execute(
+                update(Job)
+                .where(*running, Job.cancel_requested.is_(True))
+                .values(state="cancelled", finished_at=utcnow(), error="cancelled (its worker was stopped)")
+            )
             ids = list(s.scalars(select(Job.id).where(*running)))
             s.execute(update(Job).where(Job.id.in_(ids), Job.state == "running").values(**_RELEASED))
         return ids
@@ -416,20 +496,27 @@ class Store:
         cutoff = utcnow() - timedelta(seconds=lease_seconds)
         requeued = []
         with self.session() as s:
-            stale = s.execute(select(Job.id, Job.claim, Job.attempts, Job.worker_host, Job.cancel_requested)
-                              .where(Job.state == "running", Job.heartbeat_at < cutoff)).all()
+            stale = s.execute(
+                select(Job.id, Job.claim, Job.attempts, Job.worker_host, Job.cancel_requested).where(
+                    Job.state == "running", Job.heartbeat_at < cutoff
+                )
+            ).all()
         for job_id, claim, attempts, host, cancel in stale:
             lost = f"the worker on {host} stopped sending heartbeats for over {lease_seconds:g} s"
             if cancel:
                 values = {"state": "cancelled", "finished_at": utcnow(), "error": f"cancelled ({lost})"}
             elif attempts >= max_attempts:
-                values = {"state": "failed", "finished_at": utcnow(),
-                          "error": f"gave up after {attempts} attempts: {lost}"}
+                values = {
+                    "state": "failed",
+                    "finished_at": utcnow(),
+                    "error": f"gave up after {attempts} attempts: {lost}",
+                }
             else:
                 values = {"state": "queued", "claim": None, "eta_seconds": None}
             with self.session.begin() as s:
-                won = s.execute(update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running")
-                                .values(**values)).rowcount
+                won = s.execute(
+                    update(Job).where(Job.id == job_id, Job.claim == claim, Job.state == "running").values(**values)
+                ).rowcount
             if won and values["state"] == "queued":
                 requeued.append(job_id)
         return requeued

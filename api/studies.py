@@ -74,6 +74,12 @@ def table_csv(study: Study, jobs: list[Job]) -> str:
     writer.writerow([*(labelled(p, unit.get(p)) for p in paths), "job", "state", *(labelled(k, unit[k]) for k in keys)])
     for job, row in zip(jobs, rows):
         point = job.study_values or {}
-        writer.writerow([*(point.get(p, "") for p in paths), job.id, job.state,
-                         *("" if row.get(k) is None else row[k] for k in keys)])
+        writer.writerow(
+            [
+                *(point.get(p, "") for p in paths),
+                job.id,
+                job.state,
+                *("" if row.get(k) is None else row[k] for k in keys),
+            ]
+        )
     return out.getvalue()

@@ -38,13 +38,20 @@ class Planned:
     provenance: Provenance
 
 
-def plan(request: Request, spec: dict[str, Any], fresh: bool, title: str | None = None,
-         study_id: str | None = None, values: dict[str, float] | None = None) -> Planned:
+def plan(
+    request: Request,
+    spec: dict[str, Any],
+    fresh: bool,
+    title: str | None = None,
+    study_id: str | None = None,
+    values: dict[str, float] | None = None,
+) -> Planned:
     """Look for a succeeded job with the same spec hash (unless ``fresh``)."""
     digest = spec_hash(spec)
     source = None if fresh else request.app.state.store.find_result(digest)
-    return Planned(spec, Provenance(digest, str(spec.get("title", "")) if title is None else title, source,
-                                    study_id, values))
+    return Planned(
+        spec, Provenance(digest, str(spec.get("title", "")) if title is None else title, source, study_id, values)
+    )
 
 
 def check_space(request: Request) -> None:
@@ -52,9 +59,12 @@ def check_space(request: Request) -> None:
     settings = request.app.state.settings
     free = shutil.disk_usage(settings.data_dir).free
     if free < settings.min_free_bytes:
-        raise HTTPException(507, f"the data folder has {free / 2**20:.0f} MiB free, below the "
-                                 f"{settings.min_free_mb:.0f} MiB the service keeps: new jobs are refused until space "
-                                 "is freed (delete jobs that are no longer needed)")
+        raise HTTPException(
+            507,
+            f"the data folder has {free / 2**20:.0f} MiB free, below the "
+            f"{settings.min_free_mb:.0f} MiB the service keeps: new jobs are refused until space "
+            "is freed (delete jobs that are no longer needed)",
+        )
 
 
 def check_cap(request: Request, owner: str, planned: list[Planned]) -> None:
@@ -69,8 +79,11 @@ def check_room(request: Request, owner: str, to_run: int) -> None:
     cap, active = request.app.state.settings.max_active_per_user, request.app.state.store.active_count(owner)
     if active + to_run > cap:
         adding = "" if to_run == 1 else f" and this study would add {to_run} more"
-        raise HTTPException(429, f"{owner} already has {active} queued or running jobs{adding}, the limit per user "
-                                 f"is {cap}: wait for some to finish, cancel some, or split the study")
+        raise HTTPException(
+            429,
+            f"{owner} already has {active} queued or running jobs{adding}, the limit per user "
+            f"is {cap}: wait for some to finish, cancel some, or split the study",
+        )
 
 
 def place(request: Request, owner: str, planned: Planned, tags: list[str]) -> Job:

@@ -29,8 +29,10 @@ def compare(label: str, computed: float | None, reference: float, source: str) -
     if computed is None:
         print(f"  {label:28s} computed   none     published {reference:8.4f}  ({source})")
         return
-    print(f"  {label:28s} computed {computed:8.4f}  published {reference:8.4f}  "
-          f"diff {100 * (computed - reference) / abs(reference):+6.2f} %  ({source})")
+    print(
+        f"  {label:28s} computed {computed:8.4f}  published {reference:8.4f}  "
+        f"diff {100 * (computed - reference) / abs(reference):+6.2f} %  ({source})"
+    )
 
 
 def solve(spec: dict) -> dict | None:
@@ -42,8 +44,10 @@ def solve(spec: dict) -> dict | None:
             print(f"  run failed: {err}")
             return None
     steps = f", {s['steps']} steps, ended by {s['ended_by']}" if "steps" in s else ""
-    print(f"  [{s['mesh']['cells']} cells, {s['mesh']['dofs']} unknowns{steps}; wall {time.perf_counter() - t0:.0f} s, "
-          f"cpu {time.process_time() - c0:.0f} s]")
+    print(
+        f"  [{s['mesh']['cells']} cells, {s['mesh']['dofs']} unknowns{steps}; wall {time.perf_counter() - t0:.0f} s, "
+        f"cpu {time.process_time() - c0:.0f} s]"
+    )
     return s
 
 
@@ -58,23 +62,33 @@ def circle() -> None:
     compare("Strouhal number", st, pc.strouhal_williamson_1988(100), "Williamson 1988/1996 fit, memory")
     compare("Strouhal number", st, pc.CIRCLE_RE100["strouhal"], "Park et al. 1998, memory")
     compare("mean cD", b["drag_coefficient"]["mean"], pc.CIRCLE_RE100["cd_mean"], "Park et al. 1998, memory")
-    compare("cL amplitude", b["lift_coefficient"]["amplitude"], pc.CIRCLE_RE100["cl_amplitude"],
-            "Park et al. 1998, memory")
+    compare(
+        "cL amplitude", b["lift_coefficient"]["amplitude"], pc.CIRCLE_RE100["cl_amplitude"], "Park et al. 1998, memory"
+    )
 
 
 def circle_wide() -> None:
-    print("Circular cylinder in a free stream, Re 100, wider domain: walls 40 D apart (blockage 2.5 %), 15 D inflow, "
-          "35 D outflow; body D/20, dt 0.1 D/U")
-    spec = pc.free_stream(pc.circle(offset=0.05, centre=(15.0, 20.0)), 100.0, 1.0, length=50.0, height=40.0,
-                          analysis=pc._transient(0.1, 300.0))
+    print(
+        "Circular cylinder in a free stream, Re 100, wider domain: walls 40 D apart (blockage 2.5 %), 15 D inflow, "
+        "35 D outflow; body D/20, dt 0.1 D/U"
+    )
+    spec = pc.free_stream(
+        pc.circle(offset=0.05, centre=(15.0, 20.0)),
+        100.0,
+        1.0,
+        length=50.0,
+        height=40.0,
+        analysis=pc._transient(0.1, 300.0),
+    )
     s = solve(spec)
     if s is None:
         return
     b = s["bodies"][0]
     compare("Strouhal number", s["strouhal_number"], pc.strouhal_williamson_brown(100), "Williamson & Brown 1998 fit")
     compare("mean cD", b["drag_coefficient"]["mean"], pc.CIRCLE_RE100["cd_mean"], "Park et al. 1998, memory")
-    compare("cL amplitude", b["lift_coefficient"]["amplitude"], pc.CIRCLE_RE100["cl_amplitude"],
-            "Park et al. 1998, memory")
+    compare(
+        "cL amplitude", b["lift_coefficient"]["amplitude"], pc.CIRCLE_RE100["cl_amplitude"], "Park et al. 1998, memory"
+    )
 
 
 def rotating() -> None:
@@ -119,8 +133,12 @@ def onset() -> None:
     for a, b in zip(res, res[1:]):
         if values[a].real < 0 <= values[b].real:
             crit = a + (b - a) * -values[a].real / (values[b].real - values[a].real)
-            compare("critical Reynolds number", crit, sum(pc.ONSET_RANGE) / 2,
-                    "Provansal et al. 1987 / Williamson 1996: 46-47")
+            compare(
+                "critical Reynolds number",
+                crit,
+                sum(pc.ONSET_RANGE) / 2,
+                "Provansal et al. 1987 / Williamson 1996: 46-47",
+            )
     print("Onset as a user sees it: transient runs from rest, until periodic or t = 400 D/U (body D/10, dt 0.2)")
     for re in (40.0, 60.0):
         spec = pc.free_stream(pc.circle(offset=0.05), re, scale=2.0, analysis=pc._transient(0.2, 400.0))
@@ -129,8 +147,10 @@ def onset() -> None:
             continue
         b = s["bodies"][0]
         st = s["strouhal_number"]
-        print(f"  Re {re:.0f}: ended by {s['ended_by']}, lift amplitude over the last half "
-              f"{b['lift_coefficient']['amplitude']:.2e}, Strouhal number {st}")
+        print(
+            f"  Re {re:.0f}: ended by {s['ended_by']}, lift amplitude over the last half "
+            f"{b['lift_coefficient']['amplitude']:.2e}, Strouhal number {st}"
+        )
         if s["ended_by"] == "periodic":  # a decaying wake still has a frequency: compare only a periodic one
             compare("Strouhal number", st, pc.strouhal_williamson_brown(re), "Williamson & Brown 1998 fit")
 
@@ -145,14 +165,25 @@ def shapes() -> None:
     circle_cd = drag({"name": "body", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05})
     if circle_cd is None:
         return
-    compare("ellipse cD", drag({"name": "body", "shape": "ellipse", "center": [0.2, 0.2], "width": 0.1,
-                                "height": 0.1, "angle": 30}), circle_cd, "the circle, same mesh preset")
+    compare(
+        "ellipse cD",
+        drag({"name": "body", "shape": "ellipse", "center": [0.2, 0.2], "width": 0.1, "height": 0.1, "angle": 30}),
+        circle_cd,
+        "the circle, same mesh preset",
+    )
     for sides in (8, 16, 32, 64, 128):
         compare(f"{sides}-gon cD", drag(pc.regular_polygon(sides)), circle_cd, "the circle, same mesh preset")
 
 
-CASES = {"circle": circle, "circle_wide": circle_wide, "rotating": rotating, "square": square, "naca": naca,
-         "onset": onset, "shapes": shapes}
+CASES = {
+    "circle": circle,
+    "circle_wide": circle_wide,
+    "rotating": rotating,
+    "square": square,
+    "naca": naca,
+    "onset": onset,
+    "shapes": shapes,
+}
 
 if __name__ == "__main__":
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)

@@ -33,11 +33,14 @@ REDIS_URL = "redis://127.0.0.1:6379/6"
 CREATIONS, READS, CLIENTS, LATENCY_JOBS = 400, 2000, 8, 5
 CASE: dict[str, Any] = {
     # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a channel shortened to 1.0
-    "title": "cylinder in a shortened 2D-1 channel (benchmark)", "channel": {"length": 1.0, "height": 0.41},
+    "title": "cylinder in a shortened 2D-1 channel (benchmark)",
+    "channel": {"length": 1.0, "height": 0.41},
     "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
     "fluid": {"density": 1.0, "viscosity": 1e-3},
-    "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2}, "mesh": {"preset": "coarse", "scale": 2.0},
-    "analysis": {"mode": "transient", "time_step": 0.01, "end_time": 0.3, "output_interval": 0.1}}
+    "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2},
+    "mesh": {"preset": "coarse", "scale": 2.0},
+    "analysis": {"mode": "transient", "time_step": 0.01, "end_time": 0.3, "output_interval": 0.1},
+}
 
 
 def case(end_time: float) -> dict[str, Any]:
@@ -53,14 +56,31 @@ class Service:
         with socket.socket() as s:
             s.bind(("127.0.0.1", 0))
             self.port = s.getsockname()[1]
-        env = {**os.environ, "WAKEYARD_BROKER_URL": broker, "WAKEYARD_MAX_ACTIVE_PER_USER": "100000",
-               "WAKEYARD_HEARTBEAT_SECONDS": "0.25"}
+        env = {
+            **os.environ,
+            "WAKEYARD_BROKER_URL": broker,
+            "WAKEYARD_MAX_ACTIVE_PER_USER": "100000",
+            "WAKEYARD_HEARTBEAT_SECONDS": "0.25",
+        }
         folder.mkdir(parents=True, exist_ok=True)
         self.log = folder / "serve.log"
-        self.proc = subprocess.Popen([sys.executable, "-c", "import sys; from cli.main import main; sys.exit(main())",
-                                      "serve", "--port", str(self.port), "--data",
-                                      str(folder), "--workers", str(workers)], env=env,
-                                     stdout=self.log.open("w"), stderr=subprocess.STDOUT)
+        self.proc = subprocess.Popen(
+            [
+                sys.executable,
+                "-c",
+                "import sys; from cli.main import main; sys.exit(main())",
+                "serve",
+                "--port",
+                str(self.port),
+                "--data",
+                str(folder),
+                "--workers",
+                str(workers),
+            ],
+            env=env,
+            stdout=self.log.open("w"),
+            stderr=subprocess.STDOUT,
+        )
         deadline = time.monotonic() + 90
         while "ready at" not in self.log.read_text():
             if self.proc.poll() is not None or time.monotonic() > deadline:
@@ -75,6 +95,7 @@ class Service:
 
 def rate(n: int, work: Any, clients: int = CLIENTS) -> tuple[float, list[float]]:
     """Run ``work(i)`` n times from ``clients`` threads; returns (per second, each call's seconds)."""
+
     def timed(i: int) -> float:
         t = time.perf_counter()
         work(i)
@@ -110,8 +131,10 @@ def throughput(folder: Path) -> None:
         print(f"job creations:       {per_s:8.0f} /s   ({CREATIONS} requests, {CLIENTS} clients; target >= 500)")
         job_id = json.loads(call("GET", "/api/v1/jobs?limit=1"))["jobs"][0]["id"]
         per_s, times = rate(READS, lambda _: call("GET", f"/api/v1/jobs/{job_id}"))
-        print(f"status reads:        {per_s:8.0f} /s   ({READS} requests; p50 {p(times, 50):.1f} ms, "
-              f"p99 {p(times, 99):.1f} ms; target >= 2000)")
+        print(
+            f"status reads:        {per_s:8.0f} /s   ({READS} requests; p50 {p(times, 50):.1f} ms, "
+            f"p99 {p(times, 99):.1f} ms; target >= 2000)"
+        )
     finally:
         service.stop()
 
@@ -133,23 +156,29 @@ def latency_and_overhead(folder: Path, broker: str, name: str) -> None:
                 waits.append((stamp(job["started_at"]) - stamp(job["created_at"])).total_seconds())
                 totals.append((stamp(job["finished_at"]) - stamp(job["created_at"])).total_seconds())
             target = "50 ms" if broker else "1 s"
-            print(f"submit-to-start ({name}): median {1000 * statistics.median(waits):6.0f} ms, "
-                  f"max {1000 * max(waits):6.0f} ms (target <= {target})")
+            print(
+                f"submit-to-start ({name}): median {1000 * statistics.median(waits):6.0f} ms, "
+                f"max {1000 * max(waits):6.0f} ms (target <= {target})"
+            )
             direct = []
             for i in range(3):
                 t = time.perf_counter()
                 solver.run(case(0.3), folder / f"direct{i}")
                 direct.append(time.perf_counter() - t)
             extra = statistics.median(totals) - statistics.median(direct)
-            print(f"service overhead ({name}): {extra:+.2f} s on a {statistics.median(direct):.1f} s job "
-                  f"(submit to finished vs solver.run in process; target <= 2 s or 5 %)")
+            print(
+                f"service overhead ({name}): {extra:+.2f} s on a {statistics.median(direct):.1f} s job "
+                f"(submit to finished vs solver.run in process; target <= 2 s or 5 %)"
+            )
             if broker:  # both cores busy: is the API still quick?
                 busy = [http.post("/api/v1/jobs", json=case(3.0)).json()["id"] for _ in range(2)]
                 while any(http.get(f"/api/v1/jobs/{j}").json()["state"] != "running" for j in busy):
                     time.sleep(0.1)
                 _, times = rate(300, lambda _: http.get(f"/api/v1/jobs/{busy[0]}"), clients=4)
-                print(f"status read while both cores compute: p50 {p(times, 50):.1f} ms, p99 {p(times, 99):.1f} ms "
-                      f"(target p99 <= 50 ms)")
+                print(
+                    f"status read while both cores compute: p50 {p(times, 50):.1f} ms, p99 {p(times, 99):.1f} ms "
+                    f"(target p99 <= 50 ms)"
+                )
                 for j in busy:
                     http.post(f"/api/v1/jobs/{j}/cancel")
     finally:

@@ -42,24 +42,39 @@ REF_2D2 = (3.22739, 0.30184)
 
 
 def bench_2d1(preset: str, elements: str) -> None:
-    spec = {"channel": CHANNEL, "bodies": [CYLINDER], "fluid": FLUID, "probes": PROBES, "mesh": {"preset": preset},
-            "elements": elements, "inflow": {"peak_velocity": 0.3}}
+    spec = {
+        "channel": CHANNEL,
+        "bodies": [CYLINDER],
+        "fluid": FLUID,
+        "probes": PROBES,
+        "mesh": {"preset": preset},
+        "elements": elements,
+        "inflow": {"peak_velocity": 0.3},
+    }
     with tempfile.TemporaryDirectory() as out:
         t0 = time.perf_counter()
         s = solver.run(spec, out)
         wall = time.perf_counter() - t0
     b = s["bodies"][0]
-    errs = [abs(v - r) / r for v, r in zip((b["drag_coefficient"], b["lift_coefficient"], s["pressure_drop"]),
-                                           REF_2D1)]
+    errs = [abs(v - r) / r for v, r in zip((b["drag_coefficient"], b["lift_coefficient"], s["pressure_drop"]), REF_2D1)]
     tm = s["timings"]
-    print(f"2D-1 {preset:6s} {elements}  dofs {s['mesh']['dofs']:7d}  mesh {tm['mesh']:.2f}s setup {tm['setup']:.2f}s "
-          f"solve {tm['solve']:.2f}s wall {wall:.1f}s  err cD {errs[0]:.1e} cL {errs[1]:.1e} dp {errs[2]:.1e}")
+    print(
+        f"2D-1 {preset:6s} {elements}  dofs {s['mesh']['dofs']:7d}  mesh {tm['mesh']:.2f}s setup {tm['setup']:.2f}s "
+        f"solve {tm['solve']:.2f}s wall {wall:.1f}s  err cD {errs[0]:.1e} cL {errs[1]:.1e} dp {errs[2]:.1e}"
+    )
 
 
 def bench_steps(preset: str, scheme: str, dt: float, steps: int) -> None:
-    spec = solver.load({"channel": CHANNEL, "bodies": [CYLINDER], "fluid": FLUID, "mesh": {"preset": preset},
-                        "inflow": {"peak_velocity": 1.5},
-                        "analysis": {"mode": "transient", "scheme": scheme, "time_step": dt}})
+    spec = solver.load(
+        {
+            "channel": CHANNEL,
+            "bodies": [CYLINDER],
+            "fluid": FLUID,
+            "mesh": {"preset": preset},
+            "inflow": {"peak_velocity": 1.5},
+            "analysis": {"mode": "transient", "scheme": scheme, "time_step": dt},
+        }
+    )
     case = Case.build(spec)
     t0 = time.perf_counter()
     stepper = Stepper(case.ns, scheme, dt, case.ns.stokes())
@@ -75,16 +90,23 @@ def bench_steps(preset: str, scheme: str, dt: float, steps: int) -> None:
     for _ in range(10):
         lu.solve_free(rhs)
     one_solve = (time.perf_counter() - t0) / 10
-    print(f"steps {preset:6s} {scheme:13s} dt {dt:g}  dofs {case.th.ndofs:7d}  factor+setup {setup:.2f}s  "
-          f"{1e3 * per_step:.1f} ms/step  one solve {1e3 * one_solve:.1f} ms  ratio {per_step / one_solve:.2f}  "
-          f"factorisations {stepper.factorisations}")
+    print(
+        f"steps {preset:6s} {scheme:13s} dt {dt:g}  dofs {case.th.ndofs:7d}  factor+setup {setup:.2f}s  "
+        f"{1e3 * per_step:.1f} ms/step  one solve {1e3 * one_solve:.1f} ms  ratio {per_step / one_solve:.2f}  "
+        f"factorisations {stepper.factorisations}"
+    )
 
 
 def bench_2d2(preset: str, scheme: str, dt: float, end: float = 8.0) -> None:
-    spec = {"channel": CHANNEL, "bodies": [CYLINDER], "fluid": FLUID, "probes": PROBES, "mesh": {"preset": preset},
-            "inflow": {"peak_velocity": 1.5},
-            "analysis": {"mode": "transient", "scheme": scheme, "time_step": dt, "end_time": end,
-                         "output_interval": end}}
+    spec = {
+        "channel": CHANNEL,
+        "bodies": [CYLINDER],
+        "fluid": FLUID,
+        "probes": PROBES,
+        "mesh": {"preset": preset},
+        "inflow": {"peak_velocity": 1.5},
+        "analysis": {"mode": "transient", "scheme": scheme, "time_step": dt, "end_time": end, "output_interval": end},
+    }
     with tempfile.TemporaryDirectory() as out:
         t0 = time.perf_counter()
         solver.run(spec, out)
@@ -93,9 +115,11 @@ def bench_2d2(preset: str, scheme: str, dt: float, end: float = 8.0) -> None:
     t, cd, cl = data[:, 0], data[:, 3], data[:, 4]
     last = t > end - 1.0
     st = analysis.strouhal(t, cl, 0.1, 1.0)["strouhal_number"]
-    print(f"2D-2 {preset:6s} {scheme:13s} dt {dt:g}  wall {wall:.0f}s  cD,max {cd[last].max():.4f} "
-          f"(err {abs(cd[last].max() - REF_2D2[0]) / REF_2D2[0]:.1e})  St {st:.4f} "
-          f"(err {abs(st - REF_2D2[1]) / REF_2D2[1]:.1e})")
+    print(
+        f"2D-2 {preset:6s} {scheme:13s} dt {dt:g}  wall {wall:.0f}s  cD,max {cd[last].max():.4f} "
+        f"(err {abs(cd[last].max() - REF_2D2[0]) / REF_2D2[0]:.1e})  St {st:.4f} "
+        f"(err {abs(st - REF_2D2[1]) / REF_2D2[1]:.1e})"
+    )
 
 
 def main() -> None:

@@ -20,10 +20,14 @@ from pathlib import Path
 
 import httpx
 
-SPEC = {"title": "stop bench: pipe in a cooling duct", "channel": {"length": 1.0, "height": 0.41},
-        "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-        "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2}, "mesh": {"preset": "coarse", "scale": 2.0},
-        "analysis": {"mode": "transient", "time_step": 0.01, "end_time": 50.0, "output_interval": 10.0}}
+SPEC = {
+    "title": "stop bench: pipe in a cooling duct",
+    "channel": {"length": 1.0, "height": 0.41},
+    "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+    "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2},
+    "mesh": {"preset": "coarse", "scale": 2.0},
+    "analysis": {"mode": "transient", "time_step": 0.01, "end_time": 50.0, "output_interval": 10.0},
+}
 
 
 def _free_port() -> int:
@@ -42,13 +46,20 @@ def _gone(pid: int) -> bool:
 def one(sig: signal.Signals, busy: bool) -> tuple[float, str]:
     with tempfile.TemporaryDirectory() as folder:
         port, log = _free_port(), Path(folder) / "serve.log"
-        proc = subprocess.Popen([sys.executable, "-m", "cli", "serve", "--port", str(port), "--data", folder,
-                                 "--workers", "1"], stdout=log.open("w"), stderr=subprocess.STDOUT,
-                                start_new_session=True)
+        proc = subprocess.Popen(
+            [sys.executable, "-m", "cli", "serve", "--port", str(port), "--data", folder, "--workers", "1"],
+            stdout=log.open("w"),
+            stderr=subprocess.STDOUT,
+            start_new_session=True,
+        )
         while f":{port}/" not in log.read_text():
             time.sleep(0.1)
-        workers = [int(p) for p in subprocess.run(["ps", "-o", "pid=", "--ppid", str(proc.pid)], capture_output=True,
-                                                  text=True).stdout.split()]
+        workers = [
+            int(p)
+            for p in subprocess.run(
+                ["ps", "-o", "pid=", "--ppid", str(proc.pid)], capture_output=True, text=True
+            ).stdout.split()
+        ]
         state = "-"
         if busy:
             api = httpx.Client(base_url=f"http://127.0.0.1:{port}/api/v1")

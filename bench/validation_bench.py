@@ -20,9 +20,15 @@ from solver import _polygons
 
 def polygons() -> list[dict]:
     t = np.linspace(0, 2 * np.pi, 200, endpoint=False)
-    return [{"shape": "polygon", "points": np.c_[0.5 + (i % 10) * 0.15 + 0.03 * np.cos(t),
-                                                 0.1 + (i // 10) * 0.2 + 0.03 * np.sin(t)].round(6).tolist()}
-            for i in range(20)]
+    return [
+        {
+            "shape": "polygon",
+            "points": np.c_[0.5 + (i % 10) * 0.15 + 0.03 * np.cos(t), 0.1 + (i // 10) * 0.2 + 0.03 * np.sin(t)]
+            .round(6)
+            .tolist(),
+        }
+        for i in range(20)
+    ]
 
 
 def main() -> None:
@@ -41,12 +47,15 @@ def main() -> None:
         with TestClient(create_app(settings)) as client:
             for values, axes, cap in ((6, 1, 1000), (100, 1, 1000), (100, 2, 5)):
                 settings.max_active_per_user = cap
-                vary = [{"path": "inflow.peak_velocity", "values": [0.1 + 0.004 * k for k in range(values)]},
-                        {"path": "mesh.scale", "values": [1.0, 1.1]}][:axes]
+                vary = [
+                    {"path": "inflow.peak_velocity", "values": [0.1 + 0.004 * k for k in range(values)]},
+                    {"path": "mesh.scale", "values": [1.0, 1.1]},
+                ][:axes]
                 start = time.perf_counter()
                 r = client.post("/api/v1/studies", json={"kind": "sweep", "base": base, "vary": vary})
                 took = time.perf_counter() - start
                 print(f"study of {values * axes:3d} points, cap {cap:4d}: HTTP {r.status_code} in {took:.2f} s")
+
 
 if __name__ == "__main__":
     main()

@@ -25,20 +25,28 @@ def main(argv: list[str] | None = None) -> int:
     p_serve.add_argument("--host", default="127.0.0.1")
     p_serve.add_argument("--port", type=int, default=8000)
     p_serve.add_argument("--data", type=Path, help="data folder (default: WAKEYARD_DATA_DIR or ./data)")
-    p_serve.add_argument("--workers", type=int,
-                         help="worker processes (default: WAKEYARD_WORKERS or the cores; 0: only the API)")
+    p_serve.add_argument(
+        "--workers", type=int, help="worker processes (default: WAKEYARD_WORKERS or the cores; 0: only the API)"
+    )
     p_worker = sub.add_parser("worker", help="only workers (more boxes sharing the broker and database)")
     p_worker.add_argument("--data", type=Path)
     p_worker.add_argument("--workers", type=int)
-    p_worker.add_argument("--check", action="store_true",
-                          help="exit 0 if a worker process on this host reported in within the lease, else 1")
-    p_study = sub.add_parser("study", help="submit a parameter study to a running service",
-                             description="Exit codes: 0 submitted (with --wait: all points succeeded), 1 a point "
-                                         "failed or was cancelled or the service is unreachable, 2 study refused.")
+    p_worker.add_argument(
+        "--check",
+        action="store_true",
+        help="exit 0 if a worker process on this host reported in within the lease, else 1",
+    )
+    p_study = sub.add_parser(
+        "study",
+        help="submit a parameter study to a running service",
+        description="Exit codes: 0 submitted (with --wait: all points succeeded), 1 a point "
+        "failed or was cancelled or the service is unreachable, 2 study refused.",
+    )
     p_study.add_argument("spec", type=Path, help="study spec (JSON): kind, base, vary or levels")
     p_study.add_argument("--url", default="http://127.0.0.1:8000", help="the service (default: %(default)s)")
-    p_study.add_argument("--token", default=os.environ.get("WAKEYARD_TOKEN"),
-                         help="API token (default: WAKEYARD_TOKEN)")
+    p_study.add_argument(
+        "--token", default=os.environ.get("WAKEYARD_TOKEN"), help="API token (default: WAKEYARD_TOKEN)"
+    )
     p_study.add_argument("--wait", action="store_true", help="wait for every point, then print the table (CSV)")
     p_study.add_argument("--fresh", action="store_true", help="run every point even if a result could be reused")
     p_token = sub.add_parser("token", help="API tokens")
@@ -104,6 +112,14 @@ def _run(spec_path: Path, out: Path, quiet: bool) -> int:
         bar.n = 1000
         bar.close()
     print("\n".join(caution_lines()), file=sys.stderr)
-    print(json.dumps({k: summary[k] for k in ("bodies", "strouhal_number", "pressure_drop", "mesh", "unavailable",
-                                               "wall_time_seconds") if k in summary}, indent=2))
+    print(
+        json.dumps(
+            {
+                k: summary[k]
+                for k in ("bodies", "strouhal_number", "pressure_drop", "mesh", "unavailable", "wall_time_seconds")
+                if k in summary
+            },
+            indent=2,
+        )
+    )
     return 0

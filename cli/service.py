@@ -46,25 +46,33 @@ def serve(host: str, port: int) -> int:
     settings.data_dir.mkdir(parents=True, exist_ok=True)
     lock = DataLock(settings.data_dir)
     if not lock.acquire(wait=5.0):
-        print(f"error: another wakeyard serve (pid {lock.holder()}) or its workers still use the data folder "
-              f"{settings.data_dir.resolve()}; stop it first, or choose another --data folder", file=sys.stderr)
+        print(
+            f"error: another wakeyard serve (pid {lock.holder()}) or its workers still use the data folder "
+            f"{settings.data_dir.resolve()}; stop it first, or choose another --data folder",
+            file=sys.stderr,
+        )
         return 2
     store, started = Store(settings.db_url), time.monotonic()
     if not _loopback(host) and not store.has_tokens():
-        print(f"error: refusing to listen on {host} without API tokens: anyone on the network could run jobs.\n"
-              "Create one first with `wakeyard token create NAME`, or serve on 127.0.0.1.", file=sys.stderr)
+        print(
+            f"error: refusing to listen on {host} without API tokens: anyone on the network could run jobs.\n"
+            "Create one first with `wakeyard token create NAME`, or serve on 127.0.0.1.",
+            file=sys.stderr,
+        )
         return 2
     with_workers = settings.workers > 0
     supervisor = Supervisor(settings.workers, "warning", keep_fds=[lock.fd])
     # the supervising thread starts and stops every worker (their parent-death signal is tied to it)
     supervising = threading.Thread(target=supervisor.run, name="wakeyard-supervisor", daemon=True)
-    config = uvicorn.Config(create_app(settings), host=host, port=port, log_level="warning",
-                            timeout_graceful_shutdown=1)
+    config = uvicorn.Config(
+        create_app(settings), host=host, port=port, log_level="warning", timeout_graceful_shutdown=1
+    )
     server = _Server(config, on_exit=supervisor.stopping.set)
     shown = f"[{host}]" if ":" in host else host
 
     def announce() -> None:
         """Print the URL once the API answers and a worker has reported in (or after a minute, with a warning)."""
+
         def workers_up() -> bool:
             return not with_workers or store.workers_seen(within=time.monotonic() - started + 1) > 0
 
@@ -73,8 +81,11 @@ def serve(host: str, port: int) -> int:
         if server.started:
             if not workers_up():
                 print("warning: no worker has reported in yet; jobs will wait in the queue", file=sys.stderr)
-            print(f"wakeyard is ready at http://{shown}:{port}/ ({settings.workers} worker processes here, data in "
-                  f"{settings.data_dir.resolve()}); Ctrl-C stops it", flush=True)
+            print(
+                f"wakeyard is ready at http://{shown}:{port}/ ({settings.workers} worker processes here, data in "
+                f"{settings.data_dir.resolve()}); Ctrl-C stops it",
+                flush=True,
+            )
 
     if with_workers:
         supervising.start()
@@ -122,8 +133,7 @@ def _hand_back(store: Any, names: list[str]) -> None:
     try:
         requeued = store.release_hosts(names)
     except Exception as err:  # the lease re-queues them later
-        print(f"warning: could not hand back the running jobs ({err}); the lease will re-queue them",
-              file=sys.stderr)
+        print(f"warning: could not hand back the running jobs ({err}); the lease will re-queue them", file=sys.stderr)
         return
     if requeued:
         print(f"{len(requeued)} running job(s) handed back to the queue", file=sys.stderr)

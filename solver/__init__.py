@@ -11,5 +11,19 @@ from .spec import JobSpec, load
 
 __version__ = "0.1.0"
 
-__all__ = ["Cancelled", "Diverged", "InternalError", "JobSpec", "Limits", "Progress", "RunFailed", "SpecError",
-           "WakeyardError", "WallTimeExceeded", "__version__", "check_limits", "load", "run"]
+__all__ = [
+    "Cancelled",
+    "Diverged",
+    "InternalError",
+    "JobSpec",
+    "Limits",
+    "Progress",
+    "RunFailed",
+    "SpecError",
+    "WakeyardError",
+    "WallTimeExceeded",
+    "__version__",
+    "check_limits",
+    "load",
+    "run",
+]

@@ -48,8 +48,13 @@ def find_cycles(t: np.ndarray, signal: np.ndarray, min_relative_amplitude: float
 def window_stats(values: np.ndarray) -> dict[str, float]:
     """Mean, extremes, half the peak-to-peak swing and the RMS of the fluctuation."""
     mean = float(values.mean())
-    return {"mean": mean, "min": float(values.min()), "max": float(values.max()),
-            "amplitude": float(0.5 * np.ptp(values)), "rms": float(np.sqrt(np.mean((values - mean) ** 2)))}
+    return {
+        "mean": mean,
+        "min": float(values.min()),
+        "max": float(values.max()),
+        "amplitude": float(0.5 * np.ptp(values)),
+        "rms": float(np.sqrt(np.mean((values - mean) ** 2))),
+    }
 
 
 def analysis_window(t: np.ndarray, cycles: Cycles, last: int = 5) -> np.ndarray:
@@ -68,7 +73,7 @@ def is_periodic(t: np.ndarray, signal: np.ndarray, cycles: int, tolerance: float
     found = find_cycles(t, signal)
     if found.count < cycles + 1:
         return False
-    starts = found.starts[-cycles - 1:]
+    starts = found.starts[-cycles - 1 :]
     periods = np.diff(starts)
     means, amps = [], []
     for a, b in zip(starts[:-1], starts[1:]):
@@ -76,18 +81,31 @@ def is_periodic(t: np.ndarray, signal: np.ndarray, cycles: int, tolerance: float
         means.append(part.mean())
         amps.append(0.5 * np.ptp(part))
     amp = max(float(np.mean(amps)), 1e-30)
-    return bool(np.ptp(periods) <= tolerance * periods.mean()
-                and np.ptp(means) <= tolerance * amp and np.ptp(amps) <= tolerance * amp)
+    return bool(
+        np.ptp(periods) <= tolerance * periods.mean()
+        and np.ptp(means) <= tolerance * amp
+        and np.ptp(amps) <= tolerance * amp
+    )
 
 
 def strouhal(t: np.ndarray, lift: np.ndarray, length: float, velocity: float) -> dict[str, float | str | None]:
     """Shedding frequency from whole lift cycles; the spread of the periods states its resolution."""
     cycles = find_cycles(t, lift)
     if cycles.count < 2:
-        return {"strouhal_number": None, "frequency": None, "frequency_resolution": None, "cycles": cycles.count,
-                "method": "up-crossings of the mean lift"}
-    last = cycles.periods[-min(5, cycles.count):]
+        return {
+            "strouhal_number": None,
+            "frequency": None,
+            "frequency_resolution": None,
+            "cycles": cycles.count,
+            "method": "up-crossings of the mean lift",
+        }
+    last = cycles.periods[-min(5, cycles.count) :]
     f = 1.0 / float(last.mean())
     spread = float(last.std()) * f * f if len(last) > 1 else float(np.diff(t).max()) * f * f
-    return {"strouhal_number": f * length / velocity, "frequency": f, "frequency_resolution": spread,
-            "cycles": int(len(last)), "method": "up-crossings of the mean lift"}
+    return {
+        "strouhal_number": f * length / velocity,
+        "frequency": f,
+        "frequency_resolution": spread,
+        "cycles": int(len(last)),
+        "method": "up-crossings of the mean lift",
+    }

@@ -59,8 +59,19 @@ class Case:
             for k in np.nonzero(~velocity_found)[0]:
                 unavailable[f"velocity_probes.{k}"] = _outside(points[:, [k]])
         t2 = time.perf_counter()
-        return cls(spec, cm, th, ns, forces, scale, pressure, velocity, velocity_found,
-                   {"mesh": t1 - t0, "setup": t2 - t1}, unavailable)
+        return cls(
+            spec,
+            cm,
+            th,
+            ns,
+            forces,
+            scale,
+            pressure,
+            velocity,
+            velocity_found,
+            {"mesh": t1 - t0, "setup": t2 - t1},
+            unavailable,
+        )
 
     @property
     def cells(self) -> int:
@@ -82,13 +93,16 @@ class Case:
 
     def columns(self) -> list[str]:
         """forces.csv header; a probe point outside the fluid has no columns (summary.json says why)."""
-        return force_columns([b.name for b in self.spec.bodies], self.pressure_probes is not None,
-                             [k + 1 for k in np.nonzero(self.velocity_found)[0]])
+        return force_columns(
+            [b.name for b in self.spec.bodies],
+            self.pressure_probes is not None,
+            [k + 1 for k in np.nonzero(self.velocity_found)[0]],
+        )
 
     def velocity_probe_values(self, row: list[float]) -> list[list[float] | None]:
         """Probe velocities ``[ux, uy]`` from a forces row, ``None`` for a point outside the fluid."""
         found = int(self.velocity_found.sum())
-        values = iter(np.reshape(row[len(row) - 2 * found:], (-1, 2)).tolist() if found else [])
+        values = iter(np.reshape(row[len(row) - 2 * found :], (-1, 2)).tolist() if found else [])
         return [next(values) if ok else None for ok in self.velocity_found]
 
     def cfl(self, x: np.ndarray, dt: float) -> float:

@@ -6,10 +6,12 @@ import textwrap
 
 from matplotlib.figure import Figure
 
-CAUTION = ("wakeyard solves the 2D laminar incompressible Navier-Stokes equations. Real piers, cables, pipes and "
-           "structures see three-dimensional, usually turbulent flow, so these results are a study aid, not design "
-           "loads. Check them against measurements or established methods, and defer to the applicable codes and "
-           "standards and to a licensed engineer for any decision that matters.")
+CAUTION = (
+    "wakeyard solves the 2D laminar incompressible Navier-Stokes equations. Real piers, cables, pipes and "
+    "structures see three-dimensional, usually turbulent flow, so these results are a study aid, not design "
+    "loads. Check them against measurements or established methods, and defer to the applicable codes and "
+    "standards and to a licensed engineer for any decision that matters."
+)
 
 
 def caution_lines(width: int = 110) -> list[str]:

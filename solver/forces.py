@@ -35,11 +35,19 @@ class BodyForces:
             psi[dofs] = 1.0
             wx, wy = np.zeros(th.ndofs), np.zeros(th.ndofs)
             wx[dofs], wy[n + dofs] = 1.0, 1.0
-            self.tests.append({"wx": wx, "wy": wy, "Sx": ns.stokes_matrix.T @ wx, "Sy": ns.stokes_matrix.T @ wy,
-                               "Mw": th.mass.T @ psi})
+            self.tests.append(
+                {
+                    "wx": wx,
+                    "wy": wy,
+                    "Sx": ns.stokes_matrix.T @ wx,
+                    "Sy": ns.stokes_matrix.T @ wy,
+                    "Mw": th.mass.T @ psi,
+                }
+            )
 
-    def evaluate(self, x: np.ndarray, convection: np.ndarray, dudt: np.ndarray | None = None
-                 ) -> dict[str, tuple[float, float]]:
+    def evaluate(
+        self, x: np.ndarray, convection: np.ndarray, dudt: np.ndarray | None = None
+    ) -> dict[str, tuple[float, float]]:
         """Forces per body.
 
         ``convection`` is the full-length convection vector the scheme used at

@@ -21,14 +21,20 @@ def check_limits(spec: JobSpec, limits: Limits) -> None:
     problems = []
     dofs = meshing.estimate_dofs(spec)
     if dofs > limits.max_dofs:
-        problems.append(("mesh", f"the mesh would have about {dofs:,} unknowns, over the limit of "
-                                 f"{limits.max_dofs:,}: choose a coarser preset or larger sizes"))
+        problems.append(
+            (
+                "mesh",
+                f"the mesh would have about {dofs:,} unknowns, over the limit of "
+                f"{limits.max_dofs:,}: choose a coarser preset or larger sizes",
+            )
+        )
     a = spec.analysis
     if a.mode == "transient":
         ratio = a.end_time / a.time_step  # may be astronomically large for untrusted input
         if ratio > limits.max_steps:
             shown = f"{math.ceil(ratio - 1e-9):,}" if ratio < 1e15 else "over 1e15"
-            problems.append(("analysis.time_step", f"{shown} steps (end_time / time_step) exceed the limit of "
-                                                   f"{limits.max_steps:,}"))
+            problems.append(
+                ("analysis.time_step", f"{shown} steps (end_time / time_step) exceed the limit of {limits.max_steps:,}")
+            )
     if problems:
         raise SpecError(problems)

@@ -96,8 +96,11 @@ class RepeatedSolver:
         if self.pardiso is None:
             self.lu = splu(M.tocsc(), permc_spec="COLAMD")
             return
-        same = (self.pattern is not None and np.array_equal(self.pattern[0], M.indptr)
-                and np.array_equal(self.pattern[1], M.indices))
+        same = (
+            self.pattern is not None
+            and np.array_equal(self.pattern[0], M.indptr)
+            and np.array_equal(self.pattern[1], M.indices)
+        )
         # pypardiso exposes the PARDISO phases only through its internal call:
         # 11 analysis, 22 numeric factorisation, 33 solve
         if not same:

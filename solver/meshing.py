@@ -24,8 +24,11 @@ from .spec import JobSpec
 # many times a mesh of twice (four times) those sizes is split uniformly to reach them. Split meshes
 # converge far more regularly than freshly graded ones of the same size: on the 2D-1 benchmark, medium
 # gives cD within 1e-5 with about 46k unknowns where a directly generated mesh needed 90k.
-PRESETS = {"coarse": ((1 / 20, 1 / 3, 1 / 1.2), 0), "medium": ((1 / 40, 1 / 4, 1 / 1.6), 1),
-           "fine": ((1 / 40, 1 / 6, 1 / 2.4), 2)}
+PRESETS = {
+    "coarse": ((1 / 20, 1 / 3, 1 / 1.2), 0),
+    "medium": ((1 / 40, 1 / 4, 1 / 1.6), 1),
+    "fine": ((1 / 40, 1 / 6, 1 / 2.4), 2),
+}
 
 _gmsh_lock = threading.Lock()  # gmsh keeps global state
 
@@ -88,8 +91,9 @@ def build(spec: JobSpec) -> ChannelMesh:
     """Mesh the channel of ``spec`` with its bodies cut out."""
     s = sizes(spec)
     coarsen = 2**s.preset_splits
-    base = MeshSizes(s.body * coarsen, s.wake * coarsen, s.far * coarsen, s.wake_length,
-                     s.preset_splits, s.extra_splits)
+    base = MeshSizes(
+        s.body * coarsen, s.wake * coarsen, s.far * coarsen, s.wake_length, s.preset_splits, s.extra_splits
+    )
     with _gmsh_lock:
         p, t = _generate(spec, base)
     order2 = t.shape[0] == 6
@@ -148,9 +152,13 @@ def _generate(spec: JobSpec, s: MeshSizes) -> tuple[np.ndarray, np.ndarray]:
             occ.cut([(2, box)], holes)
         occ.synchronize()
         _size_fields(gmsh, spec, s)
-        for name, value in [("Mesh.MeshSizeExtendFromBoundary", 0), ("Mesh.MeshSizeFromPoints", 0),
-                            ("Mesh.MeshSizeFromCurvature", 0), ("Mesh.Algorithm", 6),
-                            ("Mesh.HighOrderOptimize", 0)]:
+        for name, value in [
+            ("Mesh.MeshSizeExtendFromBoundary", 0),
+            ("Mesh.MeshSizeFromPoints", 0),
+            ("Mesh.MeshSizeFromCurvature", 0),
+            ("Mesh.Algorithm", 6),
+            ("Mesh.HighOrderOptimize", 0),
+        ]:
             gmsh.option.setNumber(name, value)
         gmsh.model.mesh.generate(2)
         for _ in range(s.preset_splits + s.extra_splits):
@@ -209,8 +217,9 @@ def _size_fields(gmsh, spec: JobSpec, s: MeshSizes) -> None:
     ch = spec.channel
     fields = []
     if spec.bodies:
-        outer = {tag for _, tag in gmsh.model.getBoundary([(2, t) for _, t in gmsh.model.getEntities(2)],
-                                                          oriented=False)}
+        outer = {
+            tag for _, tag in gmsh.model.getBoundary([(2, t) for _, t in gmsh.model.getEntities(2)], oriented=False)
+        }
         body_curves = []
         for tag in outer:
             xmin, ymin, _, xmax, ymax, _ = gmsh.model.getBoundingBox(1, tag)

@@ -68,6 +68,8 @@ class NavierStokes:
         if shift is not None:
             diag = diag + shift
         gx, gy = [(q.ddx @ u, q.ddy @ u) for u in (ux, uy)]
-        blocks = [[diag + q.reaction_matrix(gx[0]), q.reaction_matrix(gx[1])],
-                  [q.reaction_matrix(gy[0]), diag + q.reaction_matrix(gy[1])]]
+        blocks = [
+            [diag + q.reaction_matrix(gx[0]), q.reaction_matrix(gx[1])],
+            [q.reaction_matrix(gy[0]), diag + q.reaction_matrix(gy[1])],
+        ]
         return self.th.saddle_point(blocks)

@@ -83,9 +83,16 @@ class Snapshots:
         fields = {"ux": ux, "uy": uy, "pressure": self.pressure_to_velocity @ p, "vorticity": th.vorticity(ux, uy)}
         stem = f"step_{k:06d}"
         np.savez_compressed(self.dir / f"{stem}.npz", time=t, **fields)
-        mesh = meshio.Mesh(self.points, self.cells, point_data={
-            "velocity": np.c_[ux, uy, np.zeros_like(ux)], "pressure": fields["pressure"],
-            "vorticity": fields["vorticity"], "speed": np.hypot(ux, uy)})
+        mesh = meshio.Mesh(
+            self.points,
+            self.cells,
+            point_data={
+                "velocity": np.c_[ux, uy, np.zeros_like(ux)],
+                "pressure": fields["pressure"],
+                "vorticity": fields["vorticity"],
+                "speed": np.hypot(ux, uy),
+            },
+        )
         tmp = self.dir / f".{stem}.vtu"
         meshio.write(tmp, mesh, file_format="vtu", binary=True)
         os.replace(tmp, self.dir / f"{stem}.vtu")
@@ -95,8 +102,11 @@ class Snapshots:
 
     def _write_pvd(self) -> None:
         items = "\n".join(f'    <DataSet timestep="{t:.10g}" file="{s}.vtu"/>' for t, s in self.index)
-        write_atomic(self.dir / "flow.pvd", '<?xml version="1.0"?>\n<VTKFile type="Collection" version="0.1">\n'
-                     f"  <Collection>\n{items}\n  </Collection>\n</VTKFile>\n")
+        write_atomic(
+            self.dir / "flow.pvd",
+            '<?xml version="1.0"?>\n<VTKFile type="Collection" version="0.1">\n'
+            f"  <Collection>\n{items}\n  </Collection>\n</VTKFile>\n",
+        )
 
 
 def _pressure_on_velocity_nodes(th: TaylorHood) -> sp.csr_matrix:

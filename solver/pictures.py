@@ -45,8 +45,15 @@ def color_limits(snapshots: list[dict[str, np.ndarray]]) -> dict[str, tuple[floa
     return limits
 
 
-def field_picture(path: Path, spec: JobSpec, tri: Triangulation, fields: dict[str, np.ndarray], name: str,
-                  limits: tuple[float, float], time: float | None) -> None:
+def field_picture(
+    path: Path,
+    spec: JobSpec,
+    tri: Triangulation,
+    fields: dict[str, np.ndarray],
+    name: str,
+    limits: tuple[float, float],
+    time: float | None,
+) -> None:
     label, cmap = FIELDS[name]
     values = np.hypot(fields["ux"], fields["uy"]) if name == "speed" else fields[name]
     L, H = spec.channel.length, spec.channel.height
@@ -63,8 +70,9 @@ def field_picture(path: Path, spec: JobSpec, tri: Triangulation, fields: dict[st
     ax.set_xlabel("x [m]")
     ax.set_ylabel("y [m]")
     title = spec.title or "flow"
-    ax.set_title(f"{title}: {label.split(' [')[0].lower()}" + (f" at t = {time:.4g} s" if time is not None else ""),
-                 fontsize=10)
+    ax.set_title(
+        f"{title}: {label.split(' [')[0].lower()}" + (f" at t = {time:.4g} s" if time is not None else ""), fontsize=10
+    )
     fig.colorbar(art, ax=ax, label=label, fraction=0.05, pad=0.015)
     add_footer(fig)
     fig.savefig(path, dpi=110, bbox_inches="tight", pad_inches=0.12)

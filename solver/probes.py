@@ -51,8 +51,8 @@ def locate(basis: Basis, parent: MeshTri, points: np.ndarray) -> Located:
         k = min(12, parent.t.shape[1])
         for i in np.nonzero(~found)[0]:
             near = np.atleast_1d(tree.query(points[:, i], k=k)[1])
-            X = _inverse(basis.mapping, near, np.repeat(points[:, i:i + 1], len(near), axis=1))
-            dist = _distance(basis.mapping, near, X, np.repeat(points[:, i:i + 1], len(near), axis=1))
+            X = _inverse(basis.mapping, near, np.repeat(points[:, i : i + 1], len(near), axis=1))
+            dist = _distance(basis.mapping, near, X, np.repeat(points[:, i : i + 1], len(near), axis=1))
             best = int(np.argmin(dist))
             if dist[best] < surface:
                 cells[i], refs[:, i], found[i] = near[best], X[:, best], True
@@ -67,8 +67,15 @@ def probe_matrix(basis: Basis, parent: MeshTri, points: np.ndarray) -> tuple[sp.
     """
     at = locate(basis, parent, points)
     n = points.shape[1]
-    phis = np.array([np.asarray(basis.elem.gbasis(basis.mapping, at.refs[:, :, None], k, tind=at.cells)[0])[:, 0]
-                     for k in range(basis.Nbfun)]) * at.found
+    phis = (
+        np.array(
+            [
+                np.asarray(basis.elem.gbasis(basis.mapping, at.refs[:, :, None], k, tind=at.cells)[0])[:, 0]
+                for k in range(basis.Nbfun)
+            ]
+        )
+        * at.found
+    )
     rows = np.tile(np.arange(n), basis.Nbfun)
     cols = basis.element_dofs[:, at.cells].ravel()
     return sp.coo_matrix((phis.ravel(), (rows, cols)), shape=(n, basis.N)).tocsr(), at.found
@@ -84,7 +91,7 @@ def _straight_cells(parent: MeshTri, points: np.ndarray) -> np.ndarray:
     cells = np.where(inside.any(axis=1), near[np.arange(len(near)), inside.argmax(axis=1)], -1)
     everything = np.arange(t.shape[1])
     for i in np.nonzero(cells < 0)[0]:  # a point beside a much larger cell: look everywhere
-        hit = np.nonzero(_barycentric_inside(p, t, everything[None, :], points[:, i:i + 1])[0])[0]
+        hit = np.nonzero(_barycentric_inside(p, t, everything[None, :], points[:, i : i + 1])[0])[0]
         cells[i] = everything[hit[0]] if len(hit) else -1
     return cells
 

@@ -45,9 +45,15 @@ class Progress:
 ProgressCallback = Callable[[Progress], None]
 
 
-def run(spec: JobSpec | dict[str, Any], out: str | Path, *, progress: ProgressCallback | None = None,
-        should_stop: Callable[[], bool] | None = None, wall_time_limit: float | None = None,
-        resume: bool = True) -> dict[str, Any]:
+def run(
+    spec: JobSpec | dict[str, Any],
+    out: str | Path,
+    *,
+    progress: ProgressCallback | None = None,
+    should_stop: Callable[[], bool] | None = None,
+    wall_time_limit: float | None = None,
+    resume: bool = True,
+) -> dict[str, Any]:
     """Compute ``spec`` and write forces.csv, summary.json, fields/ and pictures to ``out``.
 
     ``should_stop`` is polled between steps (cancellation); a transient run
@@ -101,11 +107,18 @@ def run(spec: JobSpec | dict[str, Any], out: str | Path, *, progress: ProgressCa
 
 def _common_summary(case: Case) -> dict[str, Any]:
     spec = case.spec
-    return {"title": spec.title, "mode": spec.analysis.mode, "elements": spec.elements,
-            "reynolds_number": spec.reynolds(), "reference": {
-                "velocity": spec.reference_velocity(),
-                "lengths": {b.name: spec.reference_length(i) for i, b in enumerate(spec.bodies)}},
-            "mesh": {"cells": case.cells, "dofs": case.th.ndofs}, "timings": dict(case.timings)}
+    return {
+        "title": spec.title,
+        "mode": spec.analysis.mode,
+        "elements": spec.elements,
+        "reynolds_number": spec.reynolds(),
+        "reference": {
+            "velocity": spec.reference_velocity(),
+            "lengths": {b.name: spec.reference_length(i) for i, b in enumerate(spec.bodies)},
+        },
+        "mesh": {"cells": case.cells, "dofs": case.th.ndofs},
+        "timings": dict(case.timings),
+    }
 
 
 def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[str, Any]:
@@ -114,8 +127,15 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
 
     def report(k: int, update: float) -> None:
         if progress:
-            progress(Progress(k, spec.analysis.max_newton_iterations, 0.0, 0.0,
-                              f"Newton iteration {k}: relative update {update:.2e}"))
+            progress(
+                Progress(
+                    k,
+                    spec.analysis.max_newton_iterations,
+                    0.0,
+                    0.0,
+                    f"Newton iteration {k}: relative update {update:.2e}",
+                )
+            )
 
     x, newton = solve_steady(case.ns, spec.analysis.newton_tolerance, spec.analysis.max_newton_iterations, report)
     solve = time.perf_counter() - t0
@@ -127,15 +147,25 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
         length, reason = recirculation_length(case, x, i)
         if reason:
             case.unavailable[f"bodies.{i}.recirculation_length"] = reason
-        summary["bodies"].append({"name": b.name, "fx": row[1 + 4 * i], "fy": row[2 + 4 * i],
-                                  "drag_coefficient": row[3 + 4 * i], "lift_coefficient": row[4 + 4 * i],
-                                  "recirculation_length": length})
+        summary["bodies"].append(
+            {
+                "name": b.name,
+                "fx": row[1 + 4 * i],
+                "fy": row[2 + 4 * i],
+                "drag_coefficient": row[3 + 4 * i],
+                "lift_coefficient": row[4 + 4 * i],
+                "recirculation_length": length,
+            }
+        )
     nb = 1 + 4 * len(spec.bodies)
     summary["pressure_drop"] = row[nb] if case.pressure_probes is not None else None
     if spec.probes.velocity:
         summary["velocity_probes"] = case.velocity_probe_values(row)
-    summary["newton"] = {"iterations": newton.iterations, "residual": newton.residual,
-                         "continuation": newton.continuation_steps}
+    summary["newton"] = {
+        "iterations": newton.iterations,
+        "residual": newton.residual,
+        "continuation": newton.continuation_steps,
+    }
     t1 = time.perf_counter()
     output.Snapshots(out, case.th, spec.fluid.density).save(0, 0.0, x)
     _pictures(case, out, [0])
@@ -172,8 +202,15 @@ def _draw_pictures(case: Case, out: Path, steps: list[int]) -> None:
 class _Transient:
     """The time loop with outputs, checkpoints, cancellation and the periodic-state stop."""
 
-    def __init__(self, case: Case, out: Path, progress: ProgressCallback | None,
-                 should_stop: Callable[[], bool] | None, deadline: float, resume: bool):
+    def __init__(
+        self,
+        case: Case,
+        out: Path,
+        progress: ProgressCallback | None,
+        should_stop: Callable[[], bool] | None,
+        deadline: float,
+        resume: bool,
+    ):
         self.case, self.out, self.progress, self.should_stop = case, out, progress, should_stop
         self.deadline, self.resume = deadline, resume
         a = case.spec.analysis
@@ -235,11 +272,21 @@ class _Transient:
         summary = _common_summary(case)
         whole = a.until_periodic.cycles if ended_by == "periodic" else 5  # the cycles found to repeat
         summary.update(self._statistics(data, whole))
-        summary.update({"ended_by": ended_by, "steps": stepper.n, "time_step": self.dt, "scheme": a.scheme,
-                        "simulated_time": stepper.t, "max_cfl": max_cfl, "resumed_from_step": self.resumed_from_step,
-                        "factorisations": stepper.factorisations})
-        summary["timings"].update({"solve": solve, "seconds_per_step": solve / max(stepper.n, 1),
-                                   "output": time.perf_counter() - t_out})
+        summary.update(
+            {
+                "ended_by": ended_by,
+                "steps": stepper.n,
+                "time_step": self.dt,
+                "scheme": a.scheme,
+                "simulated_time": stepper.t,
+                "max_cfl": max_cfl,
+                "resumed_from_step": self.resumed_from_step,
+                "factorisations": stepper.factorisations,
+            }
+        )
+        summary["timings"].update(
+            {"solve": solve, "seconds_per_step": solve / max(stepper.n, 1), "output": time.perf_counter() - t_out}
+        )
         (self.out / "checkpoint.npz").unlink(missing_ok=True)
         return summary
 
@@ -258,9 +305,16 @@ class _Transient:
     def _checkpoint(self, stepper: Stepper) -> None:
         tmp = self.out / ".checkpoint.npz"
         with open(tmp, "wb") as f:
-            np.savez(f, x=stepper.x, x_old=stepper.x_old, t=stepper.t, step=stepper.n,
-                     rows=np.array(self.rows), snapshots=np.array(self.snapshots, dtype=int),
-                     fingerprint=self.fingerprint)
+            np.savez(
+                f,
+                x=stepper.x,
+                x_old=stepper.x_old,
+                t=stepper.t,
+                step=stepper.n,
+                rows=np.array(self.rows),
+                snapshots=np.array(self.snapshots, dtype=int),
+                fingerprint=self.fingerprint,
+            )
         tmp.replace(self.out / "checkpoint.npz")
         output.write_forces(self.out / "forces.csv", self.columns, self.rows)
 
@@ -272,9 +326,11 @@ class _Transient:
     def _diverged(self, stepper: Stepper) -> None:
         cfl = self.case.cfl(stepper.x_old, self.dt)
         suggestion = self.dt * min(0.5, 0.4 / cfl) if cfl > 0 else self.dt / 2
-        raise Diverged(f"the solution blew up at t = {stepper.t:.6g} s (step {stepper.n}) with scheme "
-                       f"{stepper.scheme}; CFL number before the blow-up about {cfl:.2f}; "
-                       f"try analysis.time_step = {suggestion:.3g} or the bdf2-implicit scheme")
+        raise Diverged(
+            f"the solution blew up at t = {stepper.t:.6g} s (step {stepper.n}) with scheme "
+            f"{stepper.scheme}; CFL number before the blow-up about {cfl:.2f}; "
+            f"try analysis.time_step = {suggestion:.3g} or the bdf2-implicit scheme"
+        )
 
     def _periodic(self) -> bool:
         up = self.case.spec.analysis.until_periodic
@@ -292,15 +348,29 @@ class _Transient:
         bodies = []
         for i, b in enumerate(spec.bodies):
             st = analysis.strouhal(t, data[:, 4 + 4 * i], spec.reference_length(i), spec.reference_velocity())
-            bodies.append({"name": b.name,
-                           "drag_coefficient": analysis.window_stats(data[window, 3 + 4 * i]),
-                           "lift_coefficient": analysis.window_stats(data[window, 4 + 4 * i]),
-                           "strouhal_number": st["strouhal_number"]})
-        shedding = analysis.strouhal(t, lift_ref, spec.reference_length(0), spec.reference_velocity()) \
-            if spec.bodies else {"strouhal_number": None}
+            bodies.append(
+                {
+                    "name": b.name,
+                    "drag_coefficient": analysis.window_stats(data[window, 3 + 4 * i]),
+                    "lift_coefficient": analysis.window_stats(data[window, 4 + 4 * i]),
+                    "strouhal_number": st["strouhal_number"],
+                }
+            )
+        shedding = (
+            analysis.strouhal(t, lift_ref, spec.reference_length(0), spec.reference_velocity())
+            if spec.bodies
+            else {"strouhal_number": None}
+        )
         nb = 1 + 4 * len(spec.bodies)
         pdrop = analysis.window_stats(data[window, nb]) if self.case.pressure_probes is not None else None
-        return {"bodies": bodies, "strouhal_number": shedding["strouhal_number"], "shedding": shedding,
-                "pressure_drop": pdrop,
-                "window": {"start": float(t[window][0]), "end": float(t[window][-1]),
-                           "whole_cycles": int(min(cycles.count, whole_cycles))}}
+        return {
+            "bodies": bodies,
+            "strouhal_number": shedding["strouhal_number"],
+            "shedding": shedding,
+            "pressure_drop": pdrop,
+            "window": {
+                "start": float(t[window][0]),
+                "end": float(t[window][-1]),
+                "whole_cycles": int(min(cycles.count, whole_cycles)),
+            },
+        }

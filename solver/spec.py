@@ -54,8 +54,9 @@ class Fluid(_Model):
     """Either density and kinematic viscosity, or a Reynolds number on the reference scales."""
 
     density: float = Field(WATER_20C["density"], gt=0, le=1e6, description="kg/m^3 (default: water at 20 °C)")
-    viscosity: float | None = Field(None, gt=0, le=MAX_VISCOSITY,
-                                    description="kinematic viscosity, m^2/s (default: water at 20 °C)")
+    viscosity: float | None = Field(
+        None, gt=0, le=MAX_VISCOSITY, description="kinematic viscosity, m^2/s (default: water at 20 °C)"
+    )
     reynolds: float | None = Field(None, ge=MIN_REYNOLDS, le=MAX_REYNOLDS)
     reference: Reference = Reference()
 
@@ -76,7 +77,8 @@ class TimeLaw(_Model):
     amplitude: float = Field(1.0, ge=-1e3, le=1e3)
     mean: float = Field(0.0, ge=-1e3, le=1e3)
     points: list[tuple[Annotated[float, Field(ge=0, le=1e9)], Annotated[float, Field(ge=-1e3, le=1e3)]]] | None = Field(
-        None, min_length=2, max_length=10000)
+        None, min_length=2, max_length=10000
+    )
 
     @model_validator(mode="after")
     def _complete(self) -> TimeLaw:
@@ -230,13 +232,23 @@ def _check_geometry(spec: JobSpec) -> list[tuple[str, str]]:
         x0, y0 = pts.min(axis=0)
         x1, y1 = pts.max(axis=0)
         if x0 <= 0 or y0 <= 0 or x1 >= L or y1 >= H:
-            problems.append((where, f"{body.name} spans x {x0:.4g}..{x1:.4g}, y {y0:.4g}..{y1:.4g}, "
-                                    f"which is not strictly inside the channel 0..{L:g} x 0..{H:g}"))
+            problems.append(
+                (
+                    where,
+                    f"{body.name} spans x {x0:.4g}..{x1:.4g}, y {y0:.4g}..{y1:.4g}, "
+                    f"which is not strictly inside the channel 0..{L:g} x 0..{H:g}",
+                )
+            )
         elif min(x0, y0, L - x1, H - y1) < 1e-3 * H:
             problems.append((where, f"{body.name} is closer than {1e-3 * H:.3g} to the channel boundary"))
         if body.reference_length() < 1e-5 * H:
-            problems.append((where, f"{body.name} is {body.reference_length():.3g} across, smaller than "
-                                    f"1e-5 of the channel height: too small to mesh"))
+            problems.append(
+                (
+                    where,
+                    f"{body.name} is {body.reference_length():.3g} across, smaller than "
+                    f"1e-5 of the channel height: too small to mesh",
+                )
+            )
         if body.shape == "polygon" and not _polygons.is_simple(pts):
             problems.append((f"{where}.points", "the polygon's edges cross or touch each other"))
         for j in range(i):
@@ -269,18 +281,33 @@ def _check_scales(spec: JobSpec) -> list[tuple[str, str]]:
     """The derived scales (reference velocity, Reynolds number, viscosity) stay in the ranges a given one may have."""
     U, L = spec.reference_velocity(), spec.reference_length()
     if U <= 0:
-        return [("inflow.time_law", "the inflow's nominal velocity is zero: the time law must not be zero throughout "
-                                    "(or give fluid.reference.velocity)")]
+        return [
+            (
+                "inflow.time_law",
+                "the inflow's nominal velocity is zero: the time law must not be zero throughout "
+                "(or give fluid.reference.velocity)",
+            )
+        ]
     if spec.fluid.reynolds is not None:
         nu = U * L / spec.fluid.reynolds
         if nu > MAX_VISCOSITY:
-            return [("fluid.reynolds", f"Re = {spec.fluid.reynolds:.3g} on U = {U:.3g} m/s and L = {L:.3g} m means a "
-                                       f"kinematic viscosity of {nu:.3g} m²/s, over the limit of {MAX_VISCOSITY:g}")]
+            return [
+                (
+                    "fluid.reynolds",
+                    f"Re = {spec.fluid.reynolds:.3g} on U = {U:.3g} m/s and L = {L:.3g} m means a "
+                    f"kinematic viscosity of {nu:.3g} m²/s, over the limit of {MAX_VISCOSITY:g}",
+                )
+            ]
         return []
     re = U * L / spec.fluid.viscosity  # type: ignore[operator]
     if not MIN_REYNOLDS <= re <= MAX_REYNOLDS:
-        return [("fluid.viscosity", f"the Reynolds number U L / ν = {re:.3g} (U = {U:.3g} m/s, L = {L:.3g} m) is "
-                                    f"outside {MIN_REYNOLDS:g} to {MAX_REYNOLDS:g}")]
+        return [
+            (
+                "fluid.viscosity",
+                f"the Reynolds number U L / ν = {re:.3g} (U = {U:.3g} m/s, L = {L:.3g} m) is "
+                f"outside {MIN_REYNOLDS:g} to {MAX_REYNOLDS:g}",
+            )
+        ]
     return []
 
 

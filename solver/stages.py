@@ -6,12 +6,23 @@ import traceback
 from pathlib import Path
 
 # Innermost match wins. Modules shared by several stages (linear algebra, probes) are not listed: their caller is.
-_BY_FUNCTION = {("case", "build"): "setting up the case", ("case", "force_row"): "computing the forces",
-                ("run", "_statistics"): "post-processing", ("run", "_common_summary"): "post-processing",
-                ("run", "_start"): "starting the time loop", ("run", "_checkpoint"): "writing a checkpoint"}
-_BY_MODULE = {"meshing": "meshing", "steady": "the steady solve", "transient": "time stepping",
-              "analysis": "post-processing", "recirculation": "post-processing", "pictures": "drawing pictures",
-              "output": "writing result files"}
+_BY_FUNCTION = {
+    ("case", "build"): "setting up the case",
+    ("case", "force_row"): "computing the forces",
+    ("run", "_statistics"): "post-processing",
+    ("run", "_common_summary"): "post-processing",
+    ("run", "_start"): "starting the time loop",
+    ("run", "_checkpoint"): "writing a checkpoint",
+}
+_BY_MODULE = {
+    "meshing": "meshing",
+    "steady": "the steady solve",
+    "transient": "time stepping",
+    "analysis": "post-processing",
+    "recirculation": "post-processing",
+    "pictures": "drawing pictures",
+    "output": "writing result files",
+}
 _PACKAGE = Path(__file__).resolve().parent
 
 

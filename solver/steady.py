@@ -19,8 +19,13 @@ class NewtonReport:
     continuation_steps: list[float]
 
 
-def newton(ns: NavierStokes, x0: np.ndarray, tol: float = 1e-8, max_iterations: int = 30,
-           on_iteration: Callable[[int, float], None] | None = None) -> tuple[np.ndarray, int, float]:
+def newton(
+    ns: NavierStokes,
+    x0: np.ndarray,
+    tol: float = 1e-8,
+    max_iterations: int = 30,
+    on_iteration: Callable[[int, float], None] | None = None,
+) -> tuple[np.ndarray, int, float]:
     """Newton iterations on the stationary equations; ``x0`` must carry the boundary values.
 
     Converged when the update is below ``tol`` relative to the solution. Raises
@@ -50,8 +55,12 @@ def newton(ns: NavierStokes, x0: np.ndarray, tol: float = 1e-8, max_iterations: 
     raise Diverged(f"Newton did not converge in {max_iterations} iterations (last relative update {step:.3g})")
 
 
-def solve_steady(ns: NavierStokes, tol: float = 1e-8, max_iterations: int = 30,
-                 on_iteration: Callable[[int, float], None] | None = None) -> tuple[np.ndarray, NewtonReport]:
+def solve_steady(
+    ns: NavierStokes,
+    tol: float = 1e-8,
+    max_iterations: int = 30,
+    on_iteration: Callable[[int, float], None] | None = None,
+) -> tuple[np.ndarray, NewtonReport]:
     """Stationary flow: plain Newton from Stokes, else continuation in the Reynolds number.
 
     Continuation first finds a viscosity, up to 256 times the target, at which
@@ -73,8 +82,10 @@ def solve_steady(ns: NavierStokes, tol: float = 1e-8, max_iterations: int = 30,
         except Diverged:
             continue
     else:
-        raise Diverged("Newton did not converge even at 1/256 of the Reynolds number; "
-                       "the flow may have no stable steady state: try a transient analysis")
+        raise Diverged(
+            "Newton did not converge even at 1/256 of the Reynolds number; "
+            "the flow may have no stable steady state: try a transient analysis"
+        )
     nu_ok, factor, steps = target * 2.0**k, 2.0, [2.0**-k]
     while nu_ok > target:
         nu = max(target, nu_ok / factor)
@@ -84,8 +95,10 @@ def solve_steady(ns: NavierStokes, tol: float = 1e-8, max_iterations: int = 30,
         except Diverged:
             factor = factor**0.5
             if factor < 1.01:
-                raise Diverged(f"continuation stalled at {target / nu_ok:.3g} of the target Reynolds number; "
-                               "the flow may have no steady state there: try a transient analysis") from None
+                raise Diverged(
+                    f"continuation stalled at {target / nu_ok:.3g} of the target Reynolds number; "
+                    "the flow may have no steady state there: try a transient analysis"
+                ) from None
             continue
         x, nu_ok, total = x_new, nu, total + its
         steps.append(target / nu)

@@ -76,8 +76,9 @@ class StudySpec(_Model):
 MAX_POINTS = 200
 
 
-def expand(study: StudySpec | dict[str, Any], counted: Callable[[int], None] | None = None,
-           deadline: float = math.inf) -> list[tuple[dict[str, float], JobSpec]]:
+def expand(
+    study: StudySpec | dict[str, Any], counted: Callable[[int], None] | None = None, deadline: float = math.inf
+) -> list[tuple[dict[str, float], JobSpec]]:
     """The study's points: ``(varied values, job spec)``.
 
     A mesh-convergence study splits every cell of the base mesh into four,
@@ -121,8 +122,15 @@ def expand(study: StudySpec | dict[str, Any], counted: Callable[[int], None] | N
     points, problems = [], []
     for k, combo in enumerate(combos):
         if time.monotonic() > deadline:
-            raise SpecError([("(body)", f"checking the study's points took too long (stopped at point {k} of "
-                                        f"{len(combos)}): use fewer points or simpler bodies")])
+            raise SpecError(
+                [
+                    (
+                        "(body)",
+                        f"checking the study's points took too long (stopped at point {k} of "
+                        f"{len(combos)}): use fewer points or simpler bodies",
+                    )
+                ]
+            )
         case, values = data, {}
         for (path, _), value in zip(axes, combo):
             case = _with(case, path, value)
@@ -194,6 +202,11 @@ def convergence(summaries: list[dict[str, Any]], area: float) -> dict[str, dict[
     for key in values[0]:
         if all(key in v for v in values):
             g = grid_convergence(h, tuple(v[key] for v in values))  # type: ignore[arg-type]
-            out[key] = {"observed_order": g.observed_order, "extrapolated": g.extrapolated,
-                        "gci_fine": g.gci_fine, "monotone": g.monotone, "reason": g.reason}
+            out[key] = {
+                "observed_order": g.observed_order,
+                "extrapolated": g.extrapolated,
+                "gci_fine": g.gci_fine,
+                "monotone": g.monotone,
+                "reason": g.reason,
+            }
     return out

@@ -69,8 +69,9 @@ class QuadratureOperators:
             mats.append(sp.csr_matrix((np.ravel(d), (np.ravel(r), np.ravel(c))), shape=(nelem * nqp, basis.N)))
         return cls(*mats, weights=basis.dx.ravel())
 
-    def convection(self, ux: np.ndarray, uy: np.ndarray, ax: np.ndarray | None = None,
-                   ay: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    def convection(
+        self, ux: np.ndarray, uy: np.ndarray, ax: np.ndarray | None = None, ay: np.ndarray | None = None
+    ) -> tuple[np.ndarray, np.ndarray]:
         """Load vectors of ``(a . grad) u`` with advecting velocity ``a`` (default ``u``)."""
         ax = ux if ax is None else ax
         ay = uy if ay is None else ay
@@ -82,8 +83,10 @@ class QuadratureOperators:
     def advection_matrix(self, ax: np.ndarray, ay: np.ndarray) -> sp.csr_matrix:
         """Matrix of ``v -> ((a . grad) v, phi_i)`` for one scalar component."""
         wt = self.value.T
-        return (wt @ sp.diags(self.weights * (self.value @ ax)) @ self.ddx
-                + wt @ sp.diags(self.weights * (self.value @ ay)) @ self.ddy).tocsr()
+        return (
+            wt @ sp.diags(self.weights * (self.value @ ax)) @ self.ddx
+            + wt @ sp.diags(self.weights * (self.value @ ay)) @ self.ddy
+        ).tocsr()
 
     def reaction_matrix(self, coefficient: np.ndarray) -> sp.csr_matrix:
         """Matrix of ``v -> (c v, phi_i)`` for a coefficient ``c`` given at quadrature points."""
@@ -123,7 +126,7 @@ class TaylorHood:
     def split(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """Views of ``(u_x, u_y, p)`` in a full vector."""
         n = self.nu
-        return x[:n], x[n:2 * n], x[2 * n:]
+        return x[:n], x[n : 2 * n], x[2 * n :]
 
     def saddle_point(self, velocity_block: sp.spmatrix, coupled: sp.spmatrix | None = None) -> sp.csr_matrix:
         """``[[V, C, -Bx^T], [C', V', -By^T], [-Bx, -By, 0]]`` from scalar velocity blocks.

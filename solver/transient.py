@@ -50,8 +50,16 @@ class Stepper:
     0.0
     """
 
-    def __init__(self, ns: NavierStokes, scheme: str, dt: float, x0: np.ndarray, t0: float = 0.0,
-                 x_old: np.ndarray | None = None, step: int = 0):
+    def __init__(
+        self,
+        ns: NavierStokes,
+        scheme: str,
+        dt: float,
+        x0: np.ndarray,
+        t0: float = 0.0,
+        x_old: np.ndarray | None = None,
+        step: int = 0,
+    ):
         if scheme not in SCHEMES:
             raise ValueError(f"unknown scheme {scheme!r}; choose one of {SCHEMES}")
         self.ns, self.scheme, self.dt = ns, scheme, dt

@@ -9,33 +9,85 @@ from __future__ import annotations
 from typing import Any
 
 _SUMMARY = {
-    "reynolds_number": "1", "reference.velocity": "m/s", "reference.lengths.*": "m",
-    "mesh.cells": "1", "mesh.dofs": "1", "timings.*": "s", "wall_time_seconds": "s",
-    "bodies.*.fx": "N/m", "bodies.*.fy": "N/m", "bodies.*.drag_coefficient": "1", "bodies.*.lift_coefficient": "1",
-    "bodies.*.drag_coefficient.*": "1", "bodies.*.lift_coefficient.*": "1", "bodies.*.strouhal_number": "1",
-    "bodies.*.recirculation_length": "m", "pressure_drop": "Pa", "pressure_drop.*": "Pa",
-    "velocity_probes.*.*": "m/s", "newton.iterations": "1", "newton.residual": "m^3/s^2",
-    "newton.continuation.*": "1", "strouhal_number": "1", "shedding.strouhal_number": "1",
-    "shedding.frequency": "1/s", "shedding.frequency_resolution": "1/s", "shedding.cycles": "1",
-    "window.start": "s", "window.end": "s", "window.whole_cycles": "1", "steps": "1", "time_step": "s",
-    "simulated_time": "s", "max_cfl": "1", "factorisations": "1",
+    "reynolds_number": "1",
+    "reference.velocity": "m/s",
+    "reference.lengths.*": "m",
+    "mesh.cells": "1",
+    "mesh.dofs": "1",
+    "timings.*": "s",
+    "wall_time_seconds": "s",
+    "bodies.*.fx": "N/m",
+    "bodies.*.fy": "N/m",
+    "bodies.*.drag_coefficient": "1",
+    "bodies.*.lift_coefficient": "1",
+    "bodies.*.drag_coefficient.*": "1",
+    "bodies.*.lift_coefficient.*": "1",
+    "bodies.*.strouhal_number": "1",
+    "bodies.*.recirculation_length": "m",
+    "pressure_drop": "Pa",
+    "pressure_drop.*": "Pa",
+    "velocity_probes.*.*": "m/s",
+    "newton.iterations": "1",
+    "newton.residual": "m^3/s^2",
+    "newton.continuation.*": "1",
+    "strouhal_number": "1",
+    "shedding.strouhal_number": "1",
+    "shedding.frequency": "1/s",
+    "shedding.frequency_resolution": "1/s",
+    "shedding.cycles": "1",
+    "window.start": "s",
+    "window.end": "s",
+    "window.whole_cycles": "1",
+    "steps": "1",
+    "time_step": "s",
+    "simulated_time": "s",
+    "max_cfl": "1",
+    "factorisations": "1",
 }
 
 _SPEC = {
-    "channel.length": "m", "channel.height": "m",
-    "bodies.*.center.*": "m", "bodies.*.radius": "m", "bodies.*.spin": "rad/s", "bodies.*.width": "m",
-    "bodies.*.height": "m", "bodies.*.angle": "deg", "bodies.*.corner_radius": "m", "bodies.*.chord": "m",
-    "bodies.*.leading_edge.*": "m", "bodies.*.angle_of_attack": "deg", "bodies.*.points.*.*": "m",
-    "fluid.density": "kg/m^3", "fluid.viscosity": "m^2/s", "fluid.reynolds": "1",
-    "fluid.reference.velocity": "m/s", "fluid.reference.length": "m",
-    "inflow.peak_velocity": "m/s", "inflow.mean_velocity": "m/s", "inflow.ramp_time": "s",
-    "inflow.time_law.period": "s", "inflow.time_law.amplitude": "1", "inflow.time_law.mean": "1",
-    "inflow.time_law.points.*.0": "s", "inflow.time_law.points.*.1": "1",
-    "mesh.body_size": "m", "mesh.wake_size": "m", "mesh.far_size": "m", "mesh.wake_length": "m", "mesh.scale": "1",
-    "mesh.refinements": "1", "analysis.time_step": "s", "analysis.end_time": "s", "analysis.output_interval": "s",
-    "analysis.checkpoint_interval": "1", "analysis.newton_tolerance": "1", "analysis.max_newton_iterations": "1",
-    "analysis.until_periodic.cycles": "1", "analysis.until_periodic.tolerance": "1",
-    "probes.pressure_drop.*.*": "m", "probes.velocity.*.*": "m",
+    "channel.length": "m",
+    "channel.height": "m",
+    "bodies.*.center.*": "m",
+    "bodies.*.radius": "m",
+    "bodies.*.spin": "rad/s",
+    "bodies.*.width": "m",
+    "bodies.*.height": "m",
+    "bodies.*.angle": "deg",
+    "bodies.*.corner_radius": "m",
+    "bodies.*.chord": "m",
+    "bodies.*.leading_edge.*": "m",
+    "bodies.*.angle_of_attack": "deg",
+    "bodies.*.points.*.*": "m",
+    "fluid.density": "kg/m^3",
+    "fluid.viscosity": "m^2/s",
+    "fluid.reynolds": "1",
+    "fluid.reference.velocity": "m/s",
+    "fluid.reference.length": "m",
+    "inflow.peak_velocity": "m/s",
+    "inflow.mean_velocity": "m/s",
+    "inflow.ramp_time": "s",
+    "inflow.time_law.period": "s",
+    "inflow.time_law.amplitude": "1",
+    "inflow.time_law.mean": "1",
+    "inflow.time_law.points.*.0": "s",
+    "inflow.time_law.points.*.1": "1",
+    "mesh.body_size": "m",
+    "mesh.wake_size": "m",
+    "mesh.far_size": "m",
+    "mesh.wake_length": "m",
+    "mesh.scale": "1",
+    "mesh.refinements": "1",
+    "analysis.time_step": "s",
+    "analysis.end_time": "s",
+    "analysis.output_interval": "s",
+    "analysis.checkpoint_interval": "1",
+    "analysis.newton_tolerance": "1",
+    "analysis.max_newton_iterations": "1",
+    "analysis.until_periodic.cycles": "1",
+    "analysis.until_periodic.tolerance": "1",
+    "probes.pressure_drop.*.*": "m",
+    "probes.velocity.*.*": "m",
 }
 
 
@@ -59,8 +111,12 @@ def number_paths(value: Any, path: str = "") -> list[str]:
 
 def summary_units(summary: dict[str, Any]) -> dict[str, str]:
     """The ``units`` map of a summary: every pattern that matches one of its numbers, in table order."""
-    used = {pattern for leaf in number_paths(summary) for pattern, unit in _SUMMARY.items()
-            if _match({pattern: unit}, leaf) is not None}
+    used = {
+        pattern
+        for leaf in number_paths(summary)
+        for pattern, unit in _SUMMARY.items()
+        if _match({pattern: unit}, leaf) is not None
+    }
     return {pattern: unit for pattern, unit in _SUMMARY.items() if pattern in used}
 
 

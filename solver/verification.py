@@ -22,8 +22,9 @@ class GridConvergence:
     reason: str | None = None  # why the numbers are undefined (NaN), if they are
 
 
-def grid_convergence(h: tuple[float, float, float], phi: tuple[float, float, float],
-                     safety_factor: float = 1.25, noise: float = 1e-9) -> GridConvergence:
+def grid_convergence(
+    h: tuple[float, float, float], phi: tuple[float, float, float], safety_factor: float = 1.25, noise: float = 1e-9
+) -> GridConvergence:
     """Analyse one quantity ``phi`` computed on three grids of cell sizes ``h`` (finest first).
 
     Errors are relative to the finest-grid value (``approximate_error``) and
@@ -50,9 +51,12 @@ def grid_convergence(h: tuple[float, float, float], phi: tuple[float, float, flo
     e21, e32 = p2 - p1, p3 - p2
     floor = noise * max(abs(p1), abs(p2), abs(p3))
     if abs(e21) <= floor or abs(e32) <= floor:
-        reason = ("the value does not change between grids" if e21 == 0 or e32 == 0 else
-                  f"the change between grids ({max(abs(e21), abs(e32)):.2g} at most) is at the level of round-off "
-                  f"(below {noise:g} of the value): no order can be observed")
+        reason = (
+            "the value does not change between grids"
+            if e21 == 0 or e32 == 0
+            else f"the change between grids ({max(abs(e21), abs(e32)):.2g} at most) is at the level of round-off "
+            f"(below {noise:g} of the value): no order can be observed"
+        )
         return GridConvergence(math.nan, p1, abs(e21 / p1) if p1 else 0.0, math.nan, math.nan, False, reason)
     ratio = e32 / e21
     s = math.copysign(1.0, ratio)

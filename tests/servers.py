@@ -37,6 +37,7 @@ INSTALL = "scripts/setup --test"
 @dataclass
 class Record:
     """Where a server of the session came from, for the summary at the end of the run."""
+
     name: str
     url: str
     started: bool
@@ -89,23 +90,37 @@ def answers(check: Callable[[str], bool], url: str) -> bool:
 class Process:
     """One started server: its own process group, its log and data in ``folder``, stopped by ``stop``."""
 
-    def __init__(self, argv: list[str], folder: Path, stop_signal: int = signal.SIGTERM,
-                 env: dict[str, str] | None = None, user: str | None = None):
+    def __init__(
+        self,
+        argv: list[str],
+        folder: Path,
+        stop_signal: int = signal.SIGTERM,
+        env: dict[str, str] | None = None,
+        user: str | None = None,
+    ):
         self.folder, self.stop_signal = folder, stop_signal
         self.log = folder / f"{Path(argv[0]).name}.log"
         with self.log.open("w") as log:
             # --pdeathsig: should pytest die without cleaning up, the server is asked to stop all the same
-            self.proc = subprocess.Popen(["setpriv", "--pdeathsig", "TERM", "--", *argv], cwd=folder, env=env,
-                                         user=user, stdin=subprocess.DEVNULL, stdout=log, stderr=subprocess.STDOUT,
-                                         start_new_session=True)
+            self.proc = subprocess.Popen(
+                ["setpriv", "--pdeathsig", "TERM", "--", *argv],
+                cwd=folder,
+                env=env,
+                user=user,
+                stdin=subprocess.DEVNULL,
+                stdout=log,
+                stderr=subprocess.STDOUT,
+                start_new_session=True,
+            )
 
     def wait_until(self, ready: Callable[[], bool], what: str, timeout: float = 90.0) -> None:
         deadline = time.monotonic() + timeout
         while not ready():
             if self.proc.poll() is not None or time.monotonic() > deadline:
                 self.stop()
-                raise RuntimeError(f"{what} did not start (exit code {self.proc.returncode}); its log ends:\n"
-                                   f"{self.tail()}")
+                raise RuntimeError(
+                    f"{what} did not start (exit code {self.proc.returncode}); its log ends:\n{self.tail()}"
+                )
             time.sleep(0.2)
 
     def tail(self) -> str:
@@ -165,8 +180,24 @@ def _folder(name: str, user: str | None = None) -> Path:
 
 def start_redis(folder: Path) -> tuple[str, list[Process]]:
     port = free_port()
-    proc = Process([_program("redis-server"), "--port", str(port), "--bind", "127.0.0.1", "--save", "",
-                    "--appendonly", "no", "--dir", str(folder), "--daemonize", "no"], folder)
+    proc = Process(
+        [
+            _program("redis-server"),
+            "--port",
+            str(port),
+            "--bind",
+            "127.0.0.1",
+            "--save",
+            "",
+            "--appendonly",
+            "no",
+            "--dir",
+            str(folder),
+            "--daemonize",
+            "no",
+        ],
+        folder,
+    )
     url = f"redis://127.0.0.1:{port}"
     proc.wait_until(lambda: answers(_redis_answers, url), "redis-server")
     return url, [proc]
@@ -189,14 +220,50 @@ def _unprivileged() -> str | None:
 
 def start_postgres(folder: Path, user: str | None) -> tuple[str, list[Process]]:
     port, data = free_port(), folder / "data"
-    done = subprocess.run([_postgres_bin("initdb"), "-D", str(data), "-U", "postgres", "-A", "trust", "-E", "UTF8",
-                           "--no-locale", "--no-sync"], cwd=folder, user=user, capture_output=True, text=True)
+    done = subprocess.run(
+        [
+            _postgres_bin("initdb"),
+            "-D",
+            str(data),
+            "-U",
+            "postgres",
+            "-A",
+            "trust",
+            "-E",
+            "UTF8",
+            "--no-locale",
+            "--no-sync",
+        ],
+        cwd=folder,
+        user=user,
+        capture_output=True,
+        text=True,
+    )
     if done.returncode != 0:
         raise RuntimeError(f"initdb failed:\n{done.stdout}{done.stderr}")
     # SIGINT is PostgreSQL's fast shutdown: it does not wait for clients that still hold connections
-    proc = Process([_postgres_bin("postgres"), "-D", str(data), "-p", str(port), "-k", str(folder),
-                    "-c", "listen_addresses=127.0.0.1", "-c", "fsync=off", "-c", "synchronous_commit=off",
-                    "-c", "full_page_writes=off"], folder, stop_signal=signal.SIGINT, user=user)
+    proc = Process(
+        [
+            _postgres_bin("postgres"),
+            "-D",
+            str(data),
+            "-p",
+            str(port),
+            "-k",
+            str(folder),
+            "-c",
+            "listen_addresses=127.0.0.1",
+            "-c",
+            "fsync=off",
+            "-c",
+            "synchronous_commit=off",
+            "-c",
+            "full_page_writes=off",
+        ],
+        folder,
+        stop_signal=signal.SIGINT,
+        user=user,
+    )
     url = f"postgresql+psycopg://postgres@127.0.0.1:{port}/postgres"
     proc.wait_until(lambda: answers(_postgres_answers, url), "PostgreSQL")
     return url, [proc]
@@ -208,14 +275,21 @@ def start_rabbitmq(folder: Path) -> tuple[str, list[Process]]:
     (folder / "rabbitmq.conf").write_text(f"listeners.tcp.1 = 127.0.0.1:{port}\ndisk_free_limit.absolute = 10MB\n")
     (folder / "enabled_plugins").write_text("[].\n")
     (folder / "rabbitmq-env.conf").write_text("")
-    env = {**os.environ, "HOME": str(folder), "ERL_EPMD_PORT": str(epmd_port), "ERL_EPMD_ADDRESS": "127.0.0.1",
-           "ERL_FLAGS": "-kernel inet_dist_use_interface {127,0,0,1}",
-           "RABBITMQ_NODENAME": f"wakeyard-test-{port}@localhost", "RABBITMQ_DIST_PORT": str(dist_port),
-           "RABBITMQ_CONF_ENV_FILE": str(folder / "rabbitmq-env.conf"),
-           "RABBITMQ_CONFIG_FILE": str(folder / "rabbitmq.conf"),
-           "RABBITMQ_ENABLED_PLUGINS_FILE": str(folder / "enabled_plugins"),
-           "RABBITMQ_MNESIA_BASE": str(folder / "mnesia"), "RABBITMQ_LOG_BASE": str(folder / "log"),
-           "RABBITMQ_LOGS": "-"}
+    env = {
+        **os.environ,
+        "HOME": str(folder),
+        "ERL_EPMD_PORT": str(epmd_port),
+        "ERL_EPMD_ADDRESS": "127.0.0.1",
+        "ERL_FLAGS": "-kernel inet_dist_use_interface {127,0,0,1}",
+        "RABBITMQ_NODENAME": f"wakeyard-test-{port}@localhost",
+        "RABBITMQ_DIST_PORT": str(dist_port),
+        "RABBITMQ_CONF_ENV_FILE": str(folder / "rabbitmq-env.conf"),
+        "RABBITMQ_CONFIG_FILE": str(folder / "rabbitmq.conf"),
+        "RABBITMQ_ENABLED_PLUGINS_FILE": str(folder / "enabled_plugins"),
+        "RABBITMQ_MNESIA_BASE": str(folder / "mnesia"),
+        "RABBITMQ_LOG_BASE": str(folder / "log"),
+        "RABBITMQ_LOGS": "-",
+    }
     epmd = Process([_program("epmd"), "-port", str(epmd_port), "-address", "127.0.0.1"], folder, env=env)
     # Debian's /usr/sbin wrapper switches to the rabbitmq user and drops this environment: call the script itself
     node = Process([_program("rabbitmq-server", "/usr/lib/rabbitmq/bin/rabbitmq-server")], folder, env=env)
@@ -233,8 +307,11 @@ STARTERS: dict[str, Callable[[Path], tuple[str, list[Process]]]] = {
     "postgres": lambda folder: start_postgres(folder, _unprivileged()),
     "amqp": start_rabbitmq,
 }
-CHECKS: dict[str, Callable[[str], bool]] = {"redis": _redis_answers, "postgres": _postgres_answers,
-                                           "amqp": _amqp_answers}
+CHECKS: dict[str, Callable[[str], bool]] = {
+    "redis": _redis_answers,
+    "postgres": _postgres_answers,
+    "amqp": _amqp_answers,
+}
 
 
 @contextlib.contextmanager

@@ -33,13 +33,15 @@ def make_celery(settings: Settings) -> Celery:
         broker_connection_retry_on_startup=True,
         # the SQLAlchemy transport hands these to create_engine
         broker_transport_options={"creator": _sqlite_opener(settings.data_dir / "broker.sqlite")}
-        if not settings.broker_url else {},
+        if not settings.broker_url
+        else {},
     )
     return app
 
 
 def _sqlite_opener(path: Path) -> Callable[[], sqlite3.Connection]:
     """Connections to the embedded broker: WAL without an fsync per message, waiting on locks instead of failing."""
+
     def connect() -> sqlite3.Connection:
         path.parent.mkdir(parents=True, exist_ok=True)
         conn = sqlite3.connect(path.resolve(), timeout=30, check_same_thread=False)

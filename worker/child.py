@@ -30,8 +30,22 @@ def main(loglevel: str) -> None:
     from worker.app import app
 
     # mingle, gossip and event heartbeats sync worker state; ours lives in the job store
-    app.worker_main(["worker", "-P", "solo", "-Q", Settings().queue, "-n", f"wakeyard-{os.getpid()}@%h",
-                     "--loglevel", loglevel, "--without-mingle", "--without-gossip", "--without-heartbeat"])
+    app.worker_main(
+        [
+            "worker",
+            "-P",
+            "solo",
+            "-Q",
+            Settings().queue,
+            "-n",
+            f"wakeyard-{os.getpid()}@%h",
+            "--loglevel",
+            loglevel,
+            "--without-mingle",
+            "--without-gossip",
+            "--without-heartbeat",
+        ]
+    )
 
 
 if __name__ == "__main__":

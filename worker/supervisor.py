@@ -50,8 +50,14 @@ class Supervisor:
                 lived = now - self.born[i]
                 self.failures[i] = self.failures[i] + 1 if lived < STABLE else 1
                 delay = min(MAX_BACKOFF, 2.0 ** (self.failures[i] - 1))
-                log.warning("worker process %d (pid %d) exited with code %s after %.0f s; starting it again in "
-                            "%.0f s", i, proc.pid, proc.returncode, lived, delay)
+                log.warning(
+                    "worker process %d (pid %d) exited with code %s after %.0f s; starting it again in %.0f s",
+                    i,
+                    proc.pid,
+                    proc.returncode,
+                    lived,
+                    delay,
+                )
                 self.procs[i], self.due[i] = None, now + delay
             if self.procs[i] is None and now >= self.due[i] and not self.stopping.is_set():
                 self._spawn(i)
@@ -59,8 +65,9 @@ class Supervisor:
     def _spawn(self, i: int) -> None:
         env = {**os.environ, "WAKEYARD_SUPERVISOR_PID": str(os.getpid())}
         try:  # a group of its own: a Ctrl-C in the terminal reaches only the supervisor, which stops the children
-            proc = subprocess.Popen([sys.executable, "-m", "worker.child", self.loglevel], env=env,
-                                    pass_fds=self.keep_fds, process_group=0)
+            proc = subprocess.Popen(
+                [sys.executable, "-m", "worker.child", self.loglevel], env=env, pass_fds=self.keep_fds, process_group=0
+            )
         except OSError:  # out of memory or processes: try again later
             log.exception("could not start worker process %d", i)
             self.due[i] = time.monotonic() + MAX_BACKOFF

@@ -84,8 +84,16 @@ class _Attempt:
 
     def _values(self) -> dict[str, Any]:
         p = self.latest
-        return {} if p is None else {"progress_fraction": p.fraction, "progress_step": p.step,
-                                     "progress_time": p.time, "eta_seconds": self._eta(p)}
+        return (
+            {}
+            if p is None
+            else {
+                "progress_fraction": p.fraction,
+                "progress_step": p.step,
+                "progress_time": p.time,
+                "eta_seconds": self._eta(p),
+            }
+        )
 
     def beat(self) -> None:
         values = self._values()
@@ -113,8 +121,14 @@ class _Attempt:
         beater.start()
         summary = None
         try:
-            summary = solver.run(self.job.spec, out, progress=self.progress, should_stop=self._should_stop,
-                                 wall_time_limit=self.settings.max_wall_time, resume=True)
+            summary = solver.run(
+                self.job.spec,
+                out,
+                progress=self.progress,
+                should_stop=self._should_stop,
+                wall_time_limit=self.settings.max_wall_time,
+                resume=True,
+            )
             state, error = "succeeded", None
         except solver.Cancelled as err:
             state, error = "cancelled", str(err)
@@ -136,11 +150,15 @@ class _Attempt:
             return
         progress = self._values()
         if summary is not None:  # the last progress report can be half a second old
-            progress.update(progress_fraction=1.0, progress_step=summary.get("steps", progress.get("progress_step", 0)),
-                            progress_time=summary.get("simulated_time", progress.get("progress_time", 0.0)))
+            progress.update(
+                progress_fraction=1.0,
+                progress_step=summary.get("steps", progress.get("progress_step", 0)),
+                progress_time=summary.get("simulated_time", progress.get("progress_time", 0.0)),
+            )
         reserve = DiskReserve(self.settings.data_dir)  # a full disk must not keep the job "running"
-        if not reserve.retry(lambda: self.store.finish(self.job.id, self.job.claim, state, finite(summary), error,
-                                                       finite(progress))):
+        if not reserve.retry(
+            lambda: self.store.finish(self.job.id, self.job.claim, state, finite(summary), error, finite(progress))
+        ):
             log.warning("job %s changed hands before it finished; its outcome %s is not recorded", self.job.id, state)
 
 
@@ -148,7 +166,9 @@ def _unexpected(job_id: str, err: Exception) -> str:
     """The error recorded for a failure the solver did not raise on purpose."""
     if disk_full(err):
         log.error("job %s failed: the disk is full (%s)", job_id, err)
-        return (f"the results could not be written: the data folder's disk is full ({err}); free space (delete "
-                "jobs no longer needed), then run the job again")
+        return (
+            f"the results could not be written: the data folder's disk is full ({err}); free space (delete "
+            "jobs no longer needed), then run the job again"
+        )
     log.exception("job %s crashed", job_id)
     return f"the worker failed: {type(err).__name__}: {err}"

@@ -24,12 +24,21 @@ REDIS_DB = int(os.environ.get("WAKEYARD_TEST_REDIS_DB", "5"))
 # The cylinder and fluid of the 2D-1 benchmark (Schäfer & Turek 1996) in a channel shortened to 1.0: a cheap,
 # well-known Re-20 case for the service tests (no published value is checked here).
 TINY: dict[str, Any] = {
-    "title": "cylinder in a shortened 2D-1 channel (test)", "channel": {"length": 1.0, "height": 0.41},
+    "title": "cylinder in a shortened 2D-1 channel (test)",
+    "channel": {"length": 1.0, "height": 0.41},
     "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
     "fluid": {"density": 1.0, "viscosity": 1e-3},
-    "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2}, "mesh": {"preset": "coarse", "scale": 2.0},
-    "analysis": {"mode": "transient", "scheme": "bdf2-imex", "time_step": 0.01, "end_time": 0.3,
-                 "output_interval": 0.1, "checkpoint_interval": 5}}
+    "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2},
+    "mesh": {"preset": "coarse", "scale": 2.0},
+    "analysis": {
+        "mode": "transient",
+        "scheme": "bdf2-imex",
+        "time_step": 0.01,
+        "end_time": 0.3,
+        "output_interval": 0.1,
+        "checkpoint_interval": 5,
+    },
+}
 
 
 def tiny(end_time: float = 0.3, **analysis: Any) -> dict[str, Any]:
@@ -39,10 +48,18 @@ def tiny(end_time: float = 0.3, **analysis: Any) -> dict[str, Any]:
 
 
 def settings_for(folder: Path, queue: str, broker: str, **extra: Any) -> Settings:
-    values: dict[str, Any] = {"data_dir": folder, "broker_url": broker, "queue": queue, "heartbeat_seconds": 0.5,
-                              "reaper_seconds": 0.5, "lease_seconds": 30.0, "workers": 1}
+    values: dict[str, Any] = {
+        "data_dir": folder,
+        "broker_url": broker,
+        "queue": queue,
+        "heartbeat_seconds": 0.5,
+        "reaper_seconds": 0.5,
+        "lease_seconds": 30.0,
+        "workers": 1,
+    }
     values.update(extra)
     return Settings(**values)
+
 
 def environment(settings: Settings) -> dict[str, str]:
     """The same settings for a worker subprocess, as WAKEYARD_* variables."""
@@ -50,6 +67,7 @@ def environment(settings: Settings) -> dict[str, str]:
     for name, value in settings.model_dump().items():
         env[f"WAKEYARD_{name.upper()}"] = str(value)
     return env
+
 
 class Worker:
     """A real Celery worker process group on the settings' queue, started by ``wakeyard worker``."""
@@ -61,7 +79,11 @@ class Worker:
             env.update(hold.environment())
         self.proc = subprocess.Popen(
             [sys.executable, "-c", "import sys; from cli.main import main; sys.exit(main())", "worker"],
-            env=env, stdout=log.open("w"), stderr=subprocess.STDOUT, start_new_session=True)
+            env=env,
+            stdout=log.open("w"),
+            stderr=subprocess.STDOUT,
+            start_new_session=True,
+        )
         deadline = time.monotonic() + 60
         while "ready." not in log.read_text():
             if self.proc.poll() is not None or time.monotonic() > deadline:
@@ -81,8 +103,10 @@ class Worker:
             except subprocess.TimeoutExpired:
                 self.kill()
 
-def wait_for(client: TestClient, job_id: str, until: Callable[[dict[str, Any]], bool],
-             timeout: float = 60.0) -> dict[str, Any]:
+
+def wait_for(
+    client: TestClient, job_id: str, until: Callable[[dict[str, Any]], bool], timeout: float = 60.0
+) -> dict[str, Any]:
     deadline = time.monotonic() + timeout
     while True:
         job = client.get(f"/api/v1/jobs/{job_id}").json()
@@ -91,6 +115,7 @@ def wait_for(client: TestClient, job_id: str, until: Callable[[dict[str, Any]], 
         if time.monotonic() > deadline:
             raise AssertionError(f"timed out waiting; job is {job}")
         time.sleep(0.2)
+
 
 def finished(job: dict[str, Any]) -> bool:
     return job["state"] in ("succeeded", "failed", "cancelled")

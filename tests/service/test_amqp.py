@@ -19,8 +19,9 @@ def test_a_job_runs_to_success_through_rabbitmq(tmp_path: Path, amqp_url: str) -
     worker = Worker(settings, tmp_path / "worker.log")
     try:
         with TestClient(create_app(settings)) as client:
-            job = wait_for(client, client.post("/api/v1/jobs", json=tiny(end_time=0.05)).json()["id"], finished,
-                           timeout=120)
+            job = wait_for(
+                client, client.post("/api/v1/jobs", json=tiny(end_time=0.05)).json()["id"], finished, timeout=120
+            )
     finally:
         worker.stop()
         with kombu.Connection(amqp_url) as conn:

@@ -30,8 +30,12 @@ def _children(pid: int) -> list[int]:
 def test_serve_embedded_runs_a_job_and_ctrl_c_stops_children(tmp_path: Path) -> None:
     port = _free_port()
     log = tmp_path / "serve.log"
-    proc = subprocess.Popen([*WAKEYARD, "serve", "--port", str(port), "--data", str(tmp_path), "--workers", "1"],
-                            stdout=log.open("w"), stderr=subprocess.STDOUT, cwd=tmp_path)
+    proc = subprocess.Popen(
+        [*WAKEYARD, "serve", "--port", str(port), "--data", str(tmp_path), "--workers", "1"],
+        stdout=log.open("w"),
+        stderr=subprocess.STDOUT,
+        cwd=tmp_path,
+    )
     try:
         deadline = time.monotonic() + 60
         while f"http://127.0.0.1:{port}/" not in log.read_text():
@@ -61,15 +65,17 @@ def test_serve_embedded_runs_a_job_and_ctrl_c_stops_children(tmp_path: Path) -> 
 
 
 def test_open_address_needs_a_token_and_token_create_prints_one(tmp_path: Path) -> None:
-    refused = subprocess.run([*WAKEYARD, "serve", "--host", "0.0.0.0", "--data", str(tmp_path)],
-                             capture_output=True, text=True, timeout=60)
+    refused = subprocess.run(
+        [*WAKEYARD, "serve", "--host", "0.0.0.0", "--data", str(tmp_path)], capture_output=True, text=True, timeout=60
+    )
     assert refused.returncode == 2 and "without API tokens" in refused.stderr
-    made = subprocess.run([*WAKEYARD, "token", "create", "ana", "--data", str(tmp_path)],
-                          capture_output=True, text=True, timeout=60)
+    made = subprocess.run(
+        [*WAKEYARD, "token", "create", "ana", "--data", str(tmp_path)], capture_output=True, text=True, timeout=60
+    )
     token = made.stdout.strip()
     assert made.returncode == 0 and token.startswith("wy_") and len(token) > 30
     assert token not in (tmp_path / "jobs.sqlite").read_bytes().decode("latin-1")
-    again = subprocess.run([*WAKEYARD, "token", "create", "ana", "--data", str(tmp_path)],
-                           capture_output=True, text=True, timeout=60)
+    again = subprocess.run(
+        [*WAKEYARD, "token", "create", "ana", "--data", str(tmp_path)], capture_output=True, text=True, timeout=60
+    )
     assert again.returncode == 2 and "exists already" in again.stderr
-

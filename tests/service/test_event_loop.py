@@ -24,22 +24,33 @@ def test_a_table_lock_does_not_stall_other_requests(tmp_path: Path, postgres_url
         conn.execute(sqlalchemy.text(f"CREATE SCHEMA {schema}"))
     port, log = _free_port(), tmp_path / "serve.log"
     env = {**os.environ, "WAKEYARD_DATABASE_URL": f"{postgres_url}?options=-csearch_path%3D{schema}"}
-    proc = subprocess.Popen([*WAKEYARD, "serve", "--port", str(port), "--data", str(tmp_path), "--workers", "0"],
-                            env=env, stdout=log.open("w"), stderr=subprocess.STDOUT, start_new_session=True)
+    proc = subprocess.Popen(
+        [*WAKEYARD, "serve", "--port", str(port), "--data", str(tmp_path), "--workers", "0"],
+        env=env,
+        stdout=log.open("w"),
+        stderr=subprocess.STDOUT,
+        start_new_session=True,
+    )
     try:
         deadline = time.monotonic() + 90
         while f":{port}/" not in log.read_text():
             assert proc.poll() is None and time.monotonic() < deadline, log.read_text()
             time.sleep(0.1)
-        with httpx.Client(base_url=f"http://127.0.0.1:{port}", timeout=30) as client, \
-                admin.connect() as locker, ThreadPoolExecutor(1) as pool:
+        with (
+            httpx.Client(base_url=f"http://127.0.0.1:{port}", timeout=30) as client,
+            admin.connect() as locker,
+            ThreadPoolExecutor(1) as pool,
+        ):
             job_id = client.post("/api/v1/jobs", json=tiny()).json()["id"]
             locker.execute(sqlalchemy.text(f"LOCK TABLE {schema}.jobs IN ACCESS EXCLUSIVE MODE"))
             waiting = pool.submit(client.get, f"/api/v1/jobs/{job_id}")
             deadline = time.monotonic() + 30
-            while not locker.scalar(sqlalchemy.text(  # the read is now queued behind the lock in the service
-                    "SELECT count(*) FROM pg_locks WHERE NOT granted AND relation = :table ::regclass"),
-                    {"table": f"{schema}.jobs"}):
+            while not locker.scalar(
+                sqlalchemy.text(  # the read is now queued behind the lock in the service
+                    "SELECT count(*) FROM pg_locks WHERE NOT granted AND relation = :table ::regclass"
+                ),
+                {"table": f"{schema}.jobs"},
+            ):
                 assert time.monotonic() < deadline and not waiting.done()
                 time.sleep(0.05)
             with httpx.Client(base_url=f"http://127.0.0.1:{port}", timeout=10) as other:

@@ -57,8 +57,11 @@ def test_a_full_disk_refuses_new_jobs_and_cancel_and_delete_still_work(small_dis
 
         health = client.get("/api/v1/health")
         assert health.status_code == 503 and "MiB free in the data folder, below 8 MiB" in health.json()["problems"][-1]
-        for url, body in (("/api/v1/jobs", TINY), ("/api/v1/studies", {"kind": "mesh-convergence", "base": TINY}),
-                          (f"/api/v1/jobs/{queued}/clone", {})):
+        for url, body in (
+            ("/api/v1/jobs", TINY),
+            ("/api/v1/studies", {"kind": "mesh-convergence", "base": TINY}),
+            (f"/api/v1/jobs/{queued}/clone", {}),
+        ):
             r = client.post(url, json=body)
             assert r.status_code == 507, url
             assert "new jobs are refused until space is freed" in r.json()["detail"]
@@ -69,8 +72,9 @@ def test_a_full_disk_refuses_new_jobs_and_cancel_and_delete_still_work(small_dis
         assert client.post("/api/v1/jobs", json=tiny()).status_code == 202  # space again: new jobs again
 
 
-def test_a_job_whose_results_cannot_be_written_fails_with_the_reason(small_disk: Path, tmp_path: Path,
-                                                                     monkeypatch: pytest.MonkeyPatch) -> None:
+def test_a_job_whose_results_cannot_be_written_fails_with_the_reason(
+    small_disk: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
     monkeypatch.setenv("WAKEYARD_MIN_FREE_MB", "8")
     serve = Serve(small_disk, tmp_path / "serve.log")
     try:

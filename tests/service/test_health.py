@@ -63,8 +63,9 @@ def test_worker_check_for_container_health(tmp_path: Path) -> None:
     store = Store(settings.db_url)
 
     def check() -> int:
-        return subprocess.run([*WAKEYARD, "worker", "--check"], env=environment(settings), capture_output=True,
-                              timeout=60).returncode
+        return subprocess.run(
+            [*WAKEYARD, "worker", "--check"], env=environment(settings), capture_output=True, timeout=60
+        ).returncode
 
     store.worker_alive("another-host:17")
     assert check() == 1

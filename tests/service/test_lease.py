@@ -70,8 +70,9 @@ def test_kill_9_of_a_pool_child_requeues_and_the_same_worker_finishes(tmp_path: 
     worker = Worker(settings, tmp_path / "worker.log", hold=hold)
     try:
         with TestClient(create_app(settings)) as client:
-            job_id = client.post("/api/v1/jobs", json=tiny(end_time=4.0, output_interval=2.0,
-                                                         checkpoint_interval=10)).json()["id"]
+            job_id = client.post(
+                "/api/v1/jobs", json=tiny(end_time=4.0, output_interval=2.0, checkpoint_interval=10)
+            ).json()["id"]
             child = hold.wait_held()["pid"]  # the pool process that runs the job, parked at step 20
             running = client.get(f"/api/v1/jobs/{job_id}").json()
             assert running["state"] == "running" and running["worker_host"].endswith(f":{child}")

@@ -19,8 +19,9 @@ from .helpers import TINY, settings_for, tiny
 
 @pytest.fixture
 def client(tmp_path: Path, store_url: str) -> Iterator[TestClient]:
-    app = create_app(settings_for(tmp_path, "wakeyard-odd", broker="", database_url=store_url,
-                                  max_active_per_user=10**6))
+    app = create_app(
+        settings_for(tmp_path, "wakeyard-odd", broker="", database_url=store_url, max_active_per_user=10**6)
+    )
     with TestClient(app) as c:
         yield c
 
@@ -35,10 +36,16 @@ def test_nul_anywhere_is_422_naming_where(client: TestClient) -> None:
     named = {**TINY, "bodies": [{**TINY["bodies"][0], "name": "p\x00ipe"}]}
     assert fields(client.post("/api/v1/jobs", json=named)) == ["bodies.0.name"]
     assert fields(client.post(f"/api/v1/jobs/{job_id}/clone", json={"title": "\x00"})) == ["title"]
-    assert fields(client.post("/api/v1/studies", json={"kind": "sweep", "title": "a\x00", "base": TINY,
-                                                       "vary": []})) == ["title"]
-    for url in ("/api/v1/jobs?tag=%00", "/api/v1/jobs?owner=a%00b", "/api/v1/jobs/ab%00cd",
-                f"/api/v1/jobs/{job_id}/files/forces%00.csv", "/api/v1/studies/%00"):
+    assert fields(
+        client.post("/api/v1/studies", json={"kind": "sweep", "title": "a\x00", "base": TINY, "vary": []})
+    ) == ["title"]
+    for url in (
+        "/api/v1/jobs?tag=%00",
+        "/api/v1/jobs?owner=a%00b",
+        "/api/v1/jobs/ab%00cd",
+        f"/api/v1/jobs/{job_id}/files/forces%00.csv",
+        "/api/v1/studies/%00",
+    ):
         r = client.get(url)
         assert r.status_code == 422 and r.json()["detail"][0]["message"].endswith("(U+0000)"), url
     r = client.post("/api/v1/jobs", params={"tags": ["duct\x00"]}, json=tiny())
@@ -77,12 +84,15 @@ def test_413_has_one_shape_with_and_without_content_length(client: TestClient) -
     declared = client.post("/api/v1/jobs", content=body, headers={"content-type": "application/json"})
 
     def chunks() -> Iterator[bytes]:  # no Content-Length: chunked transfer encoding
-        yield from (body[i:i + 4096] for i in range(0, len(body), 4096))
+        yield from (body[i : i + 4096] for i in range(0, len(body), 4096))
 
     streamed = client.post("/api/v1/jobs", content=chunks(), headers={"content-type": "application/json"})
     assert declared.status_code == streamed.status_code == 413
-    assert declared.json() == streamed.json() == {
-        "detail": [{"field": "(body)", "message": f"request body: over the limit of {limit:,} bytes"}]}
+    assert (
+        declared.json()
+        == streamed.json()
+        == {"detail": [{"field": "(body)", "message": f"request body: over the limit of {limit:,} bytes"}]}
+    )
 
 
 odd_text = st.one_of(

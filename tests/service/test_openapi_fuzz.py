@@ -21,8 +21,11 @@ def api_schema(tmp_path_factory: pytest.TempPathFactory, store_url: str) -> Iter
     """On SQLite and on PostgreSQL (which refuses NUL characters and 64-bit numbers where SQLite takes them)."""
     folder: Path = tmp_path_factory.mktemp("fuzz")
     # the embedded broker and no worker: submitted jobs stay queued, nothing runs
-    app = create_app(settings_for(folder, "wakeyard-fuzz", broker="", database_url=store_url, max_steps=10_000,
-                                  max_active_per_user=10_000))
+    app = create_app(
+        settings_for(
+            folder, "wakeyard-fuzz", broker="", database_url=store_url, max_steps=10_000, max_active_per_user=10_000
+        )
+    )
     yield schemathesis.openapi.from_asgi("/openapi.json", app)
 
 

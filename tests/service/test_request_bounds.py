@@ -14,8 +14,11 @@ from .test_supervision import Serve
 
 
 def _sweep(path: str, values: list[float]) -> dict:
-    return {"kind": "sweep", "base": {**TINY, "analysis": {"mode": "steady"}}, "vary": [{"path": path,
-                                                                                         "values": values}]}
+    return {
+        "kind": "sweep",
+        "base": {**TINY, "analysis": {"mode": "steady"}},
+        "vary": [{"path": path, "values": values}],
+    }
 
 
 def test_the_cap_comes_before_the_points_are_checked(offline: TestClient) -> None:
@@ -30,8 +33,13 @@ def test_checking_a_study_stops_at_the_time_bound(offline: TestClient) -> None:
     offline.app.state.settings.max_validation_seconds = 1e-9  # past before the first point is checked
     r = offline.post("/api/v1/studies", json=_sweep("inflow.peak_velocity", [0.1, 0.2]))
     assert r.status_code == 422
-    assert r.json()["detail"] == [{"field": "(body)", "message": "checking the study's points took too long "
-                                   "(stopped at point 0 of 2): use fewer points or simpler bodies"}]
+    assert r.json()["detail"] == [
+        {
+            "field": "(body)",
+            "message": "checking the study's points took too long "
+            "(stopped at point 0 of 2): use fewer points or simpler bodies",
+        }
+    ]
     assert offline.get("/api/v1/studies").json()["studies"] == []
 
 
@@ -54,8 +62,10 @@ def test_a_stalled_body_is_refused_after_the_timeout(tmp_path: Path) -> None:
     try:
         start = b"POST /api/v1/jobs HTTP/1.1\r\nHost: localhost\r\nContent-Type: application/json\r\n"
         expected = {"detail": [{"field": "(body)", "message": "request body: not received within 1 s"}]}
-        for head in (start + b"Content-Length: 500\r\n\r\n{\"title\": ",
-                     start + b"Transfer-Encoding: chunked\r\n\r\n9\r\n{\"title\":\r\n"):
+        for head in (
+            start + b'Content-Length: 500\r\n\r\n{"title": ',
+            start + b'Transfer-Encoding: chunked\r\n\r\n9\r\n{"title":\r\n',
+        ):
             status, body = _stalled(serve.port, head)
             assert status == "HTTP/1.1 408 Request Timeout" and body == expected
     finally:

@@ -29,9 +29,12 @@ from .test_cli import WAKEYARD, _free_port
 
 # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a channel shortened to 1.0 (Re 20 at peak 0.3)
 STEADY: dict[str, Any] = {
-    "title": "cylinder in a shortened 2D-1 channel (study test)", "channel": {"length": 1.0, "height": 0.41},
+    "title": "cylinder in a shortened 2D-1 channel (study test)",
+    "channel": {"length": 1.0, "height": 0.41},
     "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-    "fluid": {"density": 1.0, "viscosity": 1e-3}, "mesh": {"preset": "coarse", "scale": 2.0}}
+    "fluid": {"density": 1.0, "viscosity": 1e-3},
+    "mesh": {"preset": "coarse", "scale": 2.0},
+}
 
 
 def steady(title: str, **inflow: float) -> dict[str, Any]:
@@ -43,8 +46,12 @@ def steady(title: str, **inflow: float) -> dict[str, Any]:
 
 
 def sweep(title: str, values: list[float]) -> dict[str, Any]:
-    return {"kind": "sweep", "title": title, "base": steady(title),
-            "vary": [{"path": "inflow.peak_velocity", "values": values}]}
+    return {
+        "kind": "sweep",
+        "title": title,
+        "base": steady(title),
+        "vary": [{"path": "inflow.peak_velocity", "values": values}],
+    }
 
 
 def wait_study(client: TestClient, study_id: str, timeout: float = 60.0) -> dict[str, Any]:
@@ -102,18 +109,29 @@ def test_sweep_runs_every_point_with_table_and_plot(service: TestClient) -> None
     assert [s["id"] for s in listed] == [again["id"], created["id"]]
 
 
-@pytest.mark.parametrize(("study", "field"), [
-    ({**sweep("bad", [0.1]), "vary": [{"path": "inflow.gust", "values": [0.1]}]}, "vary.0.path"),
-    ({**sweep("bad", [0.1]), "vary": [{"path": "inflow.peak_velocity"}]}, "vary.0"),
-    ({**sweep("bad", [0.1]), "kind": "tornado"}, "kind"),
-    ({**sweep("bad", [0.1]), "base": {**STEADY, "fluid": {"viscosity": -1}}}, "base.fluid.viscosity"),
-    ({**sweep("bad", [0.1]), "vary": [{"path": "bodies.0.radius", "values": [0.05, -0.01]}]},
-     "points.1.bodies.0.radius"),
-    ({"kind": "sweep", "base": {**STEADY, "analysis": {"mode": "transient", "end_time": 1.0}},
-      "vary": [{"path": "analysis.time_step", "values": [0.01, 1e-5]}]}, "points.1.analysis.time_step"),
-    ({"kind": "mesh-convergence", "base": STEADY, "levels": 9}, "levels"),
-    ([STEADY], "(body)"),
-])
+@pytest.mark.parametrize(
+    ("study", "field"),
+    [
+        ({**sweep("bad", [0.1]), "vary": [{"path": "inflow.gust", "values": [0.1]}]}, "vary.0.path"),
+        ({**sweep("bad", [0.1]), "vary": [{"path": "inflow.peak_velocity"}]}, "vary.0"),
+        ({**sweep("bad", [0.1]), "kind": "tornado"}, "kind"),
+        ({**sweep("bad", [0.1]), "base": {**STEADY, "fluid": {"viscosity": -1}}}, "base.fluid.viscosity"),
+        (
+            {**sweep("bad", [0.1]), "vary": [{"path": "bodies.0.radius", "values": [0.05, -0.01]}]},
+            "points.1.bodies.0.radius",
+        ),
+        (
+            {
+                "kind": "sweep",
+                "base": {**STEADY, "analysis": {"mode": "transient", "end_time": 1.0}},
+                "vary": [{"path": "analysis.time_step", "values": [0.01, 1e-5]}],
+            },
+            "points.1.analysis.time_step",
+        ),
+        ({"kind": "mesh-convergence", "base": STEADY, "levels": 9}, "levels"),
+        ([STEADY], "(body)"),
+    ],
+)
 def test_bad_study_is_422_naming_the_field(offline: TestClient, study: Any, field: str) -> None:
     r = offline.post("/api/v1/studies", json=study)
     assert r.status_code == 422, r.text
@@ -148,8 +166,10 @@ def test_mesh_convergence_reports_order_extrapolation_and_gci(offline: TestClien
     for k in range(3):
         claimed = store.claim_next("test")
         cells = 1000 * 4**k
-        summary = {"mesh": {"cells": cells}, "bodies": [{"name": "pipe", "drag_coefficient": 5.5 + 40 * area / cells,
-                                                         "lift_coefficient": 0.01}]}
+        summary = {
+            "mesh": {"cells": cells},
+            "bodies": [{"name": "pipe", "drag_coefficient": 5.5 + 40 * area / cells, "lift_coefficient": 0.01}],
+        }
         store.finish(claimed.id, claimed.claim, "succeeded", summary, progress={"progress_fraction": 1.0})
         study = offline.get(f"/api/v1/studies/{created['id']}").json()
         if k < 2:
@@ -180,7 +200,8 @@ def test_identical_job_reuses_the_result_unless_fresh(service: TestClient) -> No
     third = wait_for(service, fresh["id"], finished)
     assert third["state"] == "succeeded" and third["attempts"] == 1
     assert third["summary"]["bodies"][0]["drag_coefficient"] == pytest.approx(
-        first["summary"]["bodies"][0]["drag_coefficient"], rel=1e-9)
+        first["summary"]["bodies"][0]["drag_coefficient"], rel=1e-9
+    )
 
     assert service.delete(f"/api/v1/jobs/{first['id']}").status_code == 204
     summary = service.get(f"/api/v1/jobs/{second['id']}/files/summary.json")
@@ -195,8 +216,9 @@ def test_identical_job_reuses_the_result_unless_fresh(service: TestClient) -> No
 def http_url(service: TestClient) -> Iterator[str]:
     """The test service's app on a real loopback port (its lifespan already runs in the TestClient)."""
     port = _free_port()
-    server = uvicorn.Server(uvicorn.Config(service.app, host="127.0.0.1", port=port, lifespan="off",
-                                           log_level="warning"))
+    server = uvicorn.Server(
+        uvicorn.Config(service.app, host="127.0.0.1", port=port, lifespan="off", log_level="warning")
+    )
     thread = threading.Thread(target=server.run, daemon=True)
     thread.start()
     deadline = time.monotonic() + 10
@@ -211,27 +233,36 @@ def http_url(service: TestClient) -> Iterator[str]:
 def test_cli_study_waits_and_prints_the_table(http_url: str, tmp_path: Path) -> None:
     spec = tmp_path / "study.json"
     spec.write_text(json.dumps(sweep("duct sweep (CLI test)", [0.25, 0.4])))
-    done = subprocess.run([*WAKEYARD, "study", str(spec), "--url", http_url, "--wait"],
-                          capture_output=True, text=True, timeout=120)
+    done = subprocess.run(
+        [*WAKEYARD, "study", str(spec), "--url", http_url, "--wait"], capture_output=True, text=True, timeout=120
+    )
     assert done.returncode == 0, done.stderr
     study_id, *lines = done.stdout.splitlines()
     table = rows("\n".join(lines))
-    assert [(float(r["inflow.peak_velocity [m/s]"]), r["state"]) for r in table] == [(0.25, "succeeded"),
-                                                                                    (0.4, "succeeded")]
+    assert [(float(r["inflow.peak_velocity [m/s]"]), r["state"]) for r in table] == [
+        (0.25, "succeeded"),
+        (0.4, "succeeded"),
+    ]
     assert float(table[0]["pipe.cd [-]"]) > float(table[1]["pipe.cd [-]"])
     assert f"study {study_id}: succeeded, 2 of 2 points finished" in done.stderr and "not design loads" in done.stderr
 
     spec.write_text(json.dumps({**sweep("bad", [0.1]), "vary": [{"path": "inflow.gust", "values": [0.1]}]}))
-    bad = subprocess.run([*WAKEYARD, "study", str(spec), "--url", http_url], capture_output=True, text=True,
-                         timeout=60)
+    bad = subprocess.run([*WAKEYARD, "study", str(spec), "--url", http_url], capture_output=True, text=True, timeout=60)
     assert bad.returncode == 2 and "invalid study: vary.0.path:" in bad.stderr and bad.stdout == ""
 
 
 def test_a_job_store_from_before_studies_gains_the_new_columns(store_url: str) -> None:
     new = {"spec_hash", "reused_from", "study_id", "study_values"}
     old = sqlalchemy.MetaData()
-    sqlalchemy.Table("jobs", old, *[sqlalchemy.Column(c.name, c.type, primary_key=c.primary_key)
-                                    for c in Job.__table__.columns if c.name not in new])
+    sqlalchemy.Table(
+        "jobs",
+        old,
+        *[
+            sqlalchemy.Column(c.name, c.type, primary_key=c.primary_key)
+            for c in Job.__table__.columns
+            if c.name not in new
+        ],
+    )
     engine = sqlalchemy.create_engine(store_url)
     old.create_all(engine)
     engine.dispose()

@@ -31,10 +31,13 @@ class Serve:
     def __init__(self, data: Path, log: Path, workers: int = 1, **env: str):
         self.data, self.log, self.port = data, log, _free_port()
         self.url = f"http://127.0.0.1:{self.port}"
-        self.proc = subprocess.Popen([*WAKEYARD, "serve", "--port", str(self.port), "--data", str(data),
-                                      "--workers", str(workers)], env={**os.environ, **SPEED, **env},
-                                     stdout=log.open("w"),
-                                     stderr=subprocess.STDOUT, start_new_session=True)
+        self.proc = subprocess.Popen(
+            [*WAKEYARD, "serve", "--port", str(self.port), "--data", str(data), "--workers", str(workers)],
+            env={**os.environ, **SPEED, **env},
+            stdout=log.open("w"),
+            stderr=subprocess.STDOUT,
+            start_new_session=True,
+        )
         until(lambda: self.url in log.read_text(), lambda: self.proc.poll() is None, log.read_text, 90)
 
     def workers(self) -> list[int]:
@@ -49,8 +52,12 @@ class Serve:
             self.proc.wait(30)
 
 
-def until(done: Callable[[], Any], alive: Callable[[], bool] = lambda: True, why: Callable[[], Any] = lambda: "",
-          timeout: float = 60) -> Any:
+def until(
+    done: Callable[[], Any],
+    alive: Callable[[], bool] = lambda: True,
+    why: Callable[[], Any] = lambda: "",
+    timeout: float = 60,
+) -> Any:
     deadline = time.monotonic() + timeout
     while not (found := done()):
         assert alive() and time.monotonic() < deadline, why()
@@ -98,8 +105,13 @@ def test_sigterm_and_sigint_stop_serve_and_hand_the_running_job_back(tmp_path: P
     serves.append(second := Serve(tmp_path, tmp_path / "second.log"))
     with second.client() as client:  # started again, the job resumes from its checkpoint
         stale = job.progress_step
-        resumed = until(lambda: (j := client.get(f"/jobs/{job_id}").json())["state"] == "running"
-                        and j["progress"]["step"] != stale and j)
+        resumed = until(
+            lambda: (
+                (j := client.get(f"/jobs/{job_id}").json())["state"] == "running"
+                and j["progress"]["step"] != stale
+                and j
+            )
+        )
         assert resumed["attempts"] == 1 and resumed["progress"]["step"] > saved
     [worker] = second.workers()
     second.proc.send_signal(signal.SIGINT)  # Ctrl-C
@@ -113,8 +125,12 @@ def test_kill_9_of_serve_takes_its_workers_and_a_data_folder_has_one_pool(tmp_pa
     serves.append(first := Serve(tmp_path, tmp_path / "first.log"))
     workers = first.workers()
     assert workers
-    refused = subprocess.run([*WAKEYARD, "serve", "--port", str(_free_port()), "--data", str(tmp_path)],
-                             capture_output=True, text=True, timeout=120)
+    refused = subprocess.run(
+        [*WAKEYARD, "serve", "--port", str(_free_port()), "--data", str(tmp_path)],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     assert refused.returncode == 2
     assert f"another wakeyard serve (pid {first.proc.pid})" in refused.stderr and str(tmp_path) in refused.stderr
 

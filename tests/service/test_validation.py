@@ -22,13 +22,16 @@ def fields(response: Any) -> list[str]:
     return [d["field"] for d in response.json()["detail"]]
 
 
-@pytest.mark.parametrize(("body", "field"), [
-    ({**TINY, "bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": -1}]}, "bodies.0.radius"),
-    ({**TINY, "channel": {"length": "long", "height": 0.41}}, "channel.length"),
-    ({**TINY, "colour": "blue"}, "colour"),
-    ({**TINY, "analysis": {**TINY["analysis"], "time_step": 1e-6, "end_time": 100.0}}, "analysis.time_step"),
-    ([1, 2, 3], "(body)"),
-])
+@pytest.mark.parametrize(
+    ("body", "field"),
+    [
+        ({**TINY, "bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": -1}]}, "bodies.0.radius"),
+        ({**TINY, "channel": {"length": "long", "height": 0.41}}, "channel.length"),
+        ({**TINY, "colour": "blue"}, "colour"),
+        ({**TINY, "analysis": {**TINY["analysis"], "time_step": 1e-6, "end_time": 100.0}}, "analysis.time_step"),
+        ([1, 2, 3], "(body)"),
+    ],
+)
 def test_bad_spec_is_422_naming_the_field(offline: TestClient, body: Any, field: str) -> None:
     r = offline.post("/api/v1/jobs", json=body)
     assert r.status_code == 422
@@ -57,8 +60,10 @@ def test_bad_query_and_tags_are_422(offline: TestClient) -> None:
 
 
 def test_list_filters_and_pages_newest_first(offline: TestClient) -> None:
-    ids = [offline.post("/api/v1/jobs", params={"tags": [tag]}, json=tiny()).json()["id"]
-           for tag in ("pier", "duct", "pier")]
+    ids = [
+        offline.post("/api/v1/jobs", params={"tags": [tag]}, json=tiny()).json()["id"]
+        for tag in ("pier", "duct", "pier")
+    ]
     page = offline.get("/api/v1/jobs", params={"limit": 2}).json()
     assert [j["id"] for j in page["jobs"]] == ids[::-1][:2]
     rest = offline.get("/api/v1/jobs", params={"limit": 2, "cursor": page["next_cursor"]}).json()
@@ -108,8 +113,15 @@ def test_files_stay_inside_the_job_folder(offline: TestClient) -> None:
     (folder / "escape.txt").symlink_to(offline.app.state.settings.data_dir / "jobs.sqlite")
     base = f"/api/v1/jobs/{job_id}/files"
     assert offline.get(f"{base}/forces.csv").headers["content-type"].startswith("text/csv")
-    for path in ("..%2F..%2Fjobs.sqlite", "%2e%2e/%2e%2e/jobs.sqlite", "escape.txt", "checkpoint.npz",
-                 "%2Fetc%2Fpasswd", "summary.json", "fields.zip"):
+    for path in (
+        "..%2F..%2Fjobs.sqlite",
+        "%2e%2e/%2e%2e/jobs.sqlite",
+        "escape.txt",
+        "checkpoint.npz",
+        "%2Fetc%2Fpasswd",
+        "summary.json",
+        "fields.zip",
+    ):
         r = offline.get(f"{base}/{path}")
         assert r.status_code == 404, path
         assert b"SQLite" not in r.content
@@ -152,9 +164,11 @@ def test_the_page_reads_the_one_caution_from_the_service(offline: TestClient) ->
         assert "design loads" not in page_file.read_text(), page_file.name
 
 
-json_values = st.recursive(st.none() | st.booleans() | st.integers(-10**6, 10**6) | st.floats(allow_nan=False)
-                           | st.text(max_size=8), lambda inner: st.lists(inner, max_size=3)
-                           | st.dictionaries(st.text(max_size=8), inner, max_size=3), max_leaves=8)
+json_values = st.recursive(
+    st.none() | st.booleans() | st.integers(-(10**6), 10**6) | st.floats(allow_nan=False) | st.text(max_size=8),
+    lambda inner: st.lists(inner, max_size=3) | st.dictionaries(st.text(max_size=8), inner, max_size=3),
+    max_leaves=8,
+)
 spec_keys = st.sampled_from(["title", "channel", "bodies", "fluid", "inflow", "mesh", "elements", "analysis", "probes"])
 
 
@@ -173,8 +187,10 @@ def test_concurrent_submissions_from_several_clients(offline: TestClient) -> Non
     offline.app.state.settings.max_active_per_user = 1000
 
     def submit(client: int) -> list[str]:
-        return [offline.post("/api/v1/jobs", params={"tags": [f"client{client}"]}, json=tiny()).json()["id"]
-                for _ in range(8)]
+        return [
+            offline.post("/api/v1/jobs", params={"tags": [f"client{client}"]}, json=tiny()).json()["id"]
+            for _ in range(8)
+        ]
 
     with ThreadPoolExecutor(4) as pool:
         ids = [i for batch in pool.map(submit, range(4)) for i in batch]

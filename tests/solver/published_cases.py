@@ -62,31 +62,55 @@ ONSET_RANGE = (46.0, 47.0)
 
 def _transient(dt: float, end_time: float) -> dict[str, Any]:
     """Linearly implicit BDF2 with an explicit step (so it keeps its meaning), stopped once periodic."""
-    return {"mode": "transient", "scheme": "bdf2-implicit", "time_step": dt, "end_time": end_time,
-            "output_interval": end_time, "checkpoint_interval": 100_000,
-            "until_periodic": {"cycles": 3, "tolerance": 0.02}}
+    return {
+        "mode": "transient",
+        "scheme": "bdf2-implicit",
+        "time_step": dt,
+        "end_time": end_time,
+        "output_interval": end_time,
+        "checkpoint_interval": 100_000,
+        "until_periodic": {"cycles": 3, "tolerance": 0.02},
+    }
 
 
-def free_stream(bodies: list[dict[str, Any]], reynolds: float, scale: float, *, length: float = 30.0,
-                height: float = 20.0, analysis: dict[str, Any] | None = None, preset: str = "coarse",
-                reference_length: float | None = None) -> dict[str, Any]:
+def free_stream(
+    bodies: list[dict[str, Any]],
+    reynolds: float,
+    scale: float,
+    *,
+    length: float = 30.0,
+    height: float = 20.0,
+    analysis: dict[str, Any] | None = None,
+    preset: str = "coarse",
+    reference_length: float | None = None,
+) -> dict[str, Any]:
     """A body in a wide channel with slip walls (blockage D/H = 5 % for D = 1) and uniform inflow U = 1."""
     reference = {"length": reference_length} if reference_length else {}
-    return {"title": "free-stream validation case",
-            "channel": {"length": length, "height": height, "walls": "slip"},
-            "bodies": bodies,
-            "fluid": {"density": 1.0, "reynolds": reynolds, "reference": reference},
-            "inflow": {"profile": "uniform", "mean_velocity": 1.0},
-            "mesh": {"preset": preset, "scale": scale},
-            "analysis": analysis or {"mode": "steady"}}
+    return {
+        "title": "free-stream validation case",
+        "channel": {"length": length, "height": height, "walls": "slip"},
+        "bodies": bodies,
+        "fluid": {"density": 1.0, "reynolds": reynolds, "reference": reference},
+        "inflow": {"profile": "uniform", "mean_velocity": 1.0},
+        "mesh": {"preset": preset, "scale": scale},
+        "analysis": analysis or {"mode": "steady"},
+    }
 
 
-def circle(offset: float = 0.0, spin_ratio: float = 0.0, centre: tuple[float, float] = (10.0, 10.0)
-           ) -> list[dict[str, Any]]:
+def circle(
+    offset: float = 0.0, spin_ratio: float = 0.0, centre: tuple[float, float] = (10.0, 10.0)
+) -> list[dict[str, Any]]:
     """Cylinder of diameter 1 (10 D behind the inlet of the 20 D wide channel by default); ``offset`` lifts it off
     the centre line to seed shedding."""
-    return [{"name": "cylinder", "shape": "circle", "center": [centre[0], centre[1] + offset], "radius": 0.5,
-             "spin": 2.0 * spin_ratio}]
+    return [
+        {
+            "name": "cylinder",
+            "shape": "circle",
+            "center": [centre[0], centre[1] + offset],
+            "radius": 0.5,
+            "spin": 2.0 * spin_ratio,
+        }
+    ]
 
 
 def circle_re100(scale: float, dt: float, end_time: float = 200.0) -> dict[str, Any]:
@@ -101,36 +125,51 @@ def rotating_re100(scale: float, dt: float, end_time: float = 200.0) -> dict[str
 def square_channel_re100(scale: float, dt: float, length: float = 30.0, end_time: float = 300.0) -> dict[str, Any]:
     """Breuer et al. (2000): square of side 1 centred 12.5 D behind the inlet of an 8 D channel, parabolic inflow
     with u_max = 1 (the reference speed). A 0.05 D offset seeds the shedding."""
-    return {"title": "square cylinder in a channel (Breuer et al. 2000)",
-            "channel": {"length": length, "height": 8.0, "walls": "no-slip"},
-            "bodies": [{"name": "square", "shape": "rectangle", "center": [12.5, 4.05], "width": 1.0, "height": 1.0}],
-            "fluid": {"density": 1.0, "reynolds": 100.0, "reference": {"velocity": 1.0}},
-            "inflow": {"profile": "parabolic", "peak_velocity": 1.0},
-            "mesh": {"preset": "coarse", "scale": scale},
-            "analysis": _transient(dt, end_time)}
+    return {
+        "title": "square cylinder in a channel (Breuer et al. 2000)",
+        "channel": {"length": length, "height": 8.0, "walls": "no-slip"},
+        "bodies": [{"name": "square", "shape": "rectangle", "center": [12.5, 4.05], "width": 1.0, "height": 1.0}],
+        "fluid": {"density": 1.0, "reynolds": 100.0, "reference": {"velocity": 1.0}},
+        "inflow": {"profile": "parabolic", "peak_velocity": 1.0},
+        "mesh": {"preset": "coarse", "scale": scale},
+        "analysis": _transient(dt, end_time),
+    }
 
 
 def naca0012_re1000(scale: float, preset: str = "coarse") -> dict[str, Any]:
-    foil = [{"name": "foil", "shape": "naca4", "code": "0012", "chord": 1.0, "leading_edge": [10.0, 10.0],
-             "angle_of_attack": 5.0}]
+    foil = [
+        {
+            "name": "foil",
+            "shape": "naca4",
+            "code": "0012",
+            "chord": 1.0,
+            "leading_edge": [10.0, 10.0],
+            "angle_of_attack": 5.0,
+        }
+    ]
     return free_stream(foil, 1000.0, scale, preset=preset)
 
 
 def regular_polygon(sides: int, radius: float = 0.05, centre: tuple[float, float] = (0.2, 0.2)) -> dict[str, Any]:
     """Regular polygon inscribed in the 2D-1 cylinder, one corner at the front stagnation point."""
     angles = [math.pi + 2 * math.pi * k / sides for k in range(sides)]
-    return {"name": "body", "shape": "polygon",
-            "points": [[centre[0] + radius * math.cos(a), centre[1] + radius * math.sin(a)] for a in angles]}
+    return {
+        "name": "body",
+        "shape": "polygon",
+        "points": [[centre[0] + radius * math.cos(a), centre[1] + radius * math.sin(a)] for a in angles],
+    }
 
 
 def channel_re20(body: dict[str, Any], scale: float = 1.0, preset: str = "coarse") -> dict[str, Any]:
     """The 2D-1 set-up of Schäfer & Turek (1996) around any body; coefficients on the cylinder's diameter 0.1."""
-    return {"title": "2D-1 set-up",
-            "channel": {"length": 2.2, "height": 0.41, "walls": "no-slip"},
-            "bodies": [body],
-            "fluid": {"density": 1.0, "viscosity": 1e-3, "reference": {"length": 0.1}},
-            "inflow": {"profile": "parabolic", "peak_velocity": 0.3},
-            "mesh": {"preset": preset, "scale": scale}}
+    return {
+        "title": "2D-1 set-up",
+        "channel": {"length": 2.2, "height": 0.41, "walls": "no-slip"},
+        "bodies": [body],
+        "fluid": {"density": 1.0, "viscosity": 1e-3, "reference": {"length": 0.1}},
+        "inflow": {"profile": "parabolic", "peak_velocity": 0.3},
+        "mesh": {"preset": preset, "scale": scale},
+    }
 
 
 def leading_eigenvalue(spec: dict[str, Any]) -> complex:

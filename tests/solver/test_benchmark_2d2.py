@@ -28,9 +28,15 @@ def test_2d2_shedding_on_coarse_mesh(tmp_path):
         "fluid": {"density": 1.0, "viscosity": 1e-3},
         "inflow": {"profile": "parabolic", "peak_velocity": 1.5},
         "mesh": {"preset": "coarse"},
-        "analysis": {"mode": "transient", "scheme": "bdf2-imex", "time_step": 5e-4, "end_time": 8.0,
-                     "output_interval": 1.0, "checkpoint_interval": 4000,
-                     "until_periodic": {"cycles": 3, "tolerance": 0.01}},
+        "analysis": {
+            "mode": "transient",
+            "scheme": "bdf2-imex",
+            "time_step": 5e-4,
+            "end_time": 8.0,
+            "output_interval": 1.0,
+            "checkpoint_interval": 4000,
+            "until_periodic": {"cycles": 3, "tolerance": 0.01},
+        },
         "probes": {"pressure_drop": [[0.15, 0.2], [0.25, 0.2]]},
     }
     summary = run(spec, tmp_path)

@@ -14,8 +14,14 @@ from solver.taylor_hood import TaylorHood
 
 def test_poiseuille_is_reproduced_exactly():
     # Analytic: u = 4 Um y (H - y) / H^2, dp/dx = -8 mu Um / H^2; P2/P1 contain both exactly.
-    spec = load({"channel": {"length": 1.0, "height": 0.4}, "inflow": {"peak_velocity": 0.3},
-                 "fluid": {"viscosity": 0.01}, "mesh": {"preset": "coarse"}})
+    spec = load(
+        {
+            "channel": {"length": 1.0, "height": 0.4},
+            "inflow": {"peak_velocity": 0.3},
+            "fluid": {"viscosity": 0.01},
+            "mesh": {"preset": "coarse"},
+        }
+    )
     case = Case.build(spec)
     x, _ = solve_steady(case.ns)
     ux, uy, p = case.th.split(x)
@@ -31,8 +37,13 @@ def test_poiseuille_is_reproduced_exactly():
 def test_velocity_probes_read_the_parabola(tmp_path):
     from solver import run
 
-    spec = {"channel": {"length": 1.0, "height": 0.4}, "fluid": {"viscosity": 0.01}, "mesh": {"preset": "coarse"},
-            "inflow": {"peak_velocity": 0.3}, "probes": {"velocity": [[0.5, 0.1], [0.73, 0.33]]}}
+    spec = {
+        "channel": {"length": 1.0, "height": 0.4},
+        "fluid": {"viscosity": 0.01},
+        "mesh": {"preset": "coarse"},
+        "inflow": {"peak_velocity": 0.3},
+        "probes": {"velocity": [[0.5, 0.1], [0.73, 0.33]]},
+    }
     summary = run(spec, tmp_path)
     for (x, y), (u, v) in zip(spec["probes"]["velocity"], summary["velocity_probes"]):
         assert u == pytest.approx(4 * 0.3 * y * (0.4 - y) / 0.4**2, abs=1e-10)
@@ -80,9 +91,16 @@ def test_kovasznay_velocity_converges_at_third_order():
 
 @pytest.mark.parametrize("elements", ["P2P1", "P3P2"])
 def test_element_pairs_agree_on_poiseuille_pressure_drop(elements):
-    spec = load({"channel": {"length": 1.0, "height": 0.4}, "elements": elements, "mesh": {"preset": "coarse"},
-                 "probes": {"pressure_drop": [[0.2, 0.2], [0.8, 0.2]]}, "fluid": {"density": 1.0, "viscosity": 0.01},
-                 "inflow": {"peak_velocity": 0.3}})
+    spec = load(
+        {
+            "channel": {"length": 1.0, "height": 0.4},
+            "elements": elements,
+            "mesh": {"preset": "coarse"},
+            "probes": {"pressure_drop": [[0.2, 0.2], [0.8, 0.2]]},
+            "fluid": {"density": 1.0, "viscosity": 0.01},
+            "inflow": {"peak_velocity": 0.3},
+        }
+    )
     case = Case.build(spec)
     x, _ = solve_steady(case.ns)
     row = case.force_row(0.0, x, case.ns.convection(x), None)

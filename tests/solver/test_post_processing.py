@@ -12,8 +12,10 @@ from solver.output import read_forces
 TANDEM = {
     "title": "two tubes in tandem (test)",
     "channel": {"length": 1.2, "height": 0.3, "walls": "no-slip"},
-    "bodies": [{"name": "upstream", "shape": "circle", "center": [0.25, 0.15], "radius": 0.02},
-               {"name": "downstream", "shape": "circle", "center": [0.37, 0.15], "radius": 0.02}],
+    "bodies": [
+        {"name": "upstream", "shape": "circle", "center": [0.25, 0.15], "radius": 0.02},
+        {"name": "downstream", "shape": "circle", "center": [0.37, 0.15], "radius": 0.02},
+    ],
     "fluid": {"density": 1.2, "viscosity": 1.5e-5},
     "inflow": {"profile": "parabolic", "mean_velocity": 0.02},
     "mesh": {"preset": "coarse", "scale": 1.5},
@@ -49,8 +51,13 @@ def test_wake_reaching_the_next_body_gives_null_length_with_reason(tmp_path):
 
 
 def test_probe_points_outside_the_fluid_give_null_with_reason(tmp_path):
-    spec = {**PIPE, "probes": {"pressure_drop": [[0.1, 0.2], list(IN_CURVED_BODY)],
-                               "velocity": [[0.5, 0.2], list(IN_CURVED_BODY), [0.15, 0.2]]}}
+    spec = {
+        **PIPE,
+        "probes": {
+            "pressure_drop": [[0.1, 0.2], list(IN_CURVED_BODY)],
+            "velocity": [[0.5, 0.2], list(IN_CURVED_BODY), [0.15, 0.2]],
+        },
+    }
     summary = run(spec, tmp_path)
     assert summary["pressure_drop"] is None
     assert "not in the fluid" in summary["unavailable"]["pressure_drop"]
@@ -101,10 +108,8 @@ def test_cli_reports_a_failure_in_one_line_with_exit_code_3(tmp_path):
     assert first.startswith("run failed: writing result files failed: ") and "Traceback" not in done.stderr
 
 
-
 def test_cli_refuses_unreadable_specs_in_one_line_with_exit_code_2(tmp_path):
-    cases = {"deep.json": "[" * 100_000 + "]" * 100_000, "latin1.json": "{\"title\": \"caf\xe9\"}",
-             "list.json": "[1, 2]"}
+    cases = {"deep.json": "[" * 100_000 + "]" * 100_000, "latin1.json": '{"title": "caf\xe9"}', "list.json": "[1, 2]"}
     for name, text in cases.items():
         path = tmp_path / name
         path.write_bytes(text.encode("latin-1"))

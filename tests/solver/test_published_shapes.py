@@ -82,10 +82,15 @@ def test_onset_of_shedding_between_re40_and_re60():
 
 def test_ellipse_of_aspect_ratio_one_is_the_circle(tmp_path):
     """Self-consistency (common practice): the same body described two ways, and turned, gives the same forces."""
-    circle = run(pc.channel_re20({"name": "body", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}),
-                 tmp_path / "circle")["bodies"][0]
-    ellipse = run(pc.channel_re20({"name": "body", "shape": "ellipse", "center": [0.2, 0.2], "width": 0.1,
-                                   "height": 0.1, "angle": 30}), tmp_path / "ellipse")["bodies"][0]
+    circle = run(
+        pc.channel_re20({"name": "body", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}), tmp_path / "circle"
+    )["bodies"][0]
+    ellipse = run(
+        pc.channel_re20(
+            {"name": "body", "shape": "ellipse", "center": [0.2, 0.2], "width": 0.1, "height": 0.1, "angle": 30}
+        ),
+        tmp_path / "ellipse",
+    )["bodies"][0]
     # measured: 5.57937 against 5.57939 on the coarse preset; 1e-4 is a project choice
     assert ellipse["drag_coefficient"] == pytest.approx(circle["drag_coefficient"], rel=1e-4)
     assert ellipse["lift_coefficient"] == pytest.approx(circle["lift_coefficient"], abs=1e-4)
@@ -95,8 +100,9 @@ def test_regular_polygons_converge_to_the_circle(tmp_path):
     """Self-consistency (common practice): inscribed regular polygons approach the circle's drag at second order
     in the number of sides N (their area falls short of the circle's by about (2 pi / N)^2 / 6): each doubling of N
     divides the gap by about 4 (3 to 5 accepted, a project choice)."""
-    circle = run(pc.channel_re20({"name": "body", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}),
-                 tmp_path / "circle")["bodies"][0]["drag_coefficient"]
+    circle = run(
+        pc.channel_re20({"name": "body", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}), tmp_path / "circle"
+    )["bodies"][0]["drag_coefficient"]
     gaps = []
     for sides in (16, 32, 64):
         cd = run(pc.channel_re20(pc.regular_polygon(sides)), tmp_path / f"n{sides}")["bodies"][0]["drag_coefficient"]

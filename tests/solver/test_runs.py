@@ -21,8 +21,14 @@ SMALL = {
     "fluid": {"density": 1.0, "viscosity": 1e-3},
     "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2},
     "mesh": {"preset": "coarse", "scale": 2.0},
-    "analysis": {"mode": "transient", "scheme": "bdf2-imex", "time_step": 0.01, "end_time": 0.3,
-                 "output_interval": 0.1, "checkpoint_interval": 5},
+    "analysis": {
+        "mode": "transient",
+        "scheme": "bdf2-imex",
+        "time_step": 0.01,
+        "end_time": 0.3,
+        "output_interval": 0.1,
+        "checkpoint_interval": 5,
+    },
     "probes": {"pressure_drop": [[0.1, 0.2], [0.3, 0.2]]},
 }
 
@@ -46,7 +52,11 @@ def test_transient_outputs(full_run):
     # Re 20: no shedding (common knowledge: a circular cylinder's wake stays steady below Re of about 47)
     assert summary["strouhal_number"] is None
     assert sorted(p.name for p in (out / "fields").glob("*.vtu")) == [
-        "step_000000.vtu", "step_000010.vtu", "step_000020.vtu", "step_000030.vtu"]
+        "step_000000.vtu",
+        "step_000010.vtu",
+        "step_000020.vtu",
+        "step_000030.vtu",
+    ]
     assert len(list((out / "pictures").glob("vorticity_*.png"))) == 4
     assert (out / "forces.png").stat().st_size > 1000
     assert not (out / "checkpoint.npz").exists()
@@ -86,8 +96,11 @@ def test_cancel_keeps_partial_history_and_resume_gives_same_result(full_run, tmp
 
 
 def test_divergence_is_reported_with_time_and_cfl(tmp_path):
-    spec = {**SMALL, "inflow": {"peak_velocity": 30.0},
-            "analysis": {**SMALL["analysis"], "scheme": "euler-imex", "time_step": 0.05, "end_time": 5.0}}
+    spec = {
+        **SMALL,
+        "inflow": {"peak_velocity": 30.0},
+        "analysis": {**SMALL["analysis"], "scheme": "euler-imex", "time_step": 0.05, "end_time": 5.0},
+    }
     with pytest.raises(Diverged, match=r"blew up at t = .*CFL number .*time_step = "):
         run(spec, tmp_path)
     assert json.loads((tmp_path / "status.json").read_text())["state"] == "failed"
@@ -104,9 +117,15 @@ def test_cli_exit_codes(tmp_path):
     assert done.returncode == 2 and "bodies.0.radius" in done.stderr
 
     diverging = tmp_path / "diverging.json"
-    diverging.write_text(json.dumps({**SMALL, "inflow": {"peak_velocity": 30.0},
-                                     "analysis": {**SMALL["analysis"], "scheme": "euler-imex",
-                                                  "time_step": 0.05, "end_time": 5.0}}))
+    diverging.write_text(
+        json.dumps(
+            {
+                **SMALL,
+                "inflow": {"peak_velocity": 30.0},
+                "analysis": {**SMALL["analysis"], "scheme": "euler-imex", "time_step": 0.05, "end_time": 5.0},
+            }
+        )
+    )
     done = cli("run", str(diverging), "--out", str(tmp_path / "div"), "--quiet")
     assert done.returncode == 3 and "blew up" in done.stderr
     assert " ".join(done.stderr.split()).endswith(f"Caution: {CAUTION}")  # the partial results are kept

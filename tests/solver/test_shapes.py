@@ -29,21 +29,57 @@ SHORT = {"mode": "transient", "scheme": "bdf2-implicit", "time_step": 0.02, "end
 
 SHAPES = {
     "square": [{"name": "block", "shape": "rectangle", "center": [0.3, CENTRE], "width": 0.1, "height": 0.1}],
-    "plate": [{"name": "plate", "shape": "rectangle", "center": [0.3, CENTRE], "width": 0.16, "height": 0.04,
-               "angle": 20, "corner_radius": 0.01}],
-    "ellipse": [{"name": "oval", "shape": "ellipse", "center": [0.3, CENTRE], "width": 0.16, "height": 0.06,
-                 "angle": 15}],
-    "naca0012": [{"name": "foil", "shape": "naca4", "code": "0012", "chord": 0.2, "leading_edge": [0.2, CENTRE],
-                  "angle_of_attack": 8}],
-    "naca2412": [{"name": "foil", "shape": "naca4", "code": "2412", "chord": 0.2, "leading_edge": [0.2, CENTRE],
-                  "angle_of_attack": 0}],
-    "triangle": [{"name": "wedge", "shape": "polygon",
-                  "points": [[0.25, CENTRE - 0.05], [0.35, CENTRE], [0.25, CENTRE + 0.05]]}],
+    "plate": [
+        {
+            "name": "plate",
+            "shape": "rectangle",
+            "center": [0.3, CENTRE],
+            "width": 0.16,
+            "height": 0.04,
+            "angle": 20,
+            "corner_radius": 0.01,
+        }
+    ],
+    "ellipse": [
+        {"name": "oval", "shape": "ellipse", "center": [0.3, CENTRE], "width": 0.16, "height": 0.06, "angle": 15}
+    ],
+    "naca0012": [
+        {
+            "name": "foil",
+            "shape": "naca4",
+            "code": "0012",
+            "chord": 0.2,
+            "leading_edge": [0.2, CENTRE],
+            "angle_of_attack": 8,
+        }
+    ],
+    "naca2412": [
+        {
+            "name": "foil",
+            "shape": "naca4",
+            "code": "2412",
+            "chord": 0.2,
+            "leading_edge": [0.2, CENTRE],
+            "angle_of_attack": 0,
+        }
+    ],
+    "triangle": [
+        {"name": "wedge", "shape": "polygon", "points": [[0.25, CENTRE - 0.05], [0.35, CENTRE], [0.25, CENTRE + 0.05]]}
+    ],
     "spinning": [{"name": "roller", "shape": "circle", "center": [0.3, CENTRE], "radius": 0.05, "spin": 4.0}],
-    "several": [{"name": "pipe", "shape": "circle", "center": [0.25, 0.11], "radius": 0.05, "spin": -2.0},
-                {"name": "strut", "shape": "rectangle", "center": [0.25, 0.3], "width": 0.1, "height": 0.08,
-                 "angle": -10, "corner_radius": 0.01},
-                {"name": "fin", "shape": "polygon", "points": [[0.5, 0.16], [0.65, 0.205], [0.5, 0.25]]}],
+    "several": [
+        {"name": "pipe", "shape": "circle", "center": [0.25, 0.11], "radius": 0.05, "spin": -2.0},
+        {
+            "name": "strut",
+            "shape": "rectangle",
+            "center": [0.25, 0.3],
+            "width": 0.1,
+            "height": 0.08,
+            "angle": -10,
+            "corner_radius": 0.01,
+        },
+        {"name": "fin", "shape": "polygon", "points": [[0.5, 0.16], [0.65, 0.205], [0.5, 0.25]]},
+    ],
 }
 
 
@@ -131,8 +167,12 @@ def test_p3p2_with_a_body_steady_and_in_time(tmp_path):
     """P3/P2 against the Schäfer & Turek (1996) benchmark 2D-1: cD = 5.57953523384 (high-accuracy value as
     widely quoted; see tests/solver/test_benchmarks.py). The 0.2 % tolerance is a project choice for a
     coarse mesh."""
-    spec = case([{"name": "cylinder", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-                channel={"length": 2.2, "height": 0.41}, elements="P3P2", mesh={"preset": "coarse"})
+    spec = case(
+        [{"name": "cylinder", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+        channel={"length": 2.2, "height": 0.41},
+        elements="P3P2",
+        mesh={"preset": "coarse"},
+    )
     summary = run(spec, tmp_path / "steady")
     assert summary["elements"] == "P3P2"
     assert summary["bodies"][0]["drag_coefficient"] == pytest.approx(5.57953523384, rel=2e-3)
@@ -149,14 +189,25 @@ SLIP_CHANNEL = {
 }
 
 
-@pytest.mark.parametrize("law", [
-    {"kind": "sine", "period": 0.2, "mean": 1.0, "amplitude": 0.5},
-    {"kind": "table", "points": [[0.0, 0.2], [0.05, 1.0], [0.1, 0.6], [1.0, 0.6]]},
-])
+@pytest.mark.parametrize(
+    "law",
+    [
+        {"kind": "sine", "period": 0.2, "mean": 1.0, "amplitude": 0.5},
+        {"kind": "table", "points": [[0.0, 0.2], [0.05, 1.0], [0.1, 0.6], [1.0, 0.6]]},
+    ],
+)
 def test_uniform_flow_between_slip_walls_follows_the_time_law_exactly(tmp_path, law):
-    spec = {**SLIP_CHANNEL, "inflow": {**SLIP_CHANNEL["inflow"], "ramp_time": 0.04, "time_law": law},
-            "analysis": {"mode": "transient", "scheme": "bdf2-implicit", "time_step": 0.01, "end_time": 0.12,
-                         "output_interval": 0.12}}
+    spec = {
+        **SLIP_CHANNEL,
+        "inflow": {**SLIP_CHANNEL["inflow"], "ramp_time": 0.04, "time_law": law},
+        "analysis": {
+            "mode": "transient",
+            "scheme": "bdf2-implicit",
+            "time_step": 0.01,
+            "end_time": 0.12,
+            "output_interval": 0.12,
+        },
+    }
     run(spec, tmp_path)
     columns, data = read_forces(tmp_path / "forces.csv")
     t = data[:, 0]
@@ -178,10 +229,16 @@ def test_uniform_flow_between_slip_walls_steady(tmp_path):
 
 
 def test_a_body_with_a_time_law_and_slip_walls_steps_in_time(tmp_path):
-    spec = case(SHAPES["square"], channel={"length": 1.0, "height": 0.41, "walls": "slip"},
-                inflow={"profile": "uniform", "mean_velocity": 0.2,
-                        "time_law": {"kind": "sine", "period": 0.1, "mean": 1.0, "amplitude": 0.3}},
-                analysis=SHORT)
+    spec = case(
+        SHAPES["square"],
+        channel={"length": 1.0, "height": 0.41, "walls": "slip"},
+        inflow={
+            "profile": "uniform",
+            "mean_velocity": 0.2,
+            "time_law": {"kind": "sine", "period": 0.1, "mean": 1.0, "amplitude": 0.3},
+        },
+        analysis=SHORT,
+    )
     summary = run(spec, tmp_path)
     _, data = read_forces(tmp_path / "forces.csv")
     assert np.isfinite(data).all() and summary["steps"] == 4

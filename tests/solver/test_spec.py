@@ -27,38 +27,62 @@ def test_three_line_spec_gets_defaults():
 
 
 def test_reynolds_number_sets_viscosity_from_reference_scales():
-    spec = load({"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"reynolds": 100},
-                 "inflow": {"peak_velocity": 1.5}})
+    spec = load(
+        {"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"reynolds": 100}, "inflow": {"peak_velocity": 1.5}}
+    )
     assert spec.viscosity() == pytest.approx(1.0 * 0.1 / 100)
 
 
 def test_time_law_amplitude_not_instant_value_sets_reference_velocity():
-    spec = load({"inflow": {"mean_velocity": 2.0, "profile": "uniform",
-                            "time_law": {"kind": "sine", "period": 1.0, "amplitude": 0.5}}})
+    spec = load(
+        {
+            "inflow": {
+                "mean_velocity": 2.0,
+                "profile": "uniform",
+                "time_law": {"kind": "sine", "period": 1.0, "amplitude": 0.5},
+            }
+        }
+    )
     assert spec.nominal_velocity() == pytest.approx(1.0)
     assert spec.inflow.factor(0.25) == pytest.approx(0.5)
 
 
-@pytest.mark.parametrize(("data", "field", "words"), [
-    ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": -1}]}, "bodies.0.radius", "greater than 0"),
-    ({"fluid": {"viscosity": 0}}, "fluid.viscosity", "greater than 0"),
-    ({"analysis": {"time_step": -1e-3}}, "analysis.time_step", "greater than 0"),
-    ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": 0.3}]}, "bodies.0", "not strictly inside the channel"),
-    ({"channel": CHANNEL, "bodies": [CYLINDER, {**CYLINDER, "center": [0.25, 0.2]}]}, "bodies.1", "overlaps"),
-    ({"channel": CHANNEL, "bodies": [CYLINDER], "probes": {"pressure_drop": [[0.2, 0.2], [0.5, 0.2]]}},
-     "probes.pressure_drop.0", "inside body"),
-    ({"analysis": {"mode": "transient", "time_step": 0.1, "end_time": 0.01}}, "analysis.end_time", "shorter"),
-    ({"colour": "red"}, "colour", "not permitted"),
-    ({"bodies": [{"shape": "naca4", "code": "24x2", "chord": 0.1, "leading_edge": [0.1, 0.2]}]},
-     "bodies.0.code", "pattern"),
-    ({"bodies": [{"shape": "polygon", "points": [[0.3, 0.1], [0.4, 0.2], [0.4, 0.1], [0.3, 0.2]]}]},
-     "bodies.0.points", "cross"),
-    ({"fluid": {"viscosity": 1e-3, "reynolds": 100}}, "fluid", "not both"),
-    ({"channel": {"length": "long"}}, "channel.length", "number"),
-    ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": 1e300}]}, "bodies.0.radius", "less than or equal"),
-    ({"channel": CHANNEL, "bodies": [{**CYLINDER, "center": [1e300, 0.2]}]}, "bodies.0.center.0", "less than or equal"),
-    ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": 1e-9}]}, "bodies.0", "too small to mesh"),
-])
+@pytest.mark.parametrize(
+    ("data", "field", "words"),
+    [
+        ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": -1}]}, "bodies.0.radius", "greater than 0"),
+        ({"fluid": {"viscosity": 0}}, "fluid.viscosity", "greater than 0"),
+        ({"analysis": {"time_step": -1e-3}}, "analysis.time_step", "greater than 0"),
+        ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": 0.3}]}, "bodies.0", "not strictly inside the channel"),
+        ({"channel": CHANNEL, "bodies": [CYLINDER, {**CYLINDER, "center": [0.25, 0.2]}]}, "bodies.1", "overlaps"),
+        (
+            {"channel": CHANNEL, "bodies": [CYLINDER], "probes": {"pressure_drop": [[0.2, 0.2], [0.5, 0.2]]}},
+            "probes.pressure_drop.0",
+            "inside body",
+        ),
+        ({"analysis": {"mode": "transient", "time_step": 0.1, "end_time": 0.01}}, "analysis.end_time", "shorter"),
+        ({"colour": "red"}, "colour", "not permitted"),
+        (
+            {"bodies": [{"shape": "naca4", "code": "24x2", "chord": 0.1, "leading_edge": [0.1, 0.2]}]},
+            "bodies.0.code",
+            "pattern",
+        ),
+        (
+            {"bodies": [{"shape": "polygon", "points": [[0.3, 0.1], [0.4, 0.2], [0.4, 0.1], [0.3, 0.2]]}]},
+            "bodies.0.points",
+            "cross",
+        ),
+        ({"fluid": {"viscosity": 1e-3, "reynolds": 100}}, "fluid", "not both"),
+        ({"channel": {"length": "long"}}, "channel.length", "number"),
+        ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": 1e300}]}, "bodies.0.radius", "less than or equal"),
+        (
+            {"channel": CHANNEL, "bodies": [{**CYLINDER, "center": [1e300, 0.2]}]},
+            "bodies.0.center.0",
+            "less than or equal",
+        ),
+        ({"channel": CHANNEL, "bodies": [{**CYLINDER, "radius": 1e-9}]}, "bodies.0", "too small to mesh"),
+    ],
+)
 def test_bad_input_names_field(data, field, words):
     found = problems(data)
     assert field in found, found
@@ -85,17 +109,31 @@ def test_step_limit():
         check_limits(spec, Limits(max_steps=1000))
 
 
-@pytest.mark.parametrize(("data", "field", "words"), [
-    ({"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"reynolds": 4.9e-324}}, "fluid.reynolds",
-     "greater than or equal to 0.000001"),
-    ({"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"viscosity": 5e-324}}, "fluid.viscosity",
-     "Reynolds number U L / ν = inf"),
-    ({"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"reynolds": 1e-6, "reference": {"velocity": 1e4}}},
-     "fluid.reynolds",
-     "kinematic viscosity of 1e+09 m²/s, over the limit of 1e+06"),
-    ({"inflow": {"time_law": {"kind": "table", "points": [[0, 0], [1, 0]]}}}, "inflow.time_law",
-     "nominal velocity is zero"),
-])
+@pytest.mark.parametrize(
+    ("data", "field", "words"),
+    [
+        (
+            {"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"reynolds": 4.9e-324}},
+            "fluid.reynolds",
+            "greater than or equal to 0.000001",
+        ),
+        (
+            {"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"viscosity": 5e-324}},
+            "fluid.viscosity",
+            "Reynolds number U L / ν = inf",
+        ),
+        (
+            {"channel": CHANNEL, "bodies": [CYLINDER], "fluid": {"reynolds": 1e-6, "reference": {"velocity": 1e4}}},
+            "fluid.reynolds",
+            "kinematic viscosity of 1e+09 m²/s, over the limit of 1e+06",
+        ),
+        (
+            {"inflow": {"time_law": {"kind": "table", "points": [[0, 0], [1, 0]]}}},
+            "inflow.time_law",
+            "nominal velocity is zero",
+        ),
+    ],
+)
 def test_derived_scales_stay_bounded(data, field, words):
     """Reynolds number, viscosity and reference velocity derived from each other stay finite and in range."""
     found = problems(data)

@@ -11,10 +11,15 @@ from solver.steady import newton, solve_steady
 @pytest.fixture(scope="module")
 def case_re150():
     # the 2D-1 benchmark channel and cylinder (Schäfer & Turek 1996) at Re 150, where no steady flow is stable
-    spec = load({"channel": {"length": 2.2, "height": 0.41},
-                 "bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-                 "mesh": {"preset": "coarse", "scale": 2.0}, "fluid": {"reynolds": 150},
-                 "inflow": {"peak_velocity": 1.5}})
+    spec = load(
+        {
+            "channel": {"length": 2.2, "height": 0.41},
+            "bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+            "mesh": {"preset": "coarse", "scale": 2.0},
+            "fluid": {"reynolds": 150},
+            "inflow": {"peak_velocity": 1.5},
+        }
+    )
     return Case.build(spec)
 
 

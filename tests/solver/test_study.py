@@ -6,14 +6,25 @@ from solver import SpecError, load
 from solver.study import expand, summary_values
 from solver.units import labelled, number_paths, spec_unit, value_unit
 
-PIER = {"channel": {"length": 2.0, "height": 1.0},
-        "bodies": [{"name": "pier", "shape": "rectangle", "center": [0.5, 0.5], "width": 0.1, "height": 0.1}]}
+PIER = {
+    "channel": {"length": 2.0, "height": 1.0},
+    "bodies": [{"name": "pier", "shape": "rectangle", "center": [0.5, 0.5], "width": 0.1, "height": 0.1}],
+}
 
 
 def test_two_parameter_sweep_is_a_product():
-    points = expand({"base": PIER, "vary": [
-        {"path": "bodies.0.angle", "values": [0, 15, 30]},
-        {"path": "inflow.peak_velocity", "range": {"start": 0.1, "stop": 0.4, "count": 3, "spacing": "geometric"}}]})
+    points = expand(
+        {
+            "base": PIER,
+            "vary": [
+                {"path": "bodies.0.angle", "values": [0, 15, 30]},
+                {
+                    "path": "inflow.peak_velocity",
+                    "range": {"start": 0.1, "stop": 0.4, "count": 3, "spacing": "geometric"},
+                },
+            ],
+        }
+    )
     assert len(points) == 9
     values, spec = points[-1]
     assert values == {"bodies.0.angle": 30, "inflow.peak_velocity": pytest.approx(0.4)}
@@ -21,16 +32,28 @@ def test_two_parameter_sweep_is_a_product():
     assert points[1][0]["inflow.peak_velocity"] == pytest.approx(0.2)  # geometric middle of 0.1 and 0.4
 
 
-@pytest.mark.parametrize(("study", "field"), [
-    ({"base": PIER, "vary": [{"path": "bodies.3.angle", "values": [1]}]}, "vary.0.path"),
-    ({"base": PIER, "vary": [{"path": "channel.walls", "values": [1]}]}, "vary.0.path"),
-    ({"base": PIER, "vary": [{"path": "bodies.0.center.0", "values": [0.5, 1.99]}]}, "points.1.bodies.0"),
-    ({"base": PIER, "vary": []}, "(spec)"),
-    ({"base": {**PIER, "fluid": {"viscosity": -1}}, "vary": [{"path": "fluid.viscosity", "values": [1]}]},
-     "base.fluid.viscosity"),
-    ({"base": PIER, "vary": [{"path": "fluid.density", "range": {"start": 0, "stop": 1, "count": 3,
-                                                                   "spacing": "geometric"}}]}, "vary.0.range"),
-])
+@pytest.mark.parametrize(
+    ("study", "field"),
+    [
+        ({"base": PIER, "vary": [{"path": "bodies.3.angle", "values": [1]}]}, "vary.0.path"),
+        ({"base": PIER, "vary": [{"path": "channel.walls", "values": [1]}]}, "vary.0.path"),
+        ({"base": PIER, "vary": [{"path": "bodies.0.center.0", "values": [0.5, 1.99]}]}, "points.1.bodies.0"),
+        ({"base": PIER, "vary": []}, "(spec)"),
+        (
+            {"base": {**PIER, "fluid": {"viscosity": -1}}, "vary": [{"path": "fluid.viscosity", "values": [1]}]},
+            "base.fluid.viscosity",
+        ),
+        (
+            {
+                "base": PIER,
+                "vary": [
+                    {"path": "fluid.density", "range": {"start": 0, "stop": 1, "count": 3, "spacing": "geometric"}}
+                ],
+            },
+            "vary.0.range",
+        ),
+    ],
+)
 def test_bad_studies_name_the_field(study, field):
     with pytest.raises(SpecError) as err:
         expand(study)
@@ -38,26 +61,51 @@ def test_bad_studies_name_the_field(study, field):
 
 
 def test_summary_values_flatten_transient_statistics():
-    summary = {"bodies": [{"name": "a", "drag_coefficient": {"mean": 1.0, "amplitude": 0.1},
-                           "lift_coefficient": {"mean": 0.0, "amplitude": 0.5}}],
-               "pressure_drop": {"mean": 2.0}, "strouhal_number": 0.2}
-    assert summary_values(summary) == {"a.cd_mean": 1.0, "a.cd_amplitude": 0.1, "a.cl_mean": 0.0,
-                                       "a.cl_amplitude": 0.5, "pressure_drop_mean": 2.0, "strouhal_number": 0.2}
+    summary = {
+        "bodies": [
+            {
+                "name": "a",
+                "drag_coefficient": {"mean": 1.0, "amplitude": 0.1},
+                "lift_coefficient": {"mean": 0.0, "amplitude": 0.5},
+            }
+        ],
+        "pressure_drop": {"mean": 2.0},
+        "strouhal_number": 0.2,
+    }
+    assert summary_values(summary) == {
+        "a.cd_mean": 1.0,
+        "a.cd_amplitude": 0.1,
+        "a.cl_mean": 0.0,
+        "a.cl_amplitude": 0.5,
+        "pressure_drop_mean": 2.0,
+        "strouhal_number": 0.2,
+    }
 
 
 def test_every_numeric_spec_field_has_a_unit_for_study_axes():
-    full = load({"bodies": [
-        {"shape": "circle", "center": [0.05, 0.05], "radius": 0.005, "spin": 1.0},
-        {"shape": "rectangle", "center": [0.1, 0.05], "width": 0.01, "height": 0.01, "angle": 10,
-         "corner_radius": 0.001},
-        {"shape": "ellipse", "center": [0.15, 0.05], "width": 0.02, "height": 0.01, "angle": 5},
-        {"shape": "naca4", "code": "0012", "chord": 0.02, "leading_edge": [0.2, 0.05], "angle_of_attack": 4},
-        {"shape": "polygon", "points": [[0.3, 0.04], [0.32, 0.05], [0.3, 0.06]]}],
-        "fluid": {"reference": {"velocity": 0.001, "length": 0.01}},
-        "inflow": {"time_law": {"kind": "table", "points": [[0, 0.5], [1, 1.0]]}},
-        "mesh": {"body_size": 0.001, "wake_size": 0.002, "far_size": 0.01, "wake_length": 0.1},
-        "analysis": {"output_interval": 1.0, "until_periodic": {}},
-        "probes": {"pressure_drop": [[0.01, 0.05], [0.39, 0.05]], "velocity": [[0.2, 0.02]]}})
+    full = load(
+        {
+            "bodies": [
+                {"shape": "circle", "center": [0.05, 0.05], "radius": 0.005, "spin": 1.0},
+                {
+                    "shape": "rectangle",
+                    "center": [0.1, 0.05],
+                    "width": 0.01,
+                    "height": 0.01,
+                    "angle": 10,
+                    "corner_radius": 0.001,
+                },
+                {"shape": "ellipse", "center": [0.15, 0.05], "width": 0.02, "height": 0.01, "angle": 5},
+                {"shape": "naca4", "code": "0012", "chord": 0.02, "leading_edge": [0.2, 0.05], "angle_of_attack": 4},
+                {"shape": "polygon", "points": [[0.3, 0.04], [0.32, 0.05], [0.3, 0.06]]},
+            ],
+            "fluid": {"reference": {"velocity": 0.001, "length": 0.01}},
+            "inflow": {"time_law": {"kind": "table", "points": [[0, 0.5], [1, 1.0]]}},
+            "mesh": {"body_size": 0.001, "wake_size": 0.002, "far_size": 0.01, "wake_length": 0.1},
+            "analysis": {"output_interval": 1.0, "until_periodic": {}},
+            "probes": {"pressure_drop": [[0.01, 0.05], [0.39, 0.05]], "velocity": [[0.2, 0.02]]},
+        }
+    )
     data = full.model_dump(mode="json")
     assert [p for p in number_paths(data) if spec_unit(p) is None] == []
     assert spec_unit("inflow.mean_velocity") == "m/s" and spec_unit("bodies.1.center.0") == "m"

@@ -16,9 +16,15 @@ END = 0.4
 def case():
     # smooth start from rest: the inflow ramps up over the whole run (Re 20 at full speed)
     # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a channel shortened to 1.0
-    spec = load({"bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-                 "channel": {"length": 1.0, "height": 0.41}, "mesh": {"preset": "coarse", "scale": 2.0},
-                 "fluid": {"density": 1.0, "viscosity": 1e-3}, "inflow": {"peak_velocity": 0.3, "ramp_time": 2 * END}})
+    spec = load(
+        {
+            "bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+            "channel": {"length": 1.0, "height": 0.41},
+            "mesh": {"preset": "coarse", "scale": 2.0},
+            "fluid": {"density": 1.0, "viscosity": 1e-3},
+            "inflow": {"peak_velocity": 0.3, "ramp_time": 2 * END},
+        }
+    )
     return Case.build(spec)
 
 
@@ -29,8 +35,9 @@ def final_drag(case, scheme, steps):
     return case.force_row(stepper.t, result.x, result.convection, result.dudt)[3]
 
 
-@pytest.mark.parametrize(("scheme", "low", "high"), [("euler-imex", 0.8, 1.3), ("bdf2-imex", 1.8, 2.6),
-                                                      ("bdf2-implicit", 1.8, 2.6)])
+@pytest.mark.parametrize(
+    ("scheme", "low", "high"), [("euler-imex", 0.8, 1.3), ("bdf2-imex", 1.8, 2.6), ("bdf2-implicit", 1.8, 2.6)]
+)
 def test_observed_order(case, scheme, low, high):
     values = np.array([final_drag(case, scheme, n) for n in (40, 80, 160, 320)])
     diffs = np.abs(np.diff(values))

@@ -14,15 +14,22 @@ BASE = {
     "fluid": {"density": 1.0, "viscosity": 1e-3},
     "inflow": {"peak_velocity": 1.5},
     "mesh": {"preset": "coarse", "scale": 1.5},
-    "analysis": {"mode": "transient", "scheme": "bdf2-implicit", "time_step": 0.01, "end_time": 8.0,
-                 "output_interval": 4.0},
+    "analysis": {
+        "mode": "transient",
+        "scheme": "bdf2-implicit",
+        "time_step": 0.01,
+        "end_time": 8.0,
+        "output_interval": 4.0,
+    },
 }
 
 
 @pytest.mark.slow
 def test_early_stop_matches_long_run_within_one_percent(tmp_path):
-    early = run({**BASE, "analysis": {**BASE["analysis"], "until_periodic": {"cycles": 3, "tolerance": 0.01}}},
-                tmp_path / "early")
+    early = run(
+        {**BASE, "analysis": {**BASE["analysis"], "until_periodic": {"cycles": 3, "tolerance": 0.01}}},
+        tmp_path / "early",
+    )
     long = run(BASE, tmp_path / "long")
     assert early["ended_by"] == "periodic" and long["ended_by"] == "end_time"
     assert early["simulated_time"] < 0.7 * long["simulated_time"]

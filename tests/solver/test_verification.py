@@ -57,9 +57,12 @@ def test_mesh_study_extrapolates_2d1_drag_towards_reference(tmp_path):
     from solver.study import convergence, expand
 
     reference = 5.57953523384
-    base = {"channel": {"length": 2.2, "height": 0.41},
-            "bodies": [{"name": "cylinder", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-            "fluid": {"density": 1.0, "viscosity": 1e-3}, "mesh": {"preset": "coarse", "scale": 2.0}}
+    base = {
+        "channel": {"length": 2.2, "height": 0.41},
+        "bodies": [{"name": "cylinder", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+        "fluid": {"density": 1.0, "viscosity": 1e-3},
+        "mesh": {"preset": "coarse", "scale": 2.0},
+    }
     points = expand({"kind": "mesh-convergence", "base": base, "levels": 3})
     assert [v["mesh.refinements"] for v, _ in points] == [0, 1, 2]
     summaries = [run(spec, tmp_path / str(k)) for k, (_, spec) in enumerate(points)]

@@ -23,8 +23,16 @@ import pytest
 ROOT = Path(__file__).resolve().parents[2]
 ARTIFACTS = ROOT / "test-artifacts" / "web"
 CHROMIUM = "/usr/bin/chromium"
-CHROMIUM_ARGS = ["--headless=new", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                 "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+CHROMIUM_ARGS = [
+    "--headless=new",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+]
 
 # The small case of the tests: about a second of solving plus the pictures. The cylinder and fluid of the 2D-1
 # benchmark (Schäfer & Turek 1996) in a channel shortened to 1.0, a well-known Re-20 case (no published value used).
@@ -35,8 +43,13 @@ TINY = {
     "fluid": {"density": 1.0, "viscosity": 0.001},
     "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2},
     "mesh": {"preset": "coarse", "scale": 2.0},
-    "analysis": {"mode": "transient", "scheme": "bdf2-imex", "time_step": 0.01, "end_time": 0.3,
-                 "output_interval": 0.1},
+    "analysis": {
+        "mode": "transient",
+        "scheme": "bdf2-imex",
+        "time_step": 0.01,
+        "end_time": 0.3,
+        "output_interval": 0.1,
+    },
 }
 
 
@@ -57,9 +70,27 @@ def base_url(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
     port = _free_port()
     log = open(data / "serve.log", "w+")  # noqa: SIM115 - closed below
     env = {k: v for k, v in os.environ.items() if not k.startswith("WAKEYARD_")}
-    proc = subprocess.Popen([sys.executable, "-m", "cli", "serve", "--host", "127.0.0.1", "--port", str(port),
-                             "--data", str(data), "--workers", "1"],
-                            cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT, start_new_session=True)
+    proc = subprocess.Popen(
+        [
+            sys.executable,
+            "-m",
+            "cli",
+            "serve",
+            "--host",
+            "127.0.0.1",
+            "--port",
+            str(port),
+            "--data",
+            str(data),
+            "--workers",
+            "1",
+        ],
+        cwd=ROOT,
+        env=env,
+        stdout=log,
+        stderr=subprocess.STDOUT,
+        start_new_session=True,
+    )
     url = f"http://127.0.0.1:{port}"
     try:
         deadline = time.monotonic() + 60
@@ -151,7 +182,11 @@ def pair(api: httpx.Client) -> list[str]:
     """Two small jobs queued at once (not awaited here), differing in viscosity: for compare, and to fill the queue."""
     specs = []
     for i, nu in enumerate((0.001, 0.0015)):
-        spec = {**TINY, "title": f"Compare case {i + 1}", "fluid": {"viscosity": nu},
-                "analysis": {**TINY["analysis"], "output_interval": 0.3}}
+        spec = {
+            **TINY,
+            "title": f"Compare case {i + 1}",
+            "fluid": {"viscosity": nu},
+            "analysis": {**TINY["analysis"], "output_interval": 0.3},
+        }
         specs.append(spec)
     return [submit(api, s) for s in specs]

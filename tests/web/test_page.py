@@ -42,8 +42,10 @@ def chart_points(page, host: str, series: str) -> list[tuple[float, float]]:
     """
     svg = page.locator(f"{host} svg.chart-svg")
     d = svg.locator(f'path.series[data-series="{series}"]').get_attribute("d")
-    box = {k: float(svg.get_attribute(f"data-{k}")) for k in ("x0", "x1", "y0", "y1", "left", "top", "plot-width",
-                                                              "plot-height")}
+    box = {
+        k: float(svg.get_attribute(f"data-{k}"))
+        for k in ("x0", "x1", "y0", "y1", "left", "top", "plot-width", "plot-height")
+    }
     pts = []
     for px, py in re.findall(r"[ML](-?[\d.]+),(-?[\d.]+)", d):
         t = box["x0"] + (float(px) - box["left"]) / box["plot-width"] * (box["x1"] - box["x0"])
@@ -184,16 +186,18 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
     # a field picture loads, and the slider and field choice change it
     picture = page.locator("#field-picture")
     expect(picture).to_have_attribute("src", re.compile(r"pictures/speed_000030\.png$"))
-    page.wait_for_function("() => { const i = document.getElementById('field-picture'); "
-                           "return i.complete && i.naturalWidth > 100; }")
+    page.wait_for_function(
+        "() => { const i = document.getElementById('field-picture'); return i.complete && i.naturalWidth > 100; }"
+    )
     slider = page.locator("#snapshot")
     slider.focus()
     page.keyboard.press("Home")
     expect(picture).to_have_attribute("src", re.compile(r"pictures/speed_000000\.png$"))
     page.locator("#field-vorticity").check()
     expect(picture).to_have_attribute("src", re.compile(r"pictures/vorticity_000000\.png$"))
-    page.wait_for_function("() => { const i = document.getElementById('field-picture'); "
-                           "return i.complete && i.naturalWidth > 100; }")
+    page.wait_for_function(
+        "() => { const i = document.getElementById('field-picture'); return i.complete && i.naturalWidth > 100; }"
+    )
     expect(page.locator("#picture-caption")).to_contain_text("snapshot 1 of 4")
     # download links point at the service's files
     csv_link = page.get_by_role("link", name="Force history (CSV)")
@@ -232,8 +236,11 @@ def test_bad_values_show_their_errors_beside_the_fields(page, api) -> None:
 
 
 def test_cancel_running_and_queued_jobs(page, api) -> None:
-    long_case = {**TINY, "title": "Long run to cancel", "analysis": {**TINY["analysis"], "end_time": 1000.0,
-                                                                      "output_interval": 100.0}}
+    long_case = {
+        **TINY,
+        "title": "Long run to cancel",
+        "analysis": {**TINY["analysis"], "end_time": 1000.0, "output_interval": 100.0},
+    }
     running = submit(api, long_case)
     waiting = submit(api, {**long_case, "title": "Queued run to cancel"})
     wait_state(api, running, {"running"}, timeout=90)
@@ -325,10 +332,14 @@ def test_json_spec_round_trip_and_upload(page, base_url, tmp_path) -> None:
     page.get_by_role("button", name="Apply JSON to form").click()
     expect(page.locator("#json-error")).to_contain_text("Not valid JSON")
     # upload a file: a bridge pier with two probes
-    pier = {"title": "Pier upload", "channel": {"length": 16.0, "height": 6.0, "walls": "slip"},
-            "bodies": [{"name": "pier", "shape": "rectangle", "center": [4.0, 3.0], "width": 1.6, "height": 0.8}],
-            "fluid": {"reynolds": 40}, "inflow": {"profile": "uniform", "mean_velocity": 0.5},
-            "probes": {"pressure_drop": [[2.5, 3.0], [6.0, 3.0]]}}
+    pier = {
+        "title": "Pier upload",
+        "channel": {"length": 16.0, "height": 6.0, "walls": "slip"},
+        "bodies": [{"name": "pier", "shape": "rectangle", "center": [4.0, 3.0], "width": 1.6, "height": 0.8}],
+        "fluid": {"reynolds": 40},
+        "inflow": {"profile": "uniform", "mean_velocity": 0.5},
+        "probes": {"pressure_drop": [[2.5, 3.0], [6.0, 3.0]]},
+    }
     path = tmp_path / "pier.json"
     path.write_text(json.dumps(pier))
     page.locator("#spec-upload").set_input_files(str(path))
@@ -376,8 +387,11 @@ def test_phone_width_has_no_sideways_scrolling(browser, base_url, api, pair) -> 
     context = browser.new_context(base_url=base_url, viewport={"width": 390, "height": 844}, is_mobile=True)
     page = context.new_page()
     try:
-        for name, view, ready in (("new", "#/new", ".case-svg g.body"), ("queue", "#/queue", "table.jobs tbody tr"),
-                                  ("job", f"#/jobs/{pair[0]}", "#force-chart path.series")):
+        for name, view, ready in (
+            ("new", "#/new", ".case-svg g.body"),
+            ("queue", "#/queue", "table.jobs tbody tr"),
+            ("job", f"#/jobs/{pair[0]}", "#force-chart path.series"),
+        ):
             page.goto(f"/{view}")
             expect(page.locator(ready).first).to_be_visible()
             overflow = page.evaluate("document.documentElement.scrollWidth - window.innerWidth")
@@ -400,11 +414,23 @@ def test_wrong_token_is_reported_and_can_be_forgotten(page) -> None:
 
 def test_a_thousand_jobs_are_paged(page) -> None:
     """The page asks for one page at a time and follows the cursor; 1,000 jobs never become 1,000 rows."""
-    jobs = [{"id": f"{i:032x}", "state": ["queued", "running", "succeeded", "failed", "cancelled"][i % 5],
-             "owner": f"user{i % 7}", "title": f"Sweep case {i}", "tags": [], "spec": {},
-             "progress": {"fraction": 0.5, "step": 5, "time": 0.1, "eta_seconds": 30},
-             "created_at": "2026-01-01T00:00:00+00:00", "started_at": None, "finished_at": None,
-             "summary": None, "error": None} for i in range(1000, 0, -1)]
+    jobs = [
+        {
+            "id": f"{i:032x}",
+            "state": ["queued", "running", "succeeded", "failed", "cancelled"][i % 5],
+            "owner": f"user{i % 7}",
+            "title": f"Sweep case {i}",
+            "tags": [],
+            "spec": {},
+            "progress": {"fraction": 0.5, "step": 5, "time": 0.1, "eta_seconds": 30},
+            "created_at": "2026-01-01T00:00:00+00:00",
+            "started_at": None,
+            "finished_at": None,
+            "summary": None,
+            "error": None,
+        }
+        for i in range(1000, 0, -1)
+    ]
     asked: list[str] = []
 
     def fulfil(route) -> None:
@@ -414,7 +440,7 @@ def test_a_thousand_jobs_are_paged(page) -> None:
         asked.append(route.request.url)
         limit = int(q.get("limit", ["50"])[0])
         start = int(q.get("cursor", ["0"])[0])
-        page_jobs = jobs[start:start + limit]
+        page_jobs = jobs[start : start + limit]
         nxt = str(start + limit) if start + limit < len(jobs) else None
         route.fulfill(json={"jobs": page_jobs, "next_cursor": nxt})
 
@@ -487,12 +513,17 @@ def test_long_force_history_is_thinned_but_keeps_its_extremes(page) -> None:
 
 def test_study_view_shows_points_plot_and_links(page, api) -> None:
     # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a shortened channel
-    base = {"title": "Pier sweep (web test)", "channel": {"length": 1.0, "height": 0.41},
-            "bodies": [{"name": "pier", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-            "fluid": {"density": 1.0, "viscosity": 1e-3},
-            "mesh": {"preset": "coarse", "scale": 2.0}}
-    r = api.post("/studies", json={"kind": "sweep", "base": base,
-                                   "vary": [{"path": "inflow.peak_velocity", "values": [0.2, 0.3, 0.45]}]})
+    base = {
+        "title": "Pier sweep (web test)",
+        "channel": {"length": 1.0, "height": 0.41},
+        "bodies": [{"name": "pier", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
+        "fluid": {"density": 1.0, "viscosity": 1e-3},
+        "mesh": {"preset": "coarse", "scale": 2.0},
+    }
+    r = api.post(
+        "/studies",
+        json={"kind": "sweep", "base": base, "vary": [{"path": "inflow.peak_velocity", "values": [0.2, 0.3, 0.45]}]},
+    )
     assert r.status_code == 202, r.text
     study = r.json()
     page.goto(f"/#/studies/{study['id']}")
@@ -519,8 +550,11 @@ def test_placeholders_drawing_and_footer_follow_the_service(page) -> None:
     # the page's copy of the spec defaults (placeholders, drawing fallbacks) is the solver's
     defaults = page.evaluate("import('/defaults.js').then((m) => m.DEFAULTS)")
     spec = JobSpec()
-    assert defaults["channel"] == {"length": spec.channel.length, "height": spec.channel.height,
-                                   "walls": spec.channel.walls}
+    assert defaults["channel"] == {
+        "length": spec.channel.length,
+        "height": spec.channel.height,
+        "walls": spec.channel.walls,
+    }
     assert defaults["fluid"] == {"density": spec.fluid.density, "viscosity": spec.viscosity()}
     assert defaults["inflow"] == {"peak_velocity": spec.inflow.peak()}
     assert defaults["analysis"] == {"newton_tolerance": spec.analysis.newton_tolerance}
