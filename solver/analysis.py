@@ -1,4 +1,8 @@
-"""Statistics of force histories: whole-cycle windows, Strouhal number, periodicity."""
+"""Statistics of force histories: whole-cycle windows, Strouhal number, periodicity.
+
+The samples may be unevenly spaced (error-controlled time steps): means are time averages (trapezoidal rule),
+so a stretch of short steps does not weigh more than a stretch of long ones.
+"""
 
 from __future__ import annotations
 
@@ -42,18 +46,31 @@ def find_cycles(t: np.ndarray, signal: np.ndarray, min_relative_amplitude: float
     swing = float(np.ptp(s))
     if swing < max(min_relative_amplitude * float(np.abs(s).max()), 1e-8):
         return Cycles(np.array([]))
-    return Cycles(up_crossings(t[tail], s, float(s.mean())))
+    return Cycles(up_crossings(t[tail], s, time_mean(t[tail], s)))
 
 
-def window_stats(values: np.ndarray) -> dict[str, float]:
-    """Mean, extremes, half the peak-to-peak swing and the RMS of the fluctuation."""
-    mean = float(values.mean())
+def time_mean(t: np.ndarray, values: np.ndarray) -> float:
+    """Average over time of samples at times ``t`` (trapezoidal rule); the plain mean for a single sample.
+
+    Examples
+    --------
+    >>> time_mean(np.array([0.0, 1.0, 1.1, 1.2, 2.0]), np.array([0.0, 1.0, 1.0, 1.0, 1.0]))
+    0.75
+    """
+    if len(t) < 2 or t[-1] <= t[0]:
+        return float(np.mean(values))
+    return float(np.trapezoid(values, t) / (t[-1] - t[0]))
+
+
+def window_stats(t: np.ndarray, values: np.ndarray) -> dict[str, float]:
+    """Time mean, extremes, half the peak-to-peak swing and the RMS of the fluctuation."""
+    mean = time_mean(t, values)
     return {
         "mean": mean,
         "min": float(values.min()),
         "max": float(values.max()),
         "amplitude": float(0.5 * np.ptp(values)),
-        "rms": float(np.sqrt(np.mean((values - mean) ** 2))),
+        "rms": float(np.sqrt(max(time_mean(t, (values - mean) ** 2), 0.0))),
     }
 
 
@@ -77,8 +94,9 @@ def is_periodic(t: np.ndarray, signal: np.ndarray, cycles: int, tolerance: float
     periods = np.diff(starts)
     means, amps = [], []
     for a, b in zip(starts[:-1], starts[1:]):
-        part = signal[(t >= a) & (t <= b)]
-        means.append(part.mean())
+        inside = (t >= a) & (t <= b)
+        part = signal[inside]
+        means.append(time_mean(t[inside], part))
         amps.append(0.5 * np.ptp(part))
     amp = max(float(np.mean(amps)), 1e-30)
     return bool(

@@ -107,6 +107,10 @@ class RepeatedSolver:
             self.pardiso.set_phase(11)
             self.pardiso._call_pardiso(M, np.zeros((M.shape[0], 1)))
             self.pattern = (M.indptr.copy(), M.indices.copy())
+            # the analysis filled in PARDISO's defaults, among them up to two steps of iterative refinement
+            # per solve, each a product with the matrix in PARDISO's slow sequential path: without them a
+            # solve is several times faster, and every caller checks or corrects its residual itself
+            self.pardiso.iparm[7] = 0
         self.pardiso.set_phase(22)
         self.pardiso._call_pardiso(M, np.zeros((M.shape[0], 1)))
         self.matrix = M

@@ -14,23 +14,27 @@ from typing import Any
 import numpy as np
 
 from . import analysis, output, pictures
+from .adaptive import AdaptiveBDF2, Scales
 from .case import Case
 from .caution import CAUTION
 from .errors import Cancelled, Diverged, InternalError, RunFailed, WallTimeExceeded
 from .recirculation import recirculation_length
-from .spec import JobSpec, load
+from .spec import ADAPTIVE, JobSpec, load
 from .stages import failed_stage
 from .steady import solve_steady
 from .transient import Stepper
 from .units import summary_units
 
 MAX_PICTURES = 12
+FIRST_STEP = 1e-3  # the adaptive scheme's first step, in convective times L/U, when none is given
 
 log = logging.getLogger(__name__)
 
 
 @dataclass
 class Progress:
+    """How far a run is: simulated time of a transient run (its steps vary), Newton iterations of a steady one."""
+
     step: int
     total_steps: int
     time: float
@@ -39,6 +43,8 @@ class Progress:
 
     @property
     def fraction(self) -> float:
+        if self.end_time:
+            return min(self.time / self.end_time, 1.0)
         return min(self.step / self.total_steps, 1.0) if self.total_steps else 0.0
 
 
@@ -214,11 +220,8 @@ class _Transient:
         self.case, self.out, self.progress, self.should_stop = case, out, progress, should_stop
         self.deadline, self.resume = deadline, resume
         a = case.spec.analysis
-        self.dt = a.time_step
-        self.total = int(math.ceil(a.end_time / a.time_step - 1e-9))
-        interval = a.output_interval or a.end_time / 20
-        self.output_every = max(1, int(round(interval / self.dt)))
-        self.columns = case.columns()
+        self.output_interval = a.output_interval or a.end_time / 20
+        self.columns = [*case.columns(), "time_step"]
         self.rows: list[list[float]] = []
         self.snapshots: list[int] = []
         self.fingerprint = hashlib.sha256(case.spec.model_dump_json().encode()).hexdigest()
@@ -235,39 +238,45 @@ class _Transient:
         ended_by = "end_time"
         last_report = 0.0
         max_cfl = 0.0
+        end = a.end_time * (1 - 1e-12)
         try:
-            while stepper.n < self.total:
+            while stepper.t < end:
                 if self.should_stop and self.should_stop():
                     raise Cancelled(f"cancelled at t = {stepper.t:.6g} s (step {stepper.n})")
                 if time.perf_counter() > self.deadline:
                     raise WallTimeExceeded(f"wall-time limit reached at t = {stepper.t:.6g} s (step {stepper.n})")
-                result = stepper.step()
-                row = case.force_row(stepper.t, result.x, result.convection, result.dudt)
+                healthy = (stepper.x, stepper.t, stepper.n)
+                t_before = stepper.t
+                result = stepper.step(a.end_time)
+                dt = stepper.t - t_before
+                row = [*case.force_row(stepper.t, result.x, result.convection, result.dudt), dt]
                 if not np.all(np.isfinite(row)) or not np.isfinite(result.x).all() or self._blown_up(result.x):
-                    self._diverged(stepper)
+                    self._diverged(stepper, *healthy)
                 self.rows.append(row)
-                if stepper.n % self.output_every == 0 or stepper.n == self.total:
+                max_cfl = max(max_cfl, case.cfl(result.x, dt))
+                if stepper.t >= end or int(stepper.t / self.output_interval) > int(t_before / self.output_interval):
                     snaps.save(stepper.n, stepper.t, result.x)
                     self.snapshots.append(stepper.n)
-                    max_cfl = max(max_cfl, case.cfl(result.x, self.dt))
                 if stepper.n % a.checkpoint_interval == 0:
                     self._checkpoint(stepper)
                 if a.until_periodic and stepper.n % 20 == 0 and self._periodic():
                     ended_by = "periodic"
-                    snaps.save(stepper.n, stepper.t, result.x)
-                    self.snapshots.append(stepper.n)
+                    if self.snapshots[-1] != stepper.n:
+                        snaps.save(stepper.n, stepper.t, result.x)
+                        self.snapshots.append(stepper.n)
                     break
                 now = time.perf_counter()
                 if self.progress and now - last_report > 0.5:
                     last_report = now
-                    self.progress(Progress(stepper.n, self.total, stepper.t, a.end_time))
+                    self.progress(Progress(stepper.n, 0, stepper.t, a.end_time))
         finally:
             if self.rows:
                 output.write_forces(self.out / "forces.csv", self.columns, self.rows)
         solve = time.perf_counter() - t_solve
         t_out = time.perf_counter()
         data = np.array(self.rows)
-        pictures.force_plot(self.out / "forces.png", self.columns, data, [b.name for b in case.spec.bodies])
+        names = [b.name for b in case.spec.bodies]
+        pictures.force_plot(self.out / "forces.png", self.columns[:-1], data[:, :-1], names)
         _pictures(case, self.out, self.snapshots)
         summary = _common_summary(case)
         whole = a.until_periodic.cycles if ended_by == "periodic" else 5  # the cycles found to repeat
@@ -276,12 +285,12 @@ class _Transient:
             {
                 "ended_by": ended_by,
                 "steps": stepper.n,
-                "time_step": self.dt,
                 "scheme": a.scheme,
+                "accuracy": a.accuracy if a.scheme == ADAPTIVE else None,
+                "time_steps": stepper.stats.summary(),
                 "simulated_time": stepper.t,
                 "max_cfl": max_cfl,
                 "resumed_from_step": self.resumed_from_step,
-                "factorisations": stepper.factorisations,
             }
         )
         summary["timings"].update(
@@ -290,32 +299,41 @@ class _Transient:
         (self.out / "checkpoint.npz").unlink(missing_ok=True)
         return summary
 
-    def _start(self) -> Stepper:
+    def _new_stepper(self) -> Stepper | AdaptiveBDF2:
         case, a = self.case, self.case.spec.analysis
+        x0 = case.ns.stokes(0.0)
+        if a.scheme == ADAPTIVE:
+            U = case.spec.reference_velocity()
+            scales = Scales(U, case.spec.reference_length() / U, float(case.th.mass.sum()))
+            first = a.time_step or FIRST_STEP * scales.time
+            breakpoints = case.spec.inflow.breakpoints()
+            return AdaptiveBDF2(case.ns, x0, a.accuracy, scales, first_step=first, breakpoints=breakpoints)
+        return Stepper(case.ns, a.scheme, a.time_step, x0, cfl=case.cfl)
+
+    def _start(self) -> Stepper | AdaptiveBDF2:
+        stepper = self._new_stepper()
         path = self.out / "checkpoint.npz"
         if self.resume and path.exists():
-            ck = np.load(path, allow_pickle=False)
-            if str(ck["fingerprint"]) == self.fingerprint:
-                self.rows = ck["rows"].tolist()
-                self.snapshots = ck["snapshots"].tolist()
-                self.resumed_from_step = int(ck["step"])
-                return Stepper(case.ns, a.scheme, self.dt, ck["x"], float(ck["t"]), ck["x_old"], int(ck["step"]))
-        return Stepper(case.ns, a.scheme, self.dt, case.ns.stokes(0.0))
+            with np.load(path, allow_pickle=False) as ck:
+                if str(ck["fingerprint"]) == self.fingerprint:
+                    self.rows = ck["rows"].tolist()
+                    self.snapshots = ck["snapshots"].tolist()
+                    stepper.restore({k: ck[k] for k in ck.files})
+                    self.resumed_from_step = stepper.n
+        return stepper
 
-    def _checkpoint(self, stepper: Stepper) -> None:
+    def _checkpoint(self, stepper: Stepper | AdaptiveBDF2) -> None:
         tmp = self.out / ".checkpoint.npz"
         with open(tmp, "wb") as f:
             np.savez(
                 f,
-                x=stepper.x,
-                x_old=stepper.x_old,
-                t=stepper.t,
-                step=stepper.n,
+                **stepper.state(),
                 rows=np.array(self.rows),
                 snapshots=np.array(self.snapshots, dtype=int),
                 fingerprint=self.fingerprint,
             )
         tmp.replace(self.out / "checkpoint.npz")
+        stepper.renew_factorisation()
         output.write_forces(self.out / "forces.csv", self.columns, self.rows)
 
     def _blown_up(self, x: np.ndarray) -> bool:
@@ -323,13 +341,20 @@ class _Transient:
         limit = 100 * max(self.case.spec.inflow.peak() * self.case.spec.inflow.time_law.nominal(), 1e-12)
         return bool(np.abs(ux).max() > limit or np.abs(uy).max() > limit)
 
-    def _diverged(self, stepper: Stepper) -> None:
-        cfl = self.case.cfl(stepper.x_old, self.dt)
-        suggestion = self.dt * min(0.5, 0.4 / cfl) if cfl > 0 else self.dt / 2
+    def _diverged(self, stepper: Stepper | AdaptiveBDF2, x: np.ndarray, t: float, n: int) -> None:
+        """Fail with advice computed from the last healthy state (``x`` at ``t``), not from the blown-up one."""
+        a = self.case.spec.analysis
+        dt = a.time_step or stepper.stats.summary()["mean"] or 0.0
+        cfl = self.case.cfl(x, dt)
+        advice = (
+            f"try analysis.time_step = {dt * min(0.5, 0.4 / cfl):.3g} (CFL 0.4 at the last healthy state) "
+            f"or the default scheme {ADAPTIVE}, which controls its step itself"
+            if a.scheme != ADAPTIVE and cfl > 0
+            else "try a smaller analysis.accuracy or a finer mesh"
+        )
         raise Diverged(
-            f"the solution blew up at t = {stepper.t:.6g} s (step {stepper.n}) with scheme "
-            f"{stepper.scheme}; CFL number before the blow-up about {cfl:.2f}; "
-            f"try analysis.time_step = {suggestion:.3g} or the bdf2-implicit scheme"
+            f"the solution blew up after t = {t:.6g} s (step {n}) with scheme {a.scheme}; "
+            f"CFL number of the last healthy state about {cfl:.2f}; {advice}"
         )
 
     def _periodic(self) -> bool:
@@ -351,8 +376,8 @@ class _Transient:
             bodies.append(
                 {
                     "name": b.name,
-                    "drag_coefficient": analysis.window_stats(data[window, 3 + 4 * i]),
-                    "lift_coefficient": analysis.window_stats(data[window, 4 + 4 * i]),
+                    "drag_coefficient": analysis.window_stats(t[window], data[window, 3 + 4 * i]),
+                    "lift_coefficient": analysis.window_stats(t[window], data[window, 4 + 4 * i]),
                     "strouhal_number": st["strouhal_number"],
                 }
             )
@@ -362,7 +387,7 @@ class _Transient:
             else {"strouhal_number": None}
         )
         nb = 1 + 4 * len(spec.bodies)
-        pdrop = analysis.window_stats(data[window, nb]) if self.case.pressure_probes is not None else None
+        pdrop = analysis.window_stats(t[window], data[window, nb]) if self.case.pressure_probes is not None else None
         return {
             "bodies": bodies,
             "strouhal_number": shedding["strouhal_number"],

@@ -133,6 +133,13 @@ class Inflow(_Model):
     def mean(self) -> float:
         return self.peak() * (2 / 3 if self.profile == "parabolic" else 1.0)
 
+    def breakpoints(self) -> list[float]:
+        """Times where the factor's time derivatives jump (the ramp's end, the table's points after the first)."""
+        times = [self.ramp_time] if self.ramp_time > 0 else []
+        if self.time_law.kind == "table":
+            times += [t for t, _ in self.time_law.points[1:]]  # type: ignore[index]
+        return sorted(t for t in set(times) if t > 0)
+
     def factor(self, t: float) -> float:
         """Time factor: smooth ramp from rest times the time law."""
         ramp = 1.0
@@ -161,10 +168,25 @@ class UntilPeriodic(_Model):
     tolerance: float = Field(0.01, gt=0, le=0.5)
 
 
+ADAPTIVE = "bdf2-adaptive"
+
+
 class Analysis(_Model):
     mode: Literal["steady", "transient"] = "steady"
-    scheme: Literal["euler-imex", "bdf2-imex", "bdf2-implicit"] = "bdf2-imex"
-    time_step: float = Field(1e-3, gt=0, le=1e6)
+    scheme: Literal["bdf2-adaptive", "euler-imex", "bdf2-imex", "bdf2-implicit"] = Field(
+        ADAPTIVE,
+        description="bdf2-adaptive picks its own steps for the accuracy asked; the others keep time_step fixed",
+    )
+    time_step: float | None = Field(
+        None, gt=0, le=1e6, description="seconds; the fixed schemes need it, bdf2-adaptive takes it as its first step"
+    )
+    accuracy: float = Field(
+        1e-3,
+        ge=1e-6,
+        le=0.1,
+        description="bdf2-adaptive: allowed velocity error per step, relative to the reference velocity, "
+        "per convective time (reference length / reference velocity)",
+    )
     end_time: float = Field(1.0, gt=0, le=1e9)
     output_interval: float | None = Field(None, gt=0, le=1e9, description="simulated time between field snapshots")
     checkpoint_interval: int = Field(200, ge=1, le=10**9, description="steps between checkpoints")
@@ -270,7 +292,9 @@ def _check_geometry(spec: JobSpec) -> list[tuple[str, str]]:
             if _polygons.contains(pts, point)[0] and _polygons.distance(pts, point)[0] > 1e-6 * H:
                 problems.append((where, f"point ({x:g}, {y:g}) lies inside body {body.name}"))
     a = spec.analysis
-    if a.mode == "transient" and a.end_time < a.time_step:
+    if a.mode == "transient" and a.scheme != ADAPTIVE and a.time_step is None:
+        problems.append(("analysis.time_step", f"the fixed-step scheme {a.scheme} needs a time step (seconds)"))
+    if a.mode == "transient" and a.time_step is not None and a.end_time < a.time_step:
         problems.append(("analysis.end_time", f"end time {a.end_time:g} is shorter than one time step {a.time_step:g}"))
     if spec.fluid.reynolds is not None and not spec.bodies and spec.fluid.reference.length is None:
         problems.append(("fluid.reference.length", "a Reynolds number without bodies needs a reference length"))

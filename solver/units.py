@@ -39,10 +39,16 @@ _SUMMARY = {
     "window.end": "s",
     "window.whole_cycles": "1",
     "steps": "1",
-    "time_step": "s",
+    "accuracy": "1",
+    "time_steps.accepted": "1",
+    "time_steps.rejected": "1",
+    "time_steps.smallest": "s",
+    "time_steps.largest": "s",
+    "time_steps.mean": "s",
+    "time_steps.factorisations": "1",
+    "time_steps.solves_per_step": "1",
     "simulated_time": "s",
     "max_cfl": "1",
-    "factorisations": "1",
 }
 
 _SPEC = {
@@ -79,6 +85,7 @@ _SPEC = {
     "mesh.scale": "1",
     "mesh.refinements": "1",
     "analysis.time_step": "s",
+    "analysis.accuracy": "1",
     "analysis.end_time": "s",
     "analysis.output_interval": "s",
     "analysis.checkpoint_interval": "1",

@@ -157,7 +157,7 @@ def test_each_shape_steps_in_time(tmp_path, name):
     """The sharp rectangle steps in time in the time-law test below, the spinning circle here in "several"."""
     summary = run(case(SHAPES[name], analysis=SHORT), tmp_path)
     columns, data = read_forces(tmp_path / "forces.csv")
-    assert data.shape == (4, 1 + 4 * len(SHAPES[name])) and np.isfinite(data).all()
+    assert data.shape == (4, 2 + 4 * len(SHAPES[name])) and np.isfinite(data).all()  # with the time_step column
     assert summary["steps"] == 4 and summary["ended_by"] == "end_time"
     for body in summary["bodies"]:
         assert body["drag_coefficient"]["max"] > 0
