@@ -14,7 +14,7 @@ export const EXAMPLES = {
       fluid: {density: 998.2, viscosity: 1.004e-6},
       inflow: {profile: "parabolic", peak_velocity: 0.0015, ramp_time: 8},
       mesh: {preset: "coarse", scale: 2.0},
-      analysis: {mode: "transient", scheme: "bdf2-imex", time_step: 0.4, end_time: 40, output_interval: 4},
+      analysis: {mode: "transient", end_time: 40, output_interval: 4},
     },
   },
   pier: {
@@ -54,7 +54,7 @@ export const EXAMPLES = {
       fluid: {density: 1.204, viscosity: 1.516e-5},
       inflow: {profile: "parabolic", mean_velocity: 0.15, ramp_time: 0.067},
       mesh: {preset: "coarse"},
-      analysis: {mode: "transient", scheme: "bdf2-imex", time_step: 0.00067, end_time: 0.54, output_interval: 0.027},
+      analysis: {mode: "transient", end_time: 0.54, output_interval: 0.027},
     },
   },
 };

@@ -4,7 +4,7 @@
 
 import {ApiError, api} from "./api.js";
 import {CaseDrawing, translateBody} from "./drawing.js";
-import {DEFAULTS} from "./defaults.js";
+import {ADAPTIVE, DEFAULTS} from "./defaults.js";
 import {EXAMPLES, newBody} from "./examples.js";
 import {blockage, channelOf, cost, geometryWarnings, nominalVelocity, referenceLength, reynolds} from "./geometry.js";
 import {duration, fill, getPath, h, integer, num, prune, setPath, toast} from "./util.js";
@@ -122,6 +122,7 @@ export class CaseForm {
     const sp = this.spec;
     const ch = channelOf(sp);
     const transient = (sp.analysis?.mode ?? "steady") === "transient";
+    const adaptive = (sp.analysis?.scheme ?? ADAPTIVE) === ADAPTIVE;
     const byReynolds = isNum(sp.fluid?.reynolds) || (sp.fluid?.reynolds !== undefined && sp.fluid?.viscosity === undefined);
     const byMean = sp.inflow?.mean_velocity !== undefined && sp.inflow?.peak_velocity === undefined;
     const lawKind = sp.inflow?.time_law?.kind ?? "constant";
@@ -194,10 +195,14 @@ export class CaseForm {
         radioGroup("analysis-mode", "Kind of run", [["steady", "Steady (one flow state)"], ["transient", "Transient (in time)"]],
           transient ? "transient" : "steady", (v) => this.set("analysis.mode", v, true)),
         transient ? [
-          selectField("analysis.scheme", "Time scheme", sp, [["bdf2-imex", "BDF2, explicit convection (fast)"],
-            ["euler-imex", "Euler, explicit convection"], ["bdf2-implicit", "BDF2, implicit (larger steps)"]], "bdf2-imex"),
+          selectField("analysis.scheme", "Time stepping", sp, [[ADAPTIVE, "Error-controlled steps (BDF2, recommended)"],
+            ["bdf2-imex", "Fixed steps: BDF2, explicit convection"], ["euler-imex", "Fixed steps: Euler, explicit convection"],
+            ["bdf2-implicit", "Fixed steps: BDF2, implicit"]], ADAPTIVE, {rerender: true}),
           h("div", {class: "row"},
-            numberField("analysis.time_step", "Time step Δt", sp, {unit: "s", placeholder: "0.001"}),
+            adaptive
+              ? numberField("analysis.accuracy", "Accuracy", sp, {placeholder: String(DEFAULTS.analysis.accuracy),
+                hint: "Allowed velocity error per step, relative to the flow speed, per convective time (length / speed). The solver picks its steps to meet it."})
+              : numberField("analysis.time_step", "Time step Δt", sp, {unit: "s", placeholder: "0.001"}),
             numberField("analysis.end_time", "End time", sp, {unit: "s", placeholder: "1"})),
           h("div", {class: "row"},
             numberField("analysis.output_interval", "Picture every", sp, {unit: "s",
@@ -406,14 +411,16 @@ export class CaseForm {
       ["Mesh, roughly", `${integer(c.cells)} cells`, `${integer(c.dofs)} unknowns`],
     ];
     if (c.transient) {
-      items.push(["Time steps", integer(c.steps), c.steps ? `${num(spec.analysis?.end_time ?? 1)} s in steps of ${num(spec.analysis?.time_step ?? 1e-3)} s` : ""]);
+      items.push(c.steps
+        ? ["Time steps", integer(c.steps), `${num(spec.analysis?.end_time ?? 1)} s in steps of ${num(spec.analysis?.time_step)} s`]
+        : ["Time steps", "chosen while it runs", "by the error control, for the accuracy asked"]);
       const peak = nominalVelocity(spec) * ((spec.inflow?.profile ?? "parabolic") === "parabolic" ? 1.5 : 1);
       const hBody = estimateBodyCell(spec);
       if (isNum(hBody) && hBody > 0 && c.steps && isNum(peak)) {
         const cfl = (peak * (spec.analysis?.time_step ?? 1e-3)) / hBody;
         items.push(["CFL near the bodies", `≈ ${num(cfl, 2)}`, "peak speed × Δt / cell size"]);
-        if (cfl > 1 && (spec.analysis?.scheme ?? "bdf2-imex") !== "bdf2-implicit") {
-          warnings.push({message: "The CFL number is above 1 with explicit convection: the run may blow up. Use a smaller time step or the implicit scheme."});
+        if (cfl > 1 && spec.analysis?.scheme !== "bdf2-implicit") {
+          warnings.push({message: "The CFL number is above 1 with explicit convection: the solver will split the steps. Use a smaller time step or error-controlled steps."});
         }
       }
     }

@@ -202,7 +202,8 @@ export function cost(spec) {
   const a = spec.analysis ?? {};
   const transient = (a.mode ?? "steady") === "transient";
   const end = a.end_time ?? 1;
-  const dt = a.time_step ?? 1e-3;
+  // error-controlled steps are only known as the run goes; fixed ones are end / dt
+  const dt = (a.scheme ?? "bdf2-adaptive") === "bdf2-adaptive" ? null : a.time_step;
   const steps = transient && finite(end) && finite(dt) && end > 0 && dt > 0 ? Math.ceil(end / dt - 1e-9) : null;
   const ok = Number.isFinite(cells) && cells > 0;
   return {cells: ok ? Math.round(cells) : null, dofs: ok ? dofs : null, steps, transient};

@@ -150,6 +150,7 @@ export class JobView {
       ["forces", "Forces Fx, Fy (N per metre of span)", (c) => c.quantity === "fx" || c.quantity === "fy"],
       ["pressure", "Pressure drop Δp (Pa)", (c) => c.key === "pressure_drop"],
       ["probes", "Probe velocities (m/s)", (c) => c.quantity === "ux" || c.quantity === "uy"],
+      ["steps", "Time step Δt (s)", (c) => c.key === "time_step"],
     ].filter(([, , pick]) => forces.columns.some(pick));
     const host = h("div", {class: "chart-host", id: "force-chart"});
     const choose = h("select", {id: "force-quantity"}, groups.map(([key, label]) => h("option", {value: key}, label)));

@@ -49,6 +49,11 @@ export function summaryRows(job) {
   rows.push(["Unknowns (DoFs)", integer(s.mesh?.dofs)]);
   if (transient) {
     if (s.steps !== undefined) rows.push(["Time steps", integer(s.steps)]);
+    const ts = s.time_steps;
+    if (ts?.accepted) {
+      rows.push(["Step size Δt (s)", `${num(ts.smallest, 3)} to ${num(ts.largest, 3)}, mean ${num(ts.mean, 3)}`]);
+      if (ts.rejected) rows.push(["Steps retried smaller", integer(ts.rejected)]);
+    }
     if (s.simulated_time !== undefined) rows.push(["Simulated time (s)", num(s.simulated_time, 5)]);
     if (s.max_cfl !== undefined) rows.push(["Largest CFL number", num(s.max_cfl, 3)]);
     if (s.ended_by) rows.push(["Stopped because", s.ended_by === "periodic" ? "the lift became periodic" : s.ended_by === "end_time" ? "end time reached" : s.ended_by]);
@@ -82,7 +87,7 @@ export function forceColumns(text) {
     const m = /^(.*)_(cd|cl|fx|fy|ux|uy)$/.exec(name);
     const owner = m ? m[1] : "";
     const quantity = m ? m[2] : name;
-    const label = m ? `${owner} ${QUANTITY[quantity]}` : name === "pressure_drop" ? "Δp (Pa)" : name;
+    const label = m ? `${owner} ${QUANTITY[quantity]}` : {pressure_drop: "Δp (Pa)", time_step: "Δt (s)"}[name] ?? name;
     return {key: name, owner, quantity, label, values: rows.map((r) => r[j + 1])};
   });
   return {time: t, columns: out, rows};

@@ -29,6 +29,10 @@ def fields(response: Any) -> list[str]:
         ({**TINY, "channel": {"length": "long", "height": 0.41}}, "channel.length"),
         ({**TINY, "colour": "blue"}, "colour"),
         ({**TINY, "analysis": {**TINY["analysis"], "time_step": 1e-6, "end_time": 100.0}}, "analysis.time_step"),
+        ({**TINY, "analysis": {"mode": "transient", "accuracy": 0}}, "analysis.accuracy"),
+        ({**TINY, "analysis": {"mode": "transient", "accuracy": -0.001}}, "analysis.accuracy"),
+        ({**TINY, "analysis": {"mode": "transient", "accuracy": 5.0}}, "analysis.accuracy"),
+        ({**TINY, "analysis": {"mode": "transient", "scheme": "bdf2-imex"}}, "analysis.time_step"),
         ([1, 2, 3], "(body)"),
     ],
 )

@@ -121,6 +121,9 @@ def test_cli_exit_codes(tmp_path):
     bad.write_text(json.dumps({"bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": -0.05}]}))
     done = cli("run", str(bad), "--out", str(tmp_path / "bad"))
     assert done.returncode == 2 and "bodies.0.radius" in done.stderr
+    bad.write_text(json.dumps({**SMALL, "analysis": {"mode": "transient", "accuracy": 0.0}}))
+    done = cli("run", str(bad), "--out", str(tmp_path / "bad"))
+    assert done.returncode == 2 and "analysis.accuracy" in done.stderr
 
     diverging = tmp_path / "diverging.json"
     diverging.write_text(
