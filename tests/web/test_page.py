@@ -87,13 +87,13 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
     fill(page, "mesh.scale", 2.0)
     page.locator("#analysis-mode-transient").check()
     page.locator("#f-analysis-scheme").select_option("bdf2-imex")
-    fill(page, "analysis.time_step", 0.01)
+    fill(page, "analysis.time_step", 0.005)  # a largest CFL number of about 0.8: never split
     fill(page, "analysis.end_time", 0.3)
     fill(page, "analysis.output_interval", 0.1)
-    # live figures: Re = (2/3 * 0.3) * 0.1 / 0.001 = 20, blockage 0.1 / 0.41, 30 steps
+    # live figures: Re = (2/3 * 0.3) * 0.1 / 0.001 = 20, blockage 0.1 / 0.41, 60 steps
     expect(page.locator('dd[data-figure="Reynolds number"]')).to_contain_text("20")
     expect(page.locator('dd[data-figure="Blockage ratio"]')).to_contain_text("24.4 %")
-    expect(page.locator('dd[data-figure="Time steps"]')).to_contain_text("30")
+    expect(page.locator('dd[data-figure="Time steps"]')).to_contain_text("60")
     # the drawing is to scale: the circle spans 0.1 / 1.0 of the channel's drawn length
     bbox = "e => { const b = e.getBBox(); return {width: b.width, height: b.height}; }"
     channel = page.locator(".case-svg .fluid-area").evaluate(bbox)
@@ -103,7 +103,7 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
     # the JSON view is the spec the API receives
     spec = json.loads(page.locator("#spec-json").input_value())
     assert spec["bodies"] == [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}]
-    assert spec["analysis"] == TINY["analysis"]
+    assert spec["analysis"] == {**TINY["analysis"], "time_step": 0.005}
     shot(page, "01-case-form")
 
     page.locator("#submit-case").click()
@@ -130,8 +130,8 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
 
     # the force chart holds every data point of forces.csv
     columns, rows = read_csv(api.get(f"/jobs/{job_id}/files/forces.csv").text)
-    assert columns == ["time", "pipe_fx", "pipe_fy", "pipe_cd", "pipe_cl"]
-    assert len(rows) == 30
+    assert columns == ["time", "pipe_fx", "pipe_fy", "pipe_cd", "pipe_cl", "time_step"]
+    assert len(rows) == 60
     expect(page.locator('#force-chart path.series[data-series="pipe_cd"]')).to_have_count(1)
     dt_px, dy_px = pixel(page, "#force-chart")
     for name in ("pipe_cd", "pipe_cl"):
@@ -185,7 +185,7 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
 
     # a field picture loads, and the slider and field choice change it
     picture = page.locator("#field-picture")
-    expect(picture).to_have_attribute("src", re.compile(r"pictures/speed_000030\.png$"))
+    expect(picture).to_have_attribute("src", re.compile(r"pictures/speed_000060\.png$"))
     page.wait_for_function(
         "() => { const i = document.getElementById('field-picture'); return i.complete && i.naturalWidth > 100; }"
     )
@@ -558,7 +558,11 @@ def test_placeholders_drawing_and_footer_follow_the_service(page) -> None:
     }
     assert defaults["fluid"] == {"density": spec.fluid.density, "viscosity": spec.viscosity()}
     assert defaults["inflow"] == {"peak_velocity": spec.inflow.peak()}
-    assert defaults["analysis"] == {"newton_tolerance": spec.analysis.newton_tolerance}
+    assert defaults["analysis"] == {
+        "newton_tolerance": spec.analysis.newton_tolerance,
+        "accuracy": spec.analysis.accuracy,
+    }
+    assert page.evaluate("import('/defaults.js').then((m) => m.ADAPTIVE)") == spec.analysis.scheme
     circle = JobSpec.model_validate({"bodies": [{"shape": "circle"}]}).bodies[0]
     assert defaults["circle"] == {"center": list(circle.center), "radius": circle.radius}
     page.locator("#example").select_option("pier")
