@@ -142,7 +142,7 @@ def bench_2d2(preset: str, analysis_extra: dict, end: float = 8.0) -> None:
     st = analysis.strouhal(t, cl, 0.1, 1.0)["strouhal_number"]
     errors = [(v - r) / r for v, r in zip((cd[last].max(), cl[last].max(), st), REF_2D2)]
     print(
-        f"2D-2 {preset:6s} {summary['scheme']} {analysis_extra or '(spec defaults)'}  wall {wall:.0f}s  "
+        f"2D-2 to t = {end:g} {preset:6s} {summary['scheme']} {analysis_extra or '(spec defaults)'}  wall {wall:.0f}s  "
         f"cD,max {cd[last].max():.4f} ({errors[0]:+.1e})  cL,max {cl[last].max():.4f} ({errors[1]:+.1e})  "
         f"St {st:.4f} ({errors[2]:+.1e})"
     )

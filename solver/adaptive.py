@@ -84,7 +84,6 @@ class AdaptiveBDF2:
         th = ns.th
         zero = sp.csr_matrix((th.npr, th.npr))
         self.mass = sp.block_diag([th.mass, th.mass, zero], format="csr")
-        self.velocity_free = ns.free[ns.free < 2 * th.nu]
         self.levels = [x0.copy()]  # newest first: x_n, x_{n-1}, x_{n-2}
         self.steps: list[float] = []  # newest first: h_n, h_{n-1}
         self.t, self.n, self.h, self.first_step = t0, 0, first_step, first_step
@@ -108,8 +107,8 @@ class AdaptiveBDF2:
             h = self._clipped(self.h, stop)
             if h < SMALLEST_STEP * self.scales.time:
                 raise StepTooSmall(
-                    f"the error control needed a time step below {h:.3g} s at t = {self.t:.6g} s: "
-                    "the flow may be physically unstable at this resolution"
+                    f"the error control could not meet analysis.accuracy = {self.accuracy:g} at t = {self.t:.6g} s "
+                    f"with steps above {h:.3g} s: check the inflow's time law for jumps, or try a larger accuracy"
                 )
             attempt = self._attempt(h)
             if attempt is None:  # the linear solve failed
@@ -139,12 +138,12 @@ class AdaptiveBDF2:
         left = t_end - self.t
         if h >= left * (1 - 1e-12):
             return left
-        return min(h, 0.5 * left) if h > 0.5 * left else h
+        return 0.5 * left if h > 0.5 * left else h  # two halves rather than a sliver at the end
 
     def _attempt(self, h: float) -> tuple[StepResult, float | None] | None:
         x = self.levels[0]
         if len(self.levels) == 1:
-            a0, a1, a2, ratio = 1.0, -1.0, 0.0, 0.0
+            a0, a1, a2 = 1.0, -1.0, 0.0  # backward Euler: no older level yet
             advecting = x
         else:
             ratio = h / self.steps[0]

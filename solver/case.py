@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 import scipy.sparse as sp
@@ -107,13 +108,16 @@ class Case:
 
     def cfl(self, x: np.ndarray, dt: float) -> float:
         """Largest |u| dt / h over the cells, h the cell's shortest edge divided by the velocity degree."""
+        ux, uy, _ = self.th.split(x)
+        speed = np.hypot(ux, uy)[self.th.velocity.element_dofs].max(axis=0)
+        return float((speed * self._inverse_cell_size).max() * dt)
+
+    @cached_property
+    def _inverse_cell_size(self) -> np.ndarray:
         mesh = self.mesh.parent
         p = mesh.p[:, mesh.t]
         edges = np.linalg.norm(p - np.roll(p, 1, axis=1), axis=0).min(axis=0)
-        degree = 2 if self.spec.elements == "P2P1" else 3
-        ux, uy, _ = self.th.split(x)
-        speed = np.hypot(ux, uy)[self.th.velocity.element_dofs].max(axis=0)
-        return float((speed * dt * degree / edges).max())
+        return (2 if self.spec.elements == "P2P1" else 3) / edges
 
 
 def _outside(points: np.ndarray) -> str:
