@@ -1,7 +1,7 @@
 """Creating jobs, shared by single jobs, clones and study points: reuse an identical result or queue a run.
 
-A spec's hash is SHA-256 of its canonical JSON (the normalised spec, keys sorted) plus the solver version, so a
-result is reused only for exactly the same case computed by the same solver.
+A spec's hash is SHA-256 of its canonical JSON (the normalised spec, keys sorted) plus the fingerprint of the solver's
+code (``api.fingerprint``), so a result is reused only for exactly the same case computed by the same solver.
 """
 
 from __future__ import annotations
@@ -18,8 +18,7 @@ from typing import Any
 
 from fastapi import HTTPException, Request
 
-import solver
-
+from .fingerprint import solver_fingerprint
 from .store import Job, Provenance
 
 log = logging.getLogger(__name__)
@@ -27,7 +26,7 @@ log = logging.getLogger(__name__)
 
 def spec_hash(spec: dict[str, Any]) -> str:
     canonical = json.dumps(spec, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
-    return hashlib.sha256(f"{canonical}\nsolver {solver.__version__}".encode()).hexdigest()
+    return hashlib.sha256(f"{canonical}\nsolver {solver_fingerprint()}".encode()).hexdigest()
 
 
 @dataclass

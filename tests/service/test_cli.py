@@ -69,6 +69,7 @@ def test_open_address_needs_a_token_and_token_create_prints_one(tmp_path: Path) 
         [*WAKEYARD, "serve", "--host", "0.0.0.0", "--data", str(tmp_path)], capture_output=True, text=True, timeout=60
     )
     assert refused.returncode == 2 and "without API tokens" in refused.stderr
+    assert "\\n" not in refused.stderr and "\nCreate one first" in refused.stderr  # two lines, no literal \n
     made = subprocess.run(
         [*WAKEYARD, "token", "create", "ana", "--data", str(tmp_path)], capture_output=True, text=True, timeout=60
     )

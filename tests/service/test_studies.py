@@ -185,6 +185,22 @@ def test_mesh_convergence_reports_order_extrapolation_and_gci(offline: TestClien
     assert [r["mesh.refinements [-]"] for r in table] == ["0", "1", "2"]
 
 
+def test_convergence_of_a_zero_or_non_shrinking_value_is_null_with_a_reason(offline: TestClient) -> None:
+    """A lift of 0 on the finest mesh and a drag whose changes do not shrink once made this read a 500."""
+    created = offline.post("/api/v1/studies", json={"kind": "mesh-convergence", "base": STEADY, "levels": 3}).json()
+    store = offline.app.state.store
+    for k in range(3):
+        claimed = store.claim_next("test")
+        h2 = fluid_area(STEADY) / (1000 * 4**k)
+        pipe = {"name": "pipe", "drag_coefficient": 5.5 + 0.1 * k, "lift_coefficient": 40 * h2 - 40 * h2 * (k == 2)}
+        store.finish(claimed.id, claimed.claim, "succeeded", {"mesh": {"cells": 1000 * 4**k}, "bodies": [pipe]})
+    r = offline.get(f"/api/v1/studies/{created['id']}")
+    assert r.status_code == 200, r.text
+    cd, cl = r.json()["convergence"]["pipe.cd"], r.json()["convergence"]["pipe.cl"]
+    assert cd["observed_order"] is None and cd["gci_fine"] is None and "does not shrink" in cd["reason"]
+    assert cl["gci_fine"] is None and "finest-grid value is 0" in cl["reason"]
+
+
 def test_identical_job_reuses_the_result_unless_fresh(service: TestClient) -> None:
     spec = steady("shortened 2D-1 cylinder (reuse test)", peak_velocity=0.35)
     first = wait_for(service, service.post("/api/v1/jobs", json=spec).json()["id"], finished)
