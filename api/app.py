@@ -13,18 +13,18 @@ from fastapi.staticfiles import StaticFiles
 from sqlalchemy.exc import SQLAlchemyError
 
 import solver
+from core.broker import make_celery
+from core.disk import DiskReserve
+from core.settings import Settings
+from core.store import Store
 from solver.caution import CAUTION
 from solver.study import StudySpec
-from worker.app import make_celery  # producer side only (BLAS pinning on import is harmless here)
 
 from . import routes_files, routes_jobs, routes_ops, routes_studies
-from .disk import DiskReserve
 from .dispatch import Dispatcher
 from .limits import BodyLimit
 from .problems import SpecProblems, disk_full_handler, spec_problems_handler, validation_handler
 from .reaper import Reaper
-from .settings import Settings
-from .store import Store
 from .text_checks import RefuseNul
 
 WEB = Path(__file__).resolve().parent.parent / "web"

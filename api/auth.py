@@ -9,7 +9,7 @@ from dataclasses import dataclass
 from fastapi import HTTPException, Request
 from starlette.concurrency import run_in_threadpool
 
-from .store import Store
+from core.store import Store
 
 LOCAL_USER = "local"
 

@@ -6,7 +6,7 @@ from fastapi import HTTPException, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
 
-from .disk import disk_full
+from core.disk import disk_full
 
 
 class SpecProblems(HTTPException):

@@ -5,19 +5,20 @@ from __future__ import annotations
 import logging
 import shutil
 from datetime import datetime
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any
 
 from fastapi import APIRouter, Body, Depends, HTTPException, Query, Request
 from fastapi.responses import JSONResponse
 from sqlalchemy.engine import Row
 
 import solver
+from core.settings import Settings
+from core.states import ACTIVE, JobState
+from core.store import Job, Store
 from solver.caution import CAUTION
 
 from .auth import User, current_user
 from .problems import SpecProblems
-from .settings import Settings
-from .store import Job, Store
 from .submission import check_cap, check_space, place, plan
 from .text_checks import NUL_MESSAGE, nul_fields
 
@@ -44,7 +45,6 @@ PARTIAL_BODY = {
 }
 MAX_TAGS, MAX_TAG_LENGTH = 20, 64
 MAX_CURSOR = 2**31  # job sequence numbers are 32-bit integers in the store
-State = Literal["queued", "running", "succeeded", "failed", "cancelled"]
 Tags = Annotated[list[str] | None, Query(description=f"up to {MAX_TAGS} labels for filtering")]
 Fresh = Annotated[bool, Query(description="run even if a succeeded job with the identical spec could be reused")]
 
@@ -168,7 +168,7 @@ def create_job(
 def list_jobs(
     request: Request,
     _: Annotated[User, Depends(current_user)],
-    state: State | None = None,
+    state: JobState | None = None,
     owner: str | None = None,
     tag: str | None = None,
     limit: Annotated[int, Query(ge=1, le=500)] = 50,
@@ -197,7 +197,7 @@ def read_job(request: Request, job_id: str, _: Annotated[User, Depends(current_u
 @router.post("/{job_id}/cancel", summary="Cancel a queued or running job")
 def cancel_job(request: Request, job_id: str, user: Annotated[User, Depends(current_user)]) -> dict[str, Any]:
     job = _own(request, job_id, user)
-    if job.state not in ("queued", "running"):
+    if job.state not in ACTIVE:
         raise HTTPException(409, f"job {job_id} is already {job.state}")
     request.app.state.reserve.retry(lambda: _store(request).cancel(job_id))  # works on a full disk too
     return view(_store(request).get(job_id) or job)
@@ -208,7 +208,7 @@ def delete_job(request: Request, job_id: str, user: Annotated[User, Depends(curr
     _own(request, job_id, user)
     store, reserve = _store(request), request.app.state.reserve
     # a queued job must not start while we delete it; every write can use the reserve (deleting frees space)
-    if reserve.retry(lambda: store.cancel(job_id)) == "running":
+    if reserve.retry(lambda: store.cancel(job_id)) == JobState.RUNNING:
         raise HTTPException(
             409, f"job {job_id} is running; it has been asked to stop: delete it again once its state is cancelled"
         )

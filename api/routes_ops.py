@@ -5,12 +5,12 @@ from __future__ import annotations
 from fastapi import APIRouter, Request
 from fastapi.responses import JSONResponse, PlainTextResponse
 
+from core.states import JobState
 from solver.caution import CAUTION
 
 from .health import check
 
 router = APIRouter(tags=["operations"])
-STATES = ("queued", "running", "succeeded", "failed", "cancelled")
 
 
 @router.get(
@@ -44,7 +44,7 @@ def metrics(request: Request) -> PlainTextResponse:
         lines += _gauge(
             "wakeyard_jobs",
             "Jobs in the store by state.",
-            [(f'{{state="{s}"}}', found.counts.get(s, 0)) for s in STATES],
+            [(f'{{state="{s}"}}', found.counts.get(s, 0)) for s in JobState],
         )
         lines += _gauge(
             "wakeyard_workers_seen",

@@ -10,6 +10,8 @@ from fastapi import APIRouter, Body, Depends, HTTPException, Query, Request
 from fastapi.responses import JSONResponse, Response
 
 import solver
+from core.states import ACTIVE
+from core.store import Job, Store, Study
 from solver.caution import CAUTION
 from solver.study import StudySpec, expand
 
@@ -17,7 +19,6 @@ from . import studies
 from .auth import User, current_user
 from .problems import SpecProblems
 from .routes_jobs import Fresh, limits
-from .store import ACTIVE, Job, Store, Study
 from .study_plot import plot_png
 from .submission import check_room, check_space, place, plan
 from .text_checks import NUL_MESSAGE, nul_fields

@@ -18,8 +18,10 @@ from typing import Any
 
 from fastapi import HTTPException, Request
 
+from core.states import JobState
+from core.store import Job, Provenance
+
 from .fingerprint import solver_fingerprint
-from .store import Job, Provenance
 
 log = logging.getLogger(__name__)
 
@@ -100,7 +102,7 @@ def place(request: Request, owner: str, planned: Planned, tags: list[str]) -> Jo
             shutil.rmtree(target, ignore_errors=True)
             planned.provenance.source = None
     job = state.store.create(owner, planned.spec, tags, planned.provenance, job_id)
-    if job.state == "queued":
+    if job.state == JobState.QUEUED:
         state.dispatch(job.id)
     return job
 

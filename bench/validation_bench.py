@@ -14,7 +14,7 @@ import numpy as np
 from fastapi.testclient import TestClient
 
 from api.app import create_app
-from api.settings import Settings
+from core.settings import Settings
 from solver import _polygons
 
 

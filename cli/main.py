@@ -8,11 +8,6 @@ import os
 import sys
 from pathlib import Path
 
-# One BLAS thread per process: the sparse direct solves gain nothing from more, and several
-# workers share the box. Must be set before numpy is first imported.
-for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
-    os.environ.setdefault(_var, "1")
-
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(prog="wakeyard", description="Queued 2D incompressible flow simulations.")
@@ -74,7 +69,10 @@ def main(argv: list[str] | None = None) -> int:
 
 def _run(spec_path: Path, out: Path, quiet: bool) -> int:
     import solver
+    from core.blas import one_blas_thread
     from solver.caution import caution_lines
+
+    one_blas_thread()
 
     try:
         data = json.loads(spec_path.read_text())

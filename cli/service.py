@@ -35,13 +35,15 @@ def _loopback(host: str) -> bool:
 
 def serve(host: str, port: int) -> int:
     from api.app import create_app
-    from api.settings import Settings
-    from api.store import Store
+    from core.blas import one_blas_thread
+    from core.settings import Settings
+    from core.store import Store
     from worker.supervisor import Supervisor
 
     from .datalock import DataLock
 
     _log_to_stderr()
+    one_blas_thread()  # the API's own numerical work (previews, study tables) needs no more
     settings = Settings()
     settings.data_dir.mkdir(parents=True, exist_ok=True)
     lock = DataLock(settings.data_dir)
@@ -144,8 +146,8 @@ def _log_to_stderr() -> None:
 
 
 def worker() -> int:
-    from api.settings import Settings
-    from api.store import Store
+    from core.settings import Settings
+    from core.store import Store
     from worker.supervisor import Supervisor
 
     _log_to_stderr()
@@ -169,8 +171,8 @@ def check_worker() -> int:
     """For container health checks: a worker process of this host has reported in within the lease."""
     import socket
 
-    from api.settings import Settings
-    from api.store import Store
+    from core.settings import Settings
+    from core.store import Store
 
     settings = Settings()
     seen = Store(settings.db_url).workers_seen(within=settings.lease_seconds, host=socket.gethostname())
@@ -180,8 +182,8 @@ def check_worker() -> int:
 
 def create_token(name: str, admin: bool) -> int:
     from api.auth import create_token
-    from api.settings import Settings
-    from api.store import Store
+    from core.settings import Settings
+    from core.store import Store
 
     settings = Settings()
     settings.data_dir.mkdir(parents=True, exist_ok=True)

@@ -14,7 +14,7 @@ from typing import Any
 
 from fastapi.testclient import TestClient
 
-from api.settings import Settings
+from core.settings import Settings
 
 from .hold import Hold
 

@@ -12,7 +12,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy import text
 
 from api.app import create_app
-from api.store import Store
+from core.store import Store
 
 from .helpers import environment, settings_for
 from .test_cli import WAKEYARD

@@ -12,7 +12,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy import update
 
 from api.app import create_app
-from api.store import Job, Store, utcnow
+from core.store import Job, Store, utcnow
 
 from .helpers import Hold, Worker, finished, settings_for, tiny, wait_for
 
@@ -90,8 +90,8 @@ def test_kill_9_of_a_pool_child_requeues_and_the_same_worker_finishes(tmp_path: 
 def test_reaper_resends_lost_wake_ups_without_local_workers(tmp_path: Path) -> None:
     """``serve --workers 0`` (the compose API): wake-ups lost while the workers sat idle are still re-sent, one per
     worker process seen in the store, at least one."""
-    from api.disk import DiskReserve
     from api.reaper import Reaper
+    from core.disk import DiskReserve
 
     settings = settings_for(tmp_path, "wakeyard-reaper", broker="", workers=0)
     store, sent = Store(settings.db_url), []

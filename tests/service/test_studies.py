@@ -19,9 +19,9 @@ import sqlalchemy
 import uvicorn
 from fastapi.testclient import TestClient
 
-from api.store import Job, Provenance, Store
 from api.studies import fluid_area
 from api.submission import spec_hash
+from core.store import Job, Provenance, Store
 from solver.caution import CAUTION
 
 from .helpers import finished, wait_for
