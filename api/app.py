@@ -15,6 +15,7 @@ from sqlalchemy.exc import SQLAlchemyError
 import solver
 from core.broker import make_celery
 from core.disk import DiskReserve
+from core.migrate import head, revision
 from core.settings import Settings
 from core.store import Store
 from solver.caution import CAUTION
@@ -34,6 +35,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     """Build the app for ``settings`` (default: from WAKEYARD_* environment variables)."""
     settings = settings or Settings()
     settings.jobs_dir.mkdir(parents=True, exist_ok=True)
+    if (found := revision(settings.db_url)) != head():
+        raise RuntimeError(
+            f"the job store is at revision {found or 'none'}, this wakeyard needs {head()}: run `wakeyard migrate`"
+        )
     store = Store(settings.db_url)
     celery = make_celery(settings)
     dispatch = Dispatcher(celery, settings.queue)

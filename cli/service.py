@@ -54,6 +54,7 @@ def serve(host: str, port: int) -> int:
             file=sys.stderr,
         )
         return 2
+    _migrate(settings.db_url, quiet=True)
     store, started = Store(settings.db_url), time.monotonic()
     if not _loopback(host) and not store.has_tokens():
         print(
@@ -145,6 +146,45 @@ def _log_to_stderr() -> None:
     logging.basicConfig(level=logging.WARNING, format="%(asctime)s %(name)s %(levelname)s: %(message)s")
 
 
+def migrate() -> int:
+    """``wakeyard migrate``: bring the job store to the schema this wakeyard needs, and say what was done."""
+    from core.settings import Settings
+
+    settings = Settings()
+    settings.data_dir.mkdir(parents=True, exist_ok=True)
+    _migrate(settings.db_url, quiet=False)
+    return 0
+
+
+def _migrate(url: str, quiet: bool) -> None:
+    from sqlalchemy.engine import make_url
+
+    from core.migrate import migrate
+
+    before, after = migrate(url)
+    if not quiet or before not in (None, after):
+        shown = make_url(url).render_as_string(hide_password=True)
+        what = f"migrated from revision {before} to {after}" if before != after else f"at revision {after} already"
+        print(f"job store {shown}: {what}", file=sys.stderr)
+
+
+def _wait_for_schema(url: str) -> None:
+    """Workers never migrate: they wait for ``wakeyard serve`` or ``wakeyard migrate`` to have done it."""
+    from core.migrate import head, revision
+
+    told = False
+    while (found := revision(url)) != head():
+        if not told:
+            print(
+                f"waiting for the job store to be migrated (revision {found or 'none'}, needed {head()}): "
+                "`wakeyard serve` or `wakeyard migrate` does it",
+                file=sys.stderr,
+                flush=True,
+            )
+            told = True
+        time.sleep(2.0)
+
+
 def worker() -> int:
     from core.settings import Settings
     from core.store import Store
@@ -152,6 +192,7 @@ def worker() -> int:
 
     _log_to_stderr()
     settings = Settings()
+    _wait_for_schema(settings.db_url)
     supervisor = Supervisor(settings.workers or os.cpu_count() or 1, "info")
     supervising = threading.Thread(target=supervisor.run, name="wakeyard-supervisor")
 
@@ -187,6 +228,7 @@ def create_token(name: str, admin: bool) -> int:
 
     settings = Settings()
     settings.data_dir.mkdir(parents=True, exist_ok=True)
+    _migrate(settings.db_url, quiet=True)  # the first token may come before the first serve
     store = Store(settings.db_url)
     if store.has_token_named(name):
         print(f"error: a token named {name!r} exists already", file=sys.stderr)

@@ -12,7 +12,6 @@ from .engine import make_engine
 from .jobs import Jobs, Provenance
 from .leases import Claimed, Leases
 from .models import Base, Job, JobTag, Study, Token, WorkerSeen
-from .schema import upgrade_schema
 from .studies import Studies
 from .tokens import Tokens
 from .values import finite, utcnow
@@ -22,8 +21,8 @@ class Store(Jobs, Studies, Tokens, Leases):
     """Job-store operations used by the API, the workers and the lease reaper."""
 
     def __init__(self, url: str):
+        """Connect only: the schema is brought up to date once, by ``core.migrate`` (``wakeyard migrate``)."""
         self.engine = make_engine(url)
-        upgrade_schema(self.engine)
         self.session = sessionmaker(self.engine, expire_on_commit=False)
         self._token_users = {}
 

@@ -15,13 +15,10 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-import sqlalchemy
 import uvicorn
 from fastapi.testclient import TestClient
 
 from api.studies import fluid_area
-from api.submission import spec_hash
-from core.store import Job, Provenance, Store
 from solver.caution import CAUTION
 
 from .helpers import finished, wait_for
@@ -265,28 +262,3 @@ def test_cli_study_waits_and_prints_the_table(http_url: str, tmp_path: Path) -> 
     spec.write_text(json.dumps({**sweep("bad", [0.1]), "vary": [{"path": "inflow.gust", "values": [0.1]}]}))
     bad = subprocess.run([*WAKEYARD, "study", str(spec), "--url", http_url], capture_output=True, text=True, timeout=60)
     assert bad.returncode == 2 and "invalid study: vary.0.path:" in bad.stderr and bad.stdout == ""
-
-
-def test_a_job_store_from_before_studies_gains_the_new_columns(store_url: str) -> None:
-    new = {"spec_hash", "reused_from", "study_id", "study_values"}
-    old = sqlalchemy.MetaData()
-    sqlalchemy.Table(
-        "jobs",
-        old,
-        *[
-            sqlalchemy.Column(c.name, c.type, primary_key=c.primary_key)
-            for c in Job.__table__.columns
-            if c.name not in new
-        ],
-    )
-    engine = sqlalchemy.create_engine(store_url)
-    old.create_all(engine)
-    engine.dispose()
-    store = Store(store_url)
-    spec = steady("upgrade")
-    job = store.create("ana", spec, [], Provenance(spec_hash(spec), "upgrade"))
-    claimed = store.claim_next("w")
-    store.finish(claimed.id, claimed.claim, "succeeded", {"bodies": []})
-    assert store.find_result(spec_hash(spec)).id == job.id
-    indexed = {i["name"] for i in sqlalchemy.inspect(store.engine).get_indexes("jobs")}
-    assert {"ix_jobs_spec_hash", "ix_jobs_study_id"} <= indexed
