@@ -8,9 +8,7 @@ from pathlib import Path
 from typing import Any
 
 from fastapi import FastAPI
-from fastapi.exceptions import RequestValidationError
 from fastapi.staticfiles import StaticFiles
-from sqlalchemy.exc import SQLAlchemyError
 
 import solver
 from core.broker import make_celery
@@ -24,7 +22,8 @@ from solver.study import StudySpec
 from . import routes_files, routes_jobs, routes_ops, routes_studies
 from .dispatch import Dispatcher
 from .limits import BodyLimit
-from .problems import SpecProblems, disk_full_handler, spec_problems_handler, validation_handler
+from .metrics import Timing, registry_for
+from .problems import install
 from .reaper import Reaper
 from .text_checks import RefuseNul
 
@@ -61,12 +60,11 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     )
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
     app.state.reaper, app.state.reserve = reaper, reserve
-    app.add_exception_handler(SpecProblems, spec_problems_handler)
-    app.add_exception_handler(OSError, disk_full_handler)
-    app.add_exception_handler(SQLAlchemyError, disk_full_handler)
-    app.add_exception_handler(RequestValidationError, validation_handler)
+    app.state.registry, latency = registry_for(settings, store, celery)
+    install(app)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes, max_seconds=settings.max_body_seconds)
     app.add_middleware(RefuseNul)
+    app.add_middleware(Timing, latency=latency)  # outermost of ours: refusals are timed too
     for module in (routes_jobs, routes_files, routes_studies, routes_ops):
         app.include_router(module.router)
     _document_spec(app)

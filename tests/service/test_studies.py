@@ -139,7 +139,7 @@ def test_bad_study_is_422_naming_the_field(offline: TestClient, study: Any, fiel
 def test_study_over_the_per_user_cap_is_refused_whole_and_cancel_stops_it(offline: TestClient) -> None:
     big = offline.post("/api/v1/studies", json=sweep("cap", [0.1, 0.2, 0.3, 0.4]))
     assert big.status_code == 429
-    assert "would add 4" in big.json()["detail"] and "limit per user is 3" in big.json()["detail"]
+    assert "would add 4" in big.json()["detail"][0]["message"] and "limit per user is 3" in big.text
     assert offline.get("/api/v1/jobs").json()["jobs"] == [] and offline.get("/api/v1/studies").json()["studies"] == []
 
     created = offline.post("/api/v1/studies", json=sweep("cap", [0.1, 0.2, 0.3])).json()
