@@ -56,7 +56,9 @@ def serve(host: str, port: int) -> int:
         return 2
     _migrate(settings.db_url, quiet=True)
     store, started = Store(settings.db_url), time.monotonic()
-    if not _loopback(host) and not store.has_tokens():
+    if not _loopback(host) and not store.has_tokens() and settings.first_admin:
+        _first_admin(store, settings.first_admin, settings.data_dir / "first-admin-token")
+    elif not _loopback(host) and not store.has_tokens():
         print(
             f"error: refusing to listen on {host} without API tokens: anyone on the network could run jobs.\n"
             "Create one first with `wakeyard token create NAME`, or serve on 127.0.0.1.",
@@ -107,6 +109,18 @@ def serve(host: str, port: int) -> int:
     sys.stdout.flush()
     sys.stderr.flush()
     os._exit(0)
+
+
+def _first_admin(store: Any, name: str, path: Path) -> None:
+    """The first admin token, written to a file only this user can read: never to the log, and no restart is
+    needed before the service listens (as `wakeyard token create` before the first `serve` would)."""
+    from api.auth import create_token
+
+    token = create_token(store, name, admin=True)
+    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
+    with os.fdopen(fd, "w") as f:
+        f.write(token + "\n")
+    print(f"created the admin token {name!r} in {path.resolve()}: copy it, then delete that file", file=sys.stderr)
 
 
 class _Server(uvicorn.Server):
