@@ -3,10 +3,14 @@ FROM python:3.11-slim
 # gmsh's wheel needs these shared libraries even without a display
 RUN apt-get update && apt-get install -y --no-install-recommends libglu1-mesa libxrender1 libxcursor1 libxft2 \
         libxinerama1 libgomp1 && rm -rf /var/lib/apt/lists/*
-WORKDIR /app
+WORKDIR /src
+# The dependencies first, from pyproject.toml alone: this layer is rebuilt only when they change, not on every edit
+COPY pyproject.toml .
+RUN python -c 'import tomllib; print("\n".join(tomllib.load(open("pyproject.toml", "rb"))["project"]["dependencies"]))' \
+        > /tmp/requirements.txt && pip install --no-cache-dir -r /tmp/requirements.txt
 COPY . .
-# editable, so that api/ finds the page in /app/web (web/ is not package data)
-RUN pip install --no-cache-dir -e .
+# editable, so that api/ finds the page in /src/web (web/ is not package data yet)
+RUN pip install --no-cache-dir --no-deps -e .
 RUN useradd --create-home wakeyard && mkdir /data && chown wakeyard /data
 USER wakeyard
 ENV WAKEYARD_DATA_DIR=/data

@@ -8,23 +8,23 @@ from pathlib import Path
 from typing import Any
 
 from fastapi import FastAPI
-from fastapi.exceptions import RequestValidationError
 from fastapi.staticfiles import StaticFiles
-from sqlalchemy.exc import SQLAlchemyError
 
 import solver
+from core.broker import make_celery
+from core.disk import DiskReserve
+from core.migrate import head, revision
+from core.settings import Settings
+from core.store import Store
 from solver.caution import CAUTION
 from solver.study import StudySpec
-from worker.app import make_celery  # producer side only (BLAS pinning on import is harmless here)
 
 from . import routes_files, routes_jobs, routes_ops, routes_studies
-from .disk import DiskReserve
 from .dispatch import Dispatcher
 from .limits import BodyLimit
-from .problems import SpecProblems, disk_full_handler, spec_problems_handler, validation_handler
+from .metrics import Timing, registry_for
+from .problems import install
 from .reaper import Reaper
-from .settings import Settings
-from .store import Store
 from .text_checks import RefuseNul
 
 WEB = Path(__file__).resolve().parent.parent / "web"
@@ -34,6 +34,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     """Build the app for ``settings`` (default: from WAKEYARD_* environment variables)."""
     settings = settings or Settings()
     settings.jobs_dir.mkdir(parents=True, exist_ok=True)
+    if (found := revision(settings.db_url)) != head():
+        raise RuntimeError(
+            f"the job store is at revision {found or 'none'}, this wakeyard needs {head()}: run `wakeyard migrate`"
+        )
     store = Store(settings.db_url)
     celery = make_celery(settings)
     dispatch = Dispatcher(celery, settings.queue)
@@ -56,12 +60,11 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     )
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
     app.state.reaper, app.state.reserve = reaper, reserve
-    app.add_exception_handler(SpecProblems, spec_problems_handler)
-    app.add_exception_handler(OSError, disk_full_handler)
-    app.add_exception_handler(SQLAlchemyError, disk_full_handler)
-    app.add_exception_handler(RequestValidationError, validation_handler)
+    app.state.registry, latency = registry_for(settings, store, celery)
+    install(app)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes, max_seconds=settings.max_body_seconds)
     app.add_middleware(RefuseNul)
+    app.add_middleware(Timing, latency=latency)  # outermost of ours: refusals are timed too
     for module in (routes_jobs, routes_files, routes_studies, routes_ops):
         app.include_router(module.router)
     _document_spec(app)

@@ -12,6 +12,8 @@ import threading
 
 from celery import Celery
 
+from core.broker import TASK
+
 log = logging.getLogger(__name__)
 
 
@@ -33,6 +35,6 @@ class Dispatcher:
     def _loop(self) -> None:
         while (job_id := self.pending.get()) is not None:
             try:
-                self.celery.send_task("wakeyard.run_next", args=[job_id], queue=self.queue_name)
+                self.celery.send_task(TASK, args=[job_id], queue=self.queue_name)
             except Exception:
                 log.exception("could not send the wake-up for job %s; the reaper will retry", job_id)

@@ -12,8 +12,9 @@ from typing import Any
 
 from celery import Celery
 
-from .settings import Settings
-from .store import Store
+from core.settings import Settings
+from core.states import JobState
+from core.store import Store
 
 
 @dataclass
@@ -35,8 +36,8 @@ class Health:
             "problems": self.problems,
             "database": self.database,
             "broker": self.broker,
-            "queue_depth": self.counts.get("queued", 0),
-            "running": self.counts.get("running", 0),
+            "queue_depth": self.counts.get(JobState.QUEUED, 0),
+            "running": self.counts.get(JobState.RUNNING, 0),
             "workers_seen": self.workers_seen,
             "free_disk_bytes": self.free_disk_bytes,
         }
@@ -51,7 +52,7 @@ def check(settings: Settings, store: Store, celery: Celery) -> Health:
     except Exception as err:  # report, don't crash: health must answer when things are broken
         health.database = f"error: {type(err).__name__}: {err}"
         health.problems.append(f"the job store does not answer ({type(err).__name__})")
-    queued = health.counts.get("queued", 0)
+    queued = health.counts.get(JobState.QUEUED, 0)
     if queued and health.workers_seen == 0:
         health.problems.append(
             f"{queued} job(s) queued and no worker process seen in the last {settings.lease_seconds:g} s"

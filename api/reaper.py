@@ -11,9 +11,10 @@ from datetime import datetime, timedelta
 from sqlalchemy import create_engine, text
 from sqlalchemy.exc import OperationalError
 
-from .disk import DiskReserve
-from .settings import Settings
-from .store import Store
+from core.disk import DiskReserve
+from core.settings import Settings
+from core.states import JobState
+from core.store import Store
 
 log = logging.getLogger(__name__)
 
@@ -50,11 +51,20 @@ class Reaper:
             log.warning("job %s lost its worker: re-queued", job_id)
             self.dispatch(job_id)
         counts = self.store.counts()
-        if counts.get("queued") and not counts.get("running"):  # idle with work waiting: wake-ups were lost
-            for job_id in self.store.queued_ids()[: self.settings.workers]:
+        if counts.get(JobState.QUEUED) and not counts.get(
+            JobState.RUNNING
+        ):  # idle with work waiting: wake-ups were lost
+            for job_id in self.store.queued_ids()[: self.wake_ups()]:
                 self.dispatch(job_id)
         if self.broker_db is not None:
             self._prune()
+
+    def wake_ups(self) -> int:
+        """How many lost wake-ups to re-send: one per worker process, this host's (``workers``) or any seen within
+        the lease (``serve --workers 0`` runs none here), and at least one, so a worker that starts later finds
+        its job."""
+        seen = self.store.workers_seen(within=self.settings.lease_seconds)
+        return max(1, self.settings.workers, seen)
 
     def _prune(self) -> None:
         """The SQLAlchemy transport keeps delivered messages forever; drop those older than an hour."""

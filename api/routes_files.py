@@ -7,14 +7,17 @@ import tempfile
 import zipfile
 from collections.abc import Iterator
 from pathlib import Path
-from typing import IO, Annotated, Any
+from typing import IO, Any
 
-from fastapi import APIRouter, Depends, HTTPException, Request
+from fastapi import APIRouter
 from fastapi.responses import FileResponse, StreamingResponse
 
+from core.settings import Settings
+from core.store import Store
 from solver.caution import CAUTION, caution_lines
 
-from .auth import User, current_user
+from .deps import SettingsDep, StoreDep, UserDep
+from .problems import NotFound
 
 router = APIRouter(prefix="/api/v1/jobs", tags=["files"])
 ARCHIVE = "fields.zip"
@@ -35,10 +38,10 @@ def _content_type(path: str) -> str:
     return TYPES.get(Path(path).suffix.lower()) or mimetypes.guess_type(path)[0] or "application/octet-stream"
 
 
-def _folder(request: Request, job_id: str) -> Path:
-    if request.app.state.store.get(job_id) is None:
-        raise HTTPException(404, f"no job {job_id}")
-    return (request.app.state.settings.jobs_dir / job_id).resolve()
+def _folder(store: Store, settings: Settings, job_id: str) -> Path:
+    if store.get(job_id) is None:
+        raise NotFound("job_id", f"no job {job_id}")
+    return (settings.jobs_dir / job_id).resolve()
 
 
 # What odd paths raise: a name over 255 bytes (OSError), a symlink loop (RuntimeError from resolve, OSError from
@@ -71,8 +74,8 @@ def _field_files(folder: Path) -> list[Path]:
 
 
 @router.get("/{job_id}/files", summary="List a job's result files")
-def list_files(request: Request, job_id: str, _: Annotated[User, Depends(current_user)]) -> dict[str, Any]:
-    folder = _folder(request, job_id)
+def list_files(store: StoreDep, settings: SettingsDep, job_id: str, _: UserDep) -> dict[str, Any]:
+    folder = _folder(store, settings, job_id)
     base = f"/api/v1/jobs/{job_id}/files"
     files = [
         {
@@ -89,18 +92,18 @@ def list_files(request: Request, job_id: str, _: Annotated[User, Depends(current
 
 
 @router.get("/{job_id}/files/{path:path}", summary="Download one result file (fields.zip: all VTU/PVD files)")
-def get_file(request: Request, job_id: str, path: str, _: Annotated[User, Depends(current_user)]) -> Any:
-    folder = _folder(request, job_id)
+def get_file(store: StoreDep, settings: SettingsDep, job_id: str, path: str, _: UserDep) -> Any:
+    folder = _folder(store, settings, job_id)
     if path == ARCHIVE:
         return _archive(folder, job_id)
     try:
         target = (folder / path).resolve()
     except BAD_PATH:
-        raise HTTPException(404, f"no file {path[:300]!r} in job {job_id}") from None
+        raise NotFound("path", f"no file {path[:300]!r} in job {job_id}") from None
     if not target.is_relative_to(folder) or target == folder:
-        raise HTTPException(404, f"no file {path[:300]!r} in job {job_id}")
+        raise NotFound("path", f"no file {path[:300]!r} in job {job_id}")
     if not _shown(folder, target):
-        raise HTTPException(404, f"no file {path[:300]!r} in job {job_id} (yet)")
+        raise NotFound("path", f"no file {path[:300]!r} in job {job_id} (yet)")
     return FileResponse(target, media_type=_content_type(target.name))
 
 
@@ -108,7 +111,7 @@ def _archive(folder: Path, job_id: str) -> StreamingResponse:
     """Zip the VTU/PVD files into a spooled temporary file (memory first, disk when large) and stream it."""
     files = _field_files(folder)
     if not files:
-        raise HTTPException(404, f"job {job_id} has no VTU files (yet)")
+        raise NotFound("path", f"job {job_id} has no VTU files (yet)")
     spool = tempfile.SpooledTemporaryFile(max_size=32 * 2**20)  # noqa: SIM115 - closed by _chunks
     with zipfile.ZipFile(spool, "w", zipfile.ZIP_DEFLATED) as zf:
         zf.writestr(ARCHIVE_NOTE, "\n".join(caution_lines(100)) + "\n")

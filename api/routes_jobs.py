@@ -5,20 +5,21 @@ from __future__ import annotations
 import logging
 import shutil
 from datetime import datetime
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any
 
-from fastapi import APIRouter, Body, Depends, HTTPException, Query, Request
+from fastapi import APIRouter, Body, Query
 from fastapi.responses import JSONResponse
 from sqlalchemy.engine import Row
 
 import solver
+from core.settings import Settings
+from core.states import ACTIVE, JobState
+from core.store import Job, Store
 from solver.caution import CAUTION
 
-from .auth import User, current_user
-from .problems import SpecProblems
-from .settings import Settings
-from .store import Job, Store
-from .submission import check_cap, check_space, place, plan
+from .deps import ReserveDep, SettingsDep, StoreDep, User, UserDep
+from .problems import Conflict, Forbidden, NotFound, SpecProblems
+from .submission import Submission, SubmissionDep
 from .text_checks import NUL_MESSAGE, nul_fields
 
 log = logging.getLogger(__name__)
@@ -44,7 +45,6 @@ PARTIAL_BODY = {
 }
 MAX_TAGS, MAX_TAG_LENGTH = 20, 64
 MAX_CURSOR = 2**31  # job sequence numbers are 32-bit integers in the store
-State = Literal["queued", "running", "succeeded", "failed", "cancelled"]
 Tags = Annotated[list[str] | None, Query(description=f"up to {MAX_TAGS} labels for filtering")]
 Fresh = Annotated[bool, Query(description="run even if a succeeded job with the identical spec could be reused")]
 
@@ -89,14 +89,6 @@ def view(job: Job | Row[Any]) -> dict[str, Any]:
     }
 
 
-def _store(request: Request) -> Store:
-    return request.app.state.store
-
-
-def _settings(request: Request) -> Settings:
-    return request.app.state.settings
-
-
 def limits(settings: Settings) -> solver.Limits:
     return solver.Limits(max_dofs=settings.max_dofs, max_steps=settings.max_steps)
 
@@ -124,11 +116,11 @@ def _check_tags(tags: list[str]) -> list[str]:
     return tags
 
 
-def _submit(request: Request, user: User, spec: dict[str, Any], tags: list[str], fresh: bool) -> JSONResponse:
-    check_space(request)
-    planned = plan(request, spec, fresh)
-    check_cap(request, user.name, [planned])
-    job = place(request, user.name, planned, tags)
+def _submit(submission: Submission, user: User, spec: dict[str, Any], tags: list[str], fresh: bool) -> JSONResponse:
+    submission.check_space()
+    planned = submission.plan(spec, fresh)
+    submission.check_cap(user.name, [planned])
+    job = submission.place(user.name, planned, tags)
     return JSONResponse(
         {"id": job.id, "state": job.state, "reused_from": job.reused_from, "links": links(job.id)},
         status_code=202,
@@ -136,12 +128,18 @@ def _submit(request: Request, user: User, spec: dict[str, Any], tags: list[str],
     )
 
 
-def _own(request: Request, job_id: str, user: User) -> Job:
-    job = _store(request).get(job_id)
+def found(store: Store, job_id: str) -> Job:
+    job = store.get(job_id)
     if job is None:
-        raise HTTPException(404, f"no job {job_id}")
+        raise NotFound("job_id", f"no job {job_id}")
+    return job
+
+
+def owned(store: Store, job_id: str, user: User) -> Job:
+    """The job, if ``user`` may change it: its owner or an admin."""
+    job = found(store, job_id)
     if job.owner != user.name and not user.admin:
-        raise HTTPException(403, f"job {job_id} belongs to {job.owner}; only its owner or an admin may change it")
+        raise Forbidden("job_id", f"job {job_id} belongs to {job.owner}; only its owner or an admin may change it")
     return job
 
 
@@ -155,20 +153,20 @@ def merge(base: dict[str, Any], edits: dict[str, Any]) -> dict[str, Any]:
 
 @router.post("", status_code=202, openapi_extra=SPEC_BODY, summary="Queue a job")
 def create_job(
-    request: Request,
-    user: Annotated[User, Depends(current_user)],
+    submission: SubmissionDep,
+    user: UserDep,
     data: Annotated[Any, Body()],
     tags: Tags = None,
     fresh: Fresh = False,
 ) -> JSONResponse:
-    return _submit(request, user, _validated(data, _settings(request)), _check_tags(tags or []), fresh)
+    return _submit(submission, user, _validated(data, submission.settings), _check_tags(tags or []), fresh)
 
 
 @router.get("", summary="List jobs, newest first")
 def list_jobs(
-    request: Request,
-    _: Annotated[User, Depends(current_user)],
-    state: State | None = None,
+    store: StoreDep,
+    _: UserDep,
+    state: JobState | None = None,
     owner: str | None = None,
     tag: str | None = None,
     limit: Annotated[int, Query(ge=1, le=500)] = 50,
@@ -179,56 +177,53 @@ def list_jobs(
         if not (cursor.isascii() and cursor.isdigit() and int(cursor) < MAX_CURSOR):
             raise SpecProblems([("cursor", "use the next_cursor value of the previous page")])
         before = int(cursor)
-    jobs = _store(request).list_jobs(state, owner, tag, limit, before)
+    jobs = store.list_jobs(state, owner, tag, limit, before)
     nxt = str(jobs[-1].seq) if len(jobs) == limit else None
     return {"jobs": [view(j) for j in jobs], "next_cursor": nxt}
 
 
 @router.get("/{job_id}", summary="Read one job")
-def read_job(request: Request, job_id: str, _: Annotated[User, Depends(current_user)]) -> JSONResponse:
+def read_job(store: StoreDep, job_id: str, _: UserDep) -> JSONResponse:
     """In the thread pool like every database call: a read can wait on a lock (a PostgreSQL table lock, a busy
     SQLite file), and on the event loop that wait would stall every other request."""
-    job = _store(request).read(job_id)
+    job = store.read(job_id)
     if job is None:
-        raise HTTPException(404, f"no job {job_id}")
+        raise NotFound("job_id", f"no job {job_id}")
     return JSONResponse(view(job))  # already JSON types: skip FastAPI's re-validation (status reads are hot)
 
 
 @router.post("/{job_id}/cancel", summary="Cancel a queued or running job")
-def cancel_job(request: Request, job_id: str, user: Annotated[User, Depends(current_user)]) -> dict[str, Any]:
-    job = _own(request, job_id, user)
-    if job.state not in ("queued", "running"):
-        raise HTTPException(409, f"job {job_id} is already {job.state}")
-    request.app.state.reserve.retry(lambda: _store(request).cancel(job_id))  # works on a full disk too
-    return view(_store(request).get(job_id) or job)
+def cancel_job(store: StoreDep, reserve: ReserveDep, job_id: str, user: UserDep) -> dict[str, Any]:
+    job = owned(store, job_id, user)
+    if job.state not in ACTIVE:
+        raise Conflict("job_id", f"job {job_id} is already {job.state}")
+    reserve.retry(lambda: store.cancel(job_id))  # works on a full disk too
+    return view(store.get(job_id) or job)
 
 
 @router.delete("/{job_id}", status_code=204, summary="Delete a job and its files")
-def delete_job(request: Request, job_id: str, user: Annotated[User, Depends(current_user)]) -> None:
-    _own(request, job_id, user)
-    store, reserve = _store(request), request.app.state.reserve
+def delete_job(store: StoreDep, reserve: ReserveDep, settings: SettingsDep, job_id: str, user: UserDep) -> None:
+    owned(store, job_id, user)
     # a queued job must not start while we delete it; every write can use the reserve (deleting frees space)
-    if reserve.retry(lambda: store.cancel(job_id)) == "running":
-        raise HTTPException(
-            409, f"job {job_id} is running; it has been asked to stop: delete it again once its state is cancelled"
+    if reserve.retry(lambda: store.cancel(job_id)) == JobState.RUNNING:
+        raise Conflict(
+            "job_id", f"job {job_id} is running; it has been asked to stop: delete it again once its state is cancelled"
         )
-    shutil.rmtree(_settings(request).jobs_dir / job_id, ignore_errors=True)  # files first: that frees the space
+    shutil.rmtree(settings.jobs_dir / job_id, ignore_errors=True)  # files first: that frees the space
     reserve.retry(lambda: store.delete(job_id))
 
 
 @router.post("/{job_id}/clone", status_code=202, openapi_extra=PARTIAL_BODY, summary="Queue a copy with edits")
 def clone_job(
-    request: Request,
+    submission: SubmissionDep,
     job_id: str,
-    user: Annotated[User, Depends(current_user)],
+    user: UserDep,
     edits: Annotated[Any, Body()] = None,
     tags: Tags = None,
     fresh: Fresh = False,
 ) -> JSONResponse:
-    job = _store(request).get(job_id)
-    if job is None:
-        raise HTTPException(404, f"no job {job_id}")
+    job = found(submission.store, job_id)
     if edits is not None and not isinstance(edits, dict):
         raise SpecProblems([("(body)", "must be a JSON object with the parts of the spec to change")])
-    spec = _validated(merge(job.spec, edits or {}), _settings(request))
-    return _submit(request, user, spec, _check_tags(tags or job.tags), fresh)
+    spec = _validated(merge(job.spec, edits or {}), submission.settings)
+    return _submit(submission, user, spec, _check_tags(tags or job.tags), fresh)

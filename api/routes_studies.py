@@ -6,20 +6,21 @@ from __future__ import annotations
 import time
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Body, Depends, HTTPException, Query, Request
+from fastapi import APIRouter, Body, Query
 from fastapi.responses import JSONResponse, Response
 
 import solver
+from core.states import ACTIVE
+from core.store import Job, Store, Study
 from solver.caution import CAUTION
 from solver.study import StudySpec, expand
 
 from . import studies
-from .auth import User, current_user
-from .problems import SpecProblems
+from .deps import StoreDep, UserDep
+from .problems import Conflict, Forbidden, NotFound, SpecProblems
 from .routes_jobs import Fresh, limits
-from .store import ACTIVE, Job, Store, Study
 from .study_plot import plot_png
-from .submission import check_room, check_space, place, plan
+from .submission import Submission, SubmissionDep
 from .text_checks import NUL_MESSAGE, nul_fields
 
 router = APIRouter(prefix="/api/v1/studies", tags=["studies"])
@@ -36,12 +37,8 @@ def links(study_id: str) -> dict[str, str]:
     return {"self": base, "table": f"{base}/table.csv", "plot": f"{base}/plot.png", "cancel": f"{base}/cancel"}
 
 
-def _store(request: Request) -> Store:
-    return request.app.state.store
-
-
 def _expanded(
-    data: Any, request: Request, owner: str
+    data: Any, submission: Submission, owner: str
 ) -> tuple[StudySpec, list[tuple[dict[str, float], dict[str, Any]]]]:
     """The solver's checks of the study and of every point, plus the service's size limits for each point.
 
@@ -51,16 +48,16 @@ def _expanded(
         raise SpecProblems([("(body)", f"must be a JSON object (the study), got {type(data).__name__}")])
     if nul := nul_fields(data):
         raise SpecProblems([(field, NUL_MESSAGE) for field in nul])
-    settings = request.app.state.settings
+    settings = submission.settings
     deadline = time.monotonic() + settings.max_validation_seconds
     try:
-        points = expand(data, counted=lambda n: check_room(request, owner, n), deadline=deadline)
+        points = expand(data, counted=lambda n: submission.check_room(owner, n), deadline=deadline)
     except solver.SpecError as err:
         raise SpecProblems(err.problems) from None
     problems = []
     for k, (values, spec) in enumerate(points):
         try:
-            solver.check_limits(spec, limits(request.app.state.settings))
+            solver.check_limits(spec, limits(settings))
         except solver.SpecError as err:
             problems += [(f"points.{k}.{f}", f"{m} (at {values})") for f, m in err.problems]
     if problems:
@@ -74,17 +71,17 @@ def _point_title(title: str, values: dict[str, float]) -> str:
 
 @router.post("", status_code=202, openapi_extra=STUDY_BODY, summary="Queue a parameter study")
 def create_study(
-    request: Request, user: Annotated[User, Depends(current_user)], data: Annotated[Any, Body()], fresh: Fresh = False
+    submission: SubmissionDep, user: UserDep, data: Annotated[Any, Body()], fresh: Fresh = False
 ) -> JSONResponse:
-    check_space(request)
-    spec, points = _expanded(data, request, user.name)
+    submission.check_space()
+    spec, points = _expanded(data, submission, user.name)
     title = spec.title or str(points[0][1].get("title", "")) or spec.kind
-    planned = [plan(request, case, fresh, _point_title(title, values), values=values) for values, case in points]
-    study = _store(request).create_study(user.name, spec.kind, title, spec.model_dump(mode="json"))
+    planned = [submission.plan(case, fresh, _point_title(title, v), values=v) for v, case in points]
+    study = submission.store.create_study(user.name, spec.kind, title, spec.model_dump(mode="json"))
     jobs = []
     for p in planned:
         p.provenance.study_id = study.id
-        jobs.append(place(request, user.name, p, []))
+        jobs.append(submission.place(user.name, p, []))
     return JSONResponse(
         {"id": study.id, "state": studies.state(jobs), "jobs": [j.id for j in jobs], "links": links(study.id)},
         status_code=202,
@@ -108,26 +105,24 @@ def _brief(study: Study, jobs: list[Job]) -> dict[str, Any]:
 
 
 @router.get("", summary="List studies, newest first")
-def list_studies(
-    request: Request, _: Annotated[User, Depends(current_user)], limit: Annotated[int, Query(ge=1, le=200)] = 50
-) -> dict[str, Any]:
-    found = _store(request).list_studies(limit)
+def list_studies(store: StoreDep, _: UserDep, limit: Annotated[int, Query(ge=1, le=200)] = 50) -> dict[str, Any]:
+    found = store.list_studies(limit)
     jobs: dict[str, list[Job]] = {s.id: [] for s in found}
-    for job in _store(request).study_jobs(list(jobs)):
+    for job in store.study_jobs(list(jobs)):
         jobs[job.study_id].append(job)  # type: ignore[index]
     return {"studies": [_brief(s, jobs[s.id]) for s in found], "caution": CAUTION}
 
 
-def _load(request: Request, study_id: str) -> tuple[Study, list[Job]]:
-    study = _store(request).get_study(study_id)
+def _load(store: Store, study_id: str) -> tuple[Study, list[Job]]:
+    study = store.get_study(study_id)
     if study is None:
-        raise HTTPException(404, f"no study {study_id}")
-    return study, _store(request).study_jobs([study_id])
+        raise NotFound("study_id", f"no study {study_id}")
+    return study, store.study_jobs([study_id])
 
 
 @router.get("/{study_id}", summary="Read one study: its points, their results and (mesh-convergence) the GCI")
-def read_study(request: Request, study_id: str, _: Annotated[User, Depends(current_user)]) -> JSONResponse:
-    study, jobs = _load(request, study_id)
+def read_study(store: StoreDep, study_id: str, _: UserDep) -> JSONResponse:
+    study, jobs = _load(store, study_id)
     body = _brief(study, jobs)
     body["spec"] = study.spec
     body["points"] = [
@@ -149,8 +144,8 @@ def read_study(request: Request, study_id: str, _: Annotated[User, Depends(curre
 
 
 @router.get("/{study_id}/table.csv", summary="The points and their summary values as CSV")
-def study_table(request: Request, study_id: str, _: Annotated[User, Depends(current_user)]) -> Response:
-    study, jobs = _load(request, study_id)
+def study_table(store: StoreDep, study_id: str, _: UserDep) -> Response:
+    study, jobs = _load(store, study_id)
     return Response(
         studies.table_csv(study, jobs),
         media_type="text/csv",
@@ -160,12 +155,12 @@ def study_table(request: Request, study_id: str, _: Annotated[User, Depends(curr
 
 @router.get("/{study_id}/plot.png", summary="One summary value against the first varied field")
 def study_plot(
-    request: Request,
+    store: StoreDep,
     study_id: str,
-    _: Annotated[User, Depends(current_user)],
+    _: UserDep,
     y: Annotated[str, Query(description="a summary value, e.g. pipe.cd or strouhal_number")],
 ) -> Response:
-    study, jobs = _load(request, study_id)
+    study, jobs = _load(store, study_id)
     paths = studies.varied(study)
     points = [(j.study_values or {}, v[y]) for j in jobs if (v := studies.values_of(j)).get(y) is not None]
     if not points:
@@ -176,13 +171,15 @@ def study_plot(
 
 
 @router.post("/{study_id}/cancel", summary="Cancel the study's queued and running jobs")
-def cancel_study(request: Request, study_id: str, user: Annotated[User, Depends(current_user)]) -> JSONResponse:
-    study, jobs = _load(request, study_id)
+def cancel_study(store: StoreDep, study_id: str, user: UserDep) -> JSONResponse:
+    study, jobs = _load(store, study_id)
     if study.owner != user.name and not user.admin:
-        raise HTTPException(403, f"study {study_id} belongs to {study.owner}; only its owner or an admin may cancel it")
+        raise Forbidden(
+            "study_id", f"study {study_id} belongs to {study.owner}; only its owner or an admin may cancel it"
+        )
     active = [j.id for j in jobs if j.state in ACTIVE]
     if not active:
-        raise HTTPException(409, f"study {study_id} has no queued or running jobs (it is {studies.state(jobs)})")
+        raise Conflict("study_id", f"study {study_id} has no queued or running jobs (it is {studies.state(jobs)})")
     for job_id in active:
-        _store(request).cancel(job_id)
-    return read_study(request, study_id, user)
+        store.cancel(job_id)
+    return read_study(store, study_id, user)

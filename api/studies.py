@@ -9,11 +9,11 @@ from typing import Any
 import numpy as np
 
 import solver
+from core.states import ACTIVE, JobState
+from core.store import Job, Study, finite
 from solver.caution import CAUTION
 from solver.study import convergence, summary_values
 from solver.units import labelled, spec_unit, value_unit
-
-from .store import ACTIVE, Job, Study, finite
 
 
 def varied(study: Study) -> list[str]:
@@ -25,10 +25,10 @@ def state(jobs: list[Job]) -> str:
     """Queued until a point starts, running while any is active, then succeeded / failed / cancelled."""
     states = [j.state for j in jobs]
     if any(s in ACTIVE for s in states):
-        return "queued" if all(s == "queued" for s in states) else "running"
-    if states and all(s == "succeeded" for s in states):
-        return "succeeded"
-    return "failed" if "failed" in states else "cancelled"
+        return JobState.QUEUED if all(s == JobState.QUEUED for s in states) else JobState.RUNNING
+    if states and all(s == JobState.SUCCEEDED for s in states):
+        return JobState.SUCCEEDED
+    return JobState.FAILED if JobState.FAILED in states else JobState.CANCELLED
 
 
 def progress(jobs: list[Job]) -> float:
@@ -37,7 +37,7 @@ def progress(jobs: list[Job]) -> float:
 
 def values_of(job: Job) -> dict[str, float | None]:
     """The point's flat summary values (drag and lift coefficients, Strouhal number...); empty until it succeeds."""
-    return summary_values(job.summary) if job.state == "succeeded" and job.summary else {}
+    return summary_values(job.summary) if job.state == JobState.SUCCEEDED and job.summary else {}
 
 
 def fluid_area(base: dict[str, Any]) -> float:
@@ -53,7 +53,7 @@ def fluid_area(base: dict[str, Any]) -> float:
 
 def grid_convergence(study: Study, jobs: list[Job]) -> dict[str, Any]:
     """Observed order, extrapolated value and GCI of every summary value, from the three finest succeeded meshes."""
-    done = [j.summary for j in jobs if j.state == "succeeded" and j.summary]
+    done = [j.summary for j in jobs if j.state == JobState.SUCCEEDED and j.summary]
     return finite(convergence(done, fluid_area(study.spec["base"]))) if len(done) >= 3 else {}
 
 

@@ -1,7 +1,7 @@
 """Creating jobs, shared by single jobs, clones and study points: reuse an identical result or queue a run.
 
-A spec's hash is SHA-256 of its canonical JSON (the normalised spec, keys sorted) plus the solver version, so a
-result is reused only for exactly the same case computed by the same solver.
+A spec's hash is SHA-256 of its canonical JSON (the normalised spec, keys sorted) plus the fingerprint of the solver's
+code (``api.fingerprint``), so a result is reused only for exactly the same case computed by the same solver.
 """
 
 from __future__ import annotations
@@ -12,22 +12,27 @@ import logging
 import os
 import shutil
 import uuid
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Annotated, Any
 
-from fastapi import HTTPException, Request
+from fastapi import Depends
 
-import solver
+from core.settings import Settings
+from core.states import JobState
+from core.store import Job, Provenance, Store
 
-from .store import Job, Provenance
+from .deps import DispatchDep, SettingsDep, StoreDep
+from .fingerprint import solver_fingerprint
+from .problems import NoSpace, TooManyJobs
 
 log = logging.getLogger(__name__)
 
 
 def spec_hash(spec: dict[str, Any]) -> str:
     canonical = json.dumps(spec, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
-    return hashlib.sha256(f"{canonical}\nsolver {solver.__version__}".encode()).hexdigest()
+    return hashlib.sha256(f"{canonical}\nsolver {solver_fingerprint()}".encode()).hexdigest()
 
 
 @dataclass
@@ -38,75 +43,82 @@ class Planned:
     provenance: Provenance
 
 
-def plan(
-    request: Request,
-    spec: dict[str, Any],
-    fresh: bool,
-    title: str | None = None,
-    study_id: str | None = None,
-    values: dict[str, float] | None = None,
-) -> Planned:
-    """Look for a succeeded job with the same spec hash (unless ``fresh``)."""
-    digest = spec_hash(spec)
-    source = None if fresh else request.app.state.store.find_result(digest)
-    return Planned(
-        spec, Provenance(digest, str(spec.get("title", "")) if title is None else title, source, study_id, values)
-    )
+@dataclass
+class Submission:
+    """The one job-creation path: free space, the per-user cap, reuse, creation and the wake-up."""
 
+    store: Store
+    settings: Settings
+    dispatch: Callable[[str], None]
 
-def check_space(request: Request) -> None:
-    """Refuse (507) new jobs while the data folder has less free space than the service keeps."""
-    settings = request.app.state.settings
-    free = shutil.disk_usage(settings.data_dir).free
-    if free < settings.min_free_bytes:
-        raise HTTPException(
-            507,
-            f"the data folder has {free / 2**20:.0f} MiB free, below the "
-            f"{settings.min_free_mb:.0f} MiB the service keeps: new jobs are refused until space "
-            "is freed (delete jobs that are no longer needed)",
-        )
+    def plan(
+        self,
+        spec: dict[str, Any],
+        fresh: bool,
+        title: str | None = None,
+        study_id: str | None = None,
+        values: dict[str, float] | None = None,
+    ) -> Planned:
+        """Look for a succeeded job with the same spec hash (unless ``fresh``)."""
+        digest = spec_hash(spec)
+        source = None if fresh else self.store.find_result(digest)
+        title = str(spec.get("title", "")) if title is None else title
+        return Planned(spec, Provenance(digest, title, source, study_id, values))
 
+    def check_space(self) -> None:
+        """Refuse (507) new jobs while the data folder has less free space than the service keeps."""
+        free = shutil.disk_usage(self.settings.data_dir).free
+        if free < self.settings.min_free_bytes:
+            raise NoSpace(
+                "(request)",
+                f"the data folder has {free / 2**20:.0f} MiB free, below the "
+                f"{self.settings.min_free_mb:.0f} MiB the service keeps: new jobs are refused until space "
+                "is freed (delete jobs that are no longer needed)",
+            )
 
-def check_cap(request: Request, owner: str, planned: list[Planned]) -> None:
-    """Refuse (429) jobs that would take ``owner`` over the per-user cap of queued + running jobs."""
-    check_room(request, owner, sum(p.provenance.source is None for p in planned))
+    def check_cap(self, owner: str, planned: list[Planned]) -> None:
+        """Refuse (429) jobs that would take ``owner`` over the per-user cap of queued + running jobs."""
+        self.check_room(owner, sum(p.provenance.source is None for p in planned))
 
+    def check_room(self, owner: str, to_run: int) -> None:
+        """Refuse (429) ``to_run`` more jobs if they would take ``owner`` over the cap."""
+        if not to_run:
+            return
+        cap, active = self.settings.max_active_per_user, self.store.active_count(owner)
+        if active + to_run > cap:
+            adding = "" if to_run == 1 else f" and this study would add {to_run} more"
+            raise TooManyJobs(
+                "(request)",
+                f"{owner} already has {active} queued or running jobs{adding}, the limit per user "
+                f"is {cap}: wait for some to finish, cancel some, or split the study",
+            )
 
-def check_room(request: Request, owner: str, to_run: int) -> None:
-    """Refuse (429) ``to_run`` more jobs if they would take ``owner`` over the cap."""
-    if not to_run:
-        return
-    cap, active = request.app.state.settings.max_active_per_user, request.app.state.store.active_count(owner)
-    if active + to_run > cap:
-        adding = "" if to_run == 1 else f" and this study would add {to_run} more"
-        raise HTTPException(
-            429,
-            f"{owner} already has {active} queued or running jobs{adding}, the limit per user "
-            f"is {cap}: wait for some to finish, cancel some, or split the study",
-        )
-
-
-def place(request: Request, owner: str, planned: Planned, tags: list[str]) -> Job:
-    """Create the job; a reused result's files are hard-linked first, so deleting either job never breaks the other.
-
-    If the reused job's files vanish meanwhile (it was deleted), the job is queued to run instead."""
-    state = request.app.state
-    job_id, source = uuid.uuid4().hex, planned.provenance.source
-    if source is not None:
-        target = state.settings.jobs_dir / job_id
-        try:
-            _link_tree(state.settings.jobs_dir / source.id, target)
-        except OSError as err:
-            log.warning("could not reuse the files of job %s (%s): running the case again", source.id, err)
-            shutil.rmtree(target, ignore_errors=True)
-            planned.provenance.source = None
-    job = state.store.create(owner, planned.spec, tags, planned.provenance, job_id)
-    if job.state == "queued":
-        state.dispatch(job.id)
-    return job
+    def place(self, owner: str, planned: Planned, tags: list[str]) -> Job:
+        """Create the job; a reused result's files are hard-linked first, so deleting either job never breaks the
+        other. If the reused job's files vanish meanwhile (it was deleted), the job is queued to run instead."""
+        job_id, source = uuid.uuid4().hex, planned.provenance.source
+        if source is not None:
+            target = self.settings.jobs_dir / job_id
+            try:
+                _link_tree(self.settings.jobs_dir / source.id, target)
+            except OSError as err:
+                log.warning("could not reuse the files of job %s (%s): running the case again", source.id, err)
+                shutil.rmtree(target, ignore_errors=True)
+                planned.provenance.source = None
+        job = self.store.create(owner, planned.spec, tags, planned.provenance, job_id)
+        if job.state == JobState.QUEUED:
+            self.dispatch(job.id)
+        return job
 
 
 def _link_tree(source: Path, target: Path) -> None:
     if not source.is_dir():
         raise FileNotFoundError(f"no result folder {source}")
     shutil.copytree(source, target, copy_function=os.link)
+
+
+async def get_submission(store: StoreDep, settings: SettingsDep, dispatch: DispatchDep) -> Submission:
+    return Submission(store, settings, dispatch)
+
+
+SubmissionDep = Annotated[Submission, Depends(get_submission)]

@@ -7,22 +7,20 @@ for the cases, reference values and their sources). Prints computed against publ
 
 from __future__ import annotations
 
-import os
-
-for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
-    os.environ.setdefault(_var, "1")  # as the worker runs; set before numpy loads
-
-import argparse  # noqa: E402
-import math  # noqa: E402
-import sys  # noqa: E402
-import tempfile  # noqa: E402
-import time  # noqa: E402
-from pathlib import Path  # noqa: E402
+import argparse
+import math
+import sys
+import tempfile
+import time
+from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # the published cases live with the tests
 
-import solver  # noqa: E402
-from tests.solver import published_cases as pc  # noqa: E402
+import solver
+from core.blas import one_blas_thread
+from tests.solver import published_cases as pc
+
+one_blas_thread()  # as the worker runs
 
 
 def compare(label: str, computed: float | None, reference: float, source: str) -> None:

@@ -16,24 +16,22 @@ substitution with stored factors; for the default error-controlled steps also th
 
 from __future__ import annotations
 
-import os
+import argparse
+import resource
+import tempfile
+import time
+from pathlib import Path
 
-for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
-    os.environ.setdefault(_var, "1")  # as the worker runs; set before numpy loads
+import numpy as np
 
-import argparse  # noqa: E402
-import resource  # noqa: E402
-import tempfile  # noqa: E402
-import time  # noqa: E402
-from pathlib import Path  # noqa: E402
+import solver
+from core.blas import one_blas_thread
+from solver import analysis
+from solver.case import Case
+from solver.linear import RepeatedSolver
+from solver.transient import Stepper
 
-import numpy as np  # noqa: E402
-
-import solver  # noqa: E402
-from solver import analysis  # noqa: E402
-from solver.case import Case  # noqa: E402
-from solver.linear import RepeatedSolver  # noqa: E402
-from solver.transient import Stepper  # noqa: E402
+one_blas_thread()  # as the worker runs
 
 # the benchmark's channel, cylinder and fluid, given explicitly (they are not wakeyard's defaults)
 CHANNEL = {"length": 2.2, "height": 0.41}

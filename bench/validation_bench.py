@@ -14,7 +14,8 @@ import numpy as np
 from fastapi.testclient import TestClient
 
 from api.app import create_app
-from api.settings import Settings
+from core.migrate import migrate
+from core.settings import Settings
 from solver import _polygons
 
 
@@ -44,6 +45,7 @@ def main() -> None:
     print(f"overlap check of two 200-point polygons:   {(time.perf_counter() - start) * 100:.2f} ms")
     with tempfile.TemporaryDirectory() as folder:
         settings = Settings(data_dir=Path(folder), workers=0, max_active_per_user=1000)
+        migrate(settings.db_url)
         with TestClient(create_app(settings)) as client:
             for values, axes, cap in ((6, 1, 1000), (100, 1, 1000), (100, 2, 5)):
                 settings.max_active_per_user = cap

@@ -8,11 +8,6 @@ import os
 import sys
 from pathlib import Path
 
-# One BLAS thread per process: the sparse direct solves gain nothing from more, and several
-# workers share the box. Must be set before numpy is first imported.
-for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
-    os.environ.setdefault(_var, "1")
-
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(prog="wakeyard", description="Queued 2D incompressible flow simulations.")
@@ -49,6 +44,8 @@ def main(argv: list[str] | None = None) -> int:
     )
     p_study.add_argument("--wait", action="store_true", help="wait for every point, then print the table (CSV)")
     p_study.add_argument("--fresh", action="store_true", help="run every point even if a result could be reused")
+    p_migrate = sub.add_parser("migrate", help="bring the job store's schema up to date (serve does it too)")
+    p_migrate.add_argument("--data", type=Path)
     p_token = sub.add_parser("token", help="API tokens")
     token_sub = p_token.add_subparsers(dest="token_command", required=True)
     p_create = token_sub.add_parser("create", help="create a token and print it (shown only once)")
@@ -67,6 +64,8 @@ def main(argv: list[str] | None = None) -> int:
     service.configure(getattr(args, "data", None), getattr(args, "workers", None))
     if args.command == "serve":
         return service.serve(args.host, args.port)
+    if args.command == "migrate":
+        return service.migrate()
     if args.command == "worker":
         return service.check_worker() if args.check else service.worker()
     return service.create_token(args.name, args.admin)
@@ -74,7 +73,10 @@ def main(argv: list[str] | None = None) -> int:
 
 def _run(spec_path: Path, out: Path, quiet: bool) -> int:
     import solver
+    from core.blas import one_blas_thread
     from solver.caution import caution_lines
+
+    one_blas_thread()
 
     try:
         data = json.loads(spec_path.read_text())

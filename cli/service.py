@@ -35,13 +35,15 @@ def _loopback(host: str) -> bool:
 
 def serve(host: str, port: int) -> int:
     from api.app import create_app
-    from api.settings import Settings
-    from api.store import Store
+    from core.blas import one_blas_thread
+    from core.settings import Settings
+    from core.store import Store
     from worker.supervisor import Supervisor
 
     from .datalock import DataLock
 
     _log_to_stderr()
+    one_blas_thread()  # the API's own numerical work (previews, study tables) needs no more
     settings = Settings()
     settings.data_dir.mkdir(parents=True, exist_ok=True)
     lock = DataLock(settings.data_dir)
@@ -52,8 +54,11 @@ def serve(host: str, port: int) -> int:
             file=sys.stderr,
         )
         return 2
+    _migrate(settings.db_url, quiet=True)
     store, started = Store(settings.db_url), time.monotonic()
-    if not _loopback(host) and not store.has_tokens():
+    if not _loopback(host) and not store.has_tokens() and settings.first_admin:
+        _first_admin(store, settings.first_admin, settings.data_dir / "first-admin-token")
+    elif not _loopback(host) and not store.has_tokens():
         print(
             f"error: refusing to listen on {host} without API tokens: anyone on the network could run jobs.\n"
             "Create one first with `wakeyard token create NAME`, or serve on 127.0.0.1.",
@@ -106,6 +111,18 @@ def serve(host: str, port: int) -> int:
     os._exit(0)
 
 
+def _first_admin(store: Any, name: str, path: Path) -> None:
+    """The first admin token, written to a file only this user can read: never to the log, and no restart is
+    needed before the service listens (as `wakeyard token create` before the first `serve` would)."""
+    from api.auth import create_token
+
+    token = create_token(store, name, admin=True)
+    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
+    with os.fdopen(fd, "w") as f:
+        f.write(token + "\n")
+    print(f"created the admin token {name!r} in {path.resolve()}: copy it, then delete that file", file=sys.stderr)
+
+
 class _Server(uvicorn.Server):
     """uvicorn's server, but a SIGTERM or SIGINT also starts stopping the workers at once, and is not re-raised
     after the shutdown (uvicorn re-raises it, which would kill serve before it has stopped its workers)."""
@@ -143,13 +160,53 @@ def _log_to_stderr() -> None:
     logging.basicConfig(level=logging.WARNING, format="%(asctime)s %(name)s %(levelname)s: %(message)s")
 
 
+def migrate() -> int:
+    """``wakeyard migrate``: bring the job store to the schema this wakeyard needs, and say what was done."""
+    from core.settings import Settings
+
+    settings = Settings()
+    settings.data_dir.mkdir(parents=True, exist_ok=True)
+    _migrate(settings.db_url, quiet=False)
+    return 0
+
+
+def _migrate(url: str, quiet: bool) -> None:
+    from sqlalchemy.engine import make_url
+
+    from core.migrate import migrate
+
+    before, after = migrate(url)
+    if not quiet or before not in (None, after):
+        shown = make_url(url).render_as_string(hide_password=True)
+        what = f"migrated from revision {before} to {after}" if before != after else f"at revision {after} already"
+        print(f"job store {shown}: {what}", file=sys.stderr)
+
+
+def _wait_for_schema(url: str) -> None:
+    """Workers never migrate: they wait for ``wakeyard serve`` or ``wakeyard migrate`` to have done it."""
+    from core.migrate import head, revision
+
+    told = False
+    while (found := revision(url)) != head():
+        if not told:
+            print(
+                f"waiting for the job store to be migrated (revision {found or 'none'}, needed {head()}): "
+                "`wakeyard serve` or `wakeyard migrate` does it",
+                file=sys.stderr,
+                flush=True,
+            )
+            told = True
+        time.sleep(2.0)
+
+
 def worker() -> int:
-    from api.settings import Settings
-    from api.store import Store
+    from core.settings import Settings
+    from core.store import Store
     from worker.supervisor import Supervisor
 
     _log_to_stderr()
     settings = Settings()
+    _wait_for_schema(settings.db_url)
     supervisor = Supervisor(settings.workers or os.cpu_count() or 1, "info")
     supervising = threading.Thread(target=supervisor.run, name="wakeyard-supervisor")
 
@@ -169,8 +226,8 @@ def check_worker() -> int:
     """For container health checks: a worker process of this host has reported in within the lease."""
     import socket
 
-    from api.settings import Settings
-    from api.store import Store
+    from core.settings import Settings
+    from core.store import Store
 
     settings = Settings()
     seen = Store(settings.db_url).workers_seen(within=settings.lease_seconds, host=socket.gethostname())
@@ -180,11 +237,12 @@ def check_worker() -> int:
 
 def create_token(name: str, admin: bool) -> int:
     from api.auth import create_token
-    from api.settings import Settings
-    from api.store import Store
+    from core.settings import Settings
+    from core.store import Store
 
     settings = Settings()
     settings.data_dir.mkdir(parents=True, exist_ok=True)
+    _migrate(settings.db_url, quiet=True)  # the first token may come before the first serve
     store = Store(settings.db_url)
     if store.has_token_named(name):
         print(f"error: a token named {name!r} exists already", file=sys.stderr)

@@ -18,15 +18,17 @@ FINISHED = ("succeeded", "failed", "cancelled")
 
 
 def _refused(response: httpx.Response) -> int:
-    """Print why the service said no: field messages for a bad study, the detail for anything else."""
+    """Print why the service said no: field messages for a bad study (422), the messages for anything else."""
     try:
         detail: Any = response.json().get("detail")
     except ValueError:
         detail = response.text
-    if isinstance(detail, list):
+    if isinstance(detail, list) and response.status_code == 422:
         for item in detail:
             print(f"invalid study: {item.get('field')}: {item.get('message')}", file=sys.stderr)
     else:
+        if isinstance(detail, list):  # every refusal has the problem shape; only a bad study's fields matter
+            detail = "; ".join(str(item.get("message")) for item in detail)
         print(f"error: the service answered {response.status_code}: {detail}", file=sys.stderr)
     return 2 if response.is_client_error else 1
 

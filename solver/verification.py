@@ -59,6 +59,9 @@ def grid_convergence(
         )
         return GridConvergence(math.nan, p1, abs(e21 / p1) if p1 else 0.0, math.nan, math.nan, False, reason)
     ratio = e32 / e21
+    if abs(abs(ratio) - 1.0) <= 1e-12:
+        reason = "the change between grids does not shrink with refinement: no order can be observed"
+        return GridConvergence(math.nan, p1, _relative(p1 - p2, p1), math.nan, math.nan, ratio > 0, reason)
     s = math.copysign(1.0, ratio)
     p = abs(math.log(abs(ratio))) / math.log(r21)
     for _ in range(200):
@@ -69,12 +72,19 @@ def grid_convergence(
         p = new
     p = new
     extrapolated = (r21**p * p1 - p2) / (r21**p - 1)
-    approx = abs((p1 - p2) / p1)
+    approx = _relative(p1 - p2, p1)
+    reason = None if p1 else "the finest-grid value is 0: errors relative to it (and the GCI) are undefined"
     return GridConvergence(
         observed_order=p,
         extrapolated=extrapolated,
         approximate_error=approx,
-        extrapolated_error=abs((extrapolated - p1) / extrapolated),
+        extrapolated_error=_relative(extrapolated - p1, extrapolated),
         gci_fine=safety_factor * approx / (r21**p - 1),
         monotone=ratio > 0,
+        reason=reason,
     )
+
+
+def _relative(difference: float, reference: float) -> float:
+    """``|difference / reference|``, NaN (undefined, not an error) when the reference is 0."""
+    return abs(difference / reference) if reference else math.nan

@@ -78,7 +78,9 @@ async function request(method, path, {body, query, raw = false, signal} = {}) {
       data = await response.text().catch(() => "");
     }
     const problems = problemsOf(data);
-    let message = problems.map((p) => (p.field ? `${p.field}: ${p.message}` : p.message)).join("; ");
+    // every refusal names its field; a rejected spec's fields are worth showing, a 404's "job_id" is not
+    const named = response.status === 422;
+    let message = problems.map((p) => (named && p.field ? `${p.field}: ${p.message}` : p.message)).join("; ");
     if (response.status === 401) {
       message = getToken() ? `The service did not accept the saved token (${message}). Check it in the Token box at the top.`
         : "The service wants a token: enter yours in the Token box at the top.";

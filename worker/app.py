@@ -1,58 +1,24 @@
-"""The Celery app. The broker only wakes workers; the job store decides which job runs (see api.store)."""
+"""The worker's Celery app and its signals: announce liveness, stop quickly, hand back a running job."""
 
 from __future__ import annotations
 
 import logging
 import os
 import socket
-import sqlite3
 import sys
 import threading
-from collections.abc import Callable
-from pathlib import Path
 
-from celery import Celery
 from celery.signals import task_postrun, worker_ready, worker_shutting_down
 
-from api.settings import Settings
-from api.store import Store
+from core.broker import make_celery
+from core.settings import Settings
+from core.store import Store
 from worker.tasks import BUSY, SHUTDOWN
 
 log = logging.getLogger(__name__)
 
 
-def make_celery(settings: Settings) -> Celery:
-    """Celery app for ``settings``: early acknowledgement (the job-table lease, not the broker, recovers jobs)."""
-    app = Celery("wakeyard", broker=settings.celery_broker, include=["worker.tasks"])
-    app.conf.update(
-        task_default_queue=settings.queue,
-        task_ignore_result=True,
-        task_acks_late=False,
-        worker_prefetch_multiplier=1,
-        worker_concurrency=settings.workers or None,  # None: one per core
-        broker_connection_retry_on_startup=True,
-        # the SQLAlchemy transport hands these to create_engine
-        broker_transport_options={"creator": _sqlite_opener(settings.data_dir / "broker.sqlite")}
-        if not settings.broker_url
-        else {},
-    )
-    return app
-
-
-def _sqlite_opener(path: Path) -> Callable[[], sqlite3.Connection]:
-    """Connections to the embedded broker: WAL without an fsync per message, waiting on locks instead of failing."""
-
-    def connect() -> sqlite3.Connection:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        conn = sqlite3.connect(path.resolve(), timeout=30, check_same_thread=False)
-        conn.execute("PRAGMA journal_mode=WAL")
-        conn.execute("PRAGMA synchronous=NORMAL")
-        return conn
-
-    return connect
-
-
-app = make_celery(Settings())
+app = make_celery(Settings(), include=["worker.tasks"])
 
 
 _stop_announcing = threading.Event()

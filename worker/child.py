@@ -26,8 +26,11 @@ def die_with_parent(parent: int) -> None:
 
 def main(loglevel: str) -> None:
     die_with_parent(int(os.environ["WAKEYARD_SUPERVISOR_PID"]))
-    from api.settings import Settings
+    from core.blas import one_blas_thread
+    from core.settings import Settings
     from worker.app import app
+
+    one_blas_thread()
 
     # mingle, gossip and event heartbeats sync worker state; ours lives in the job store
     app.worker_main(

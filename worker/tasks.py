@@ -14,9 +14,11 @@ from celery import shared_task
 from sqlalchemy.exc import SQLAlchemyError
 
 import solver
-from api.disk import DiskReserve, disk_full
-from api.settings import Settings
-from api.store import Claimed, Store, finite
+from core.broker import TASK
+from core.disk import DiskReserve, disk_full
+from core.settings import Settings
+from core.states import JobState
+from core.store import Claimed, Store, finite
 
 log = logging.getLogger(__name__)
 
@@ -43,7 +45,7 @@ SHUTDOWN = threading.Event()
 BUSY = threading.Event()  # a task is running in this (solo-pool) process
 
 
-@shared_task(name="wakeyard.run_next")
+@shared_task(name=TASK)
 def run_next(hint: str | None = None) -> str | None:
     """Run the next queued job, if any; ``hint`` (the submitted job id) is for logs only."""
     if SHUTDOWN.is_set():
@@ -129,22 +131,22 @@ class _Attempt:
                 wall_time_limit=self.settings.max_wall_time,
                 resume=True,
             )
-            state, error = "succeeded", None
+            state, error = JobState.SUCCEEDED, None
         except solver.Cancelled as err:
-            state, error = "cancelled", str(err)
+            state, error = JobState.CANCELLED, str(err)
         except solver.InternalError as err:  # the message names the stage; the log keeps the traceback
             log.exception("job %s failed in %s", self.job.id, err.stage)
-            state, error = "failed", str(err)
+            state, error = JobState.FAILED, str(err)
         except (solver.RunFailed, solver.SpecError) as err:
-            state, error = "failed", str(err)
+            state, error = JobState.FAILED, str(err)
         except Exception as err:  # record every failure: a job must never stay "running" silently
-            state, error = "failed", _unexpected(self.job.id, err)
+            state, error = JobState.FAILED, _unexpected(self.job.id, err)
         finally:
             self.done.set()
             beater.join()
         if self.lost:
             return
-        if state == "cancelled" and not self.stop.is_set():  # stopped by SIGTERM, not by a cancel request
+        if state == JobState.CANCELLED and not self.stop.is_set():  # stopped by SIGTERM, not by a cancel request
             if self.store.release(self.job.id, self.job.claim):
                 log.warning("job %s handed back to the queue: this worker is stopping", self.job.id)
             return

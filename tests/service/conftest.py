@@ -13,6 +13,7 @@ import sqlalchemy
 from fastapi.testclient import TestClient
 
 from api.app import create_app
+from core.migrate import migrate
 
 from .helpers import REDIS_DB, Worker, settings_for
 
@@ -49,9 +50,16 @@ def offline(tmp_path: Path) -> Iterator[TestClient]:
         yield client
 
 
+@pytest.fixture
+def store_url(blank_store_url: str) -> str:
+    """A fresh job store on SQLite or on PostgreSQL, migrated to the newest schema."""
+    migrate(blank_store_url)
+    return blank_store_url
+
+
 @pytest.fixture(params=["sqlite", "postgresql"])
-def store_url(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[str]:
-    """A fresh job store on SQLite or on PostgreSQL (in a schema of its own, dropped afterwards)."""
+def blank_store_url(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[str]:
+    """An empty database on SQLite or on PostgreSQL (in a schema of its own, dropped afterwards)."""
     if request.param == "sqlite":
         yield f"sqlite:///{tmp_path}/store.sqlite"
         return

@@ -14,7 +14,8 @@ from typing import Any
 
 from fastapi.testclient import TestClient
 
-from api.settings import Settings
+from core.migrate import migrate
+from core.settings import Settings
 
 from .hold import Hold
 
@@ -58,7 +59,10 @@ def settings_for(folder: Path, queue: str, broker: str, **extra: Any) -> Setting
         "workers": 1,
     }
     values.update(extra)
-    return Settings(**values)
+    settings = Settings(**values)
+    settings.data_dir.mkdir(parents=True, exist_ok=True)
+    migrate(settings.db_url)  # as `wakeyard serve` does before it starts the API
+    return settings
 
 
 def environment(settings: Settings) -> dict[str, str]:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import signal
 import socket
 import subprocess
@@ -69,6 +70,7 @@ def test_open_address_needs_a_token_and_token_create_prints_one(tmp_path: Path) 
         [*WAKEYARD, "serve", "--host", "0.0.0.0", "--data", str(tmp_path)], capture_output=True, text=True, timeout=60
     )
     assert refused.returncode == 2 and "without API tokens" in refused.stderr
+    assert "\\n" not in refused.stderr and "\nCreate one first" in refused.stderr  # two lines, no literal \n
     made = subprocess.run(
         [*WAKEYARD, "token", "create", "ana", "--data", str(tmp_path)], capture_output=True, text=True, timeout=60
     )
@@ -79,3 +81,28 @@ def test_open_address_needs_a_token_and_token_create_prints_one(tmp_path: Path) 
         [*WAKEYARD, "token", "create", "ana", "--data", str(tmp_path)], capture_output=True, text=True, timeout=60
     )
     assert again.returncode == 2 and "exists already" in again.stderr
+
+
+def test_first_admin_token_lets_serve_listen_openly_without_a_restart(tmp_path: Path) -> None:
+    """The compose API's case: no token exists yet, and serve on 0.0.0.0 makes the first admin token itself."""
+    port = _free_port()
+    env = {**os.environ, "WAKEYARD_FIRST_ADMIN": "ops", "WAKEYARD_WORKERS": "0"}
+    run = [*WAKEYARD, "serve", "--host", "0.0.0.0", "--port", str(port), "--data", str(tmp_path)]
+    proc = subprocess.Popen(run, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    try:
+        deadline, answer = time.monotonic() + 60, None
+        while answer is None and time.monotonic() < deadline and proc.poll() is None:
+            try:
+                answer = httpx.get(f"http://127.0.0.1:{port}/api/v1/jobs", timeout=2)
+            except httpx.TransportError:
+                time.sleep(0.2)
+        assert answer is not None and answer.status_code == 401, proc.poll()
+        saved = tmp_path / "first-admin-token"
+        token = saved.read_text().strip()
+        assert saved.stat().st_mode & 0o777 == 0o600 and token.startswith("wy_")
+        mine = httpx.get(f"http://127.0.0.1:{port}/api/v1/jobs", headers={"Authorization": f"Bearer {token}"})
+        assert mine.status_code == 200
+    finally:
+        proc.send_signal(signal.SIGINT)
+        _, err = proc.communicate(timeout=30)
+    assert "created the admin token 'ops'" in err and token not in err

@@ -6,7 +6,7 @@ from pathlib import Path
 
 from fastapi.testclient import TestClient
 
-from api.store import Store
+from core.store import Store
 from tests.solver.test_post_processing import TANDEM
 from worker.tasks import _Attempt
 

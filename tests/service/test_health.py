@@ -12,7 +12,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy import text
 
 from api.app import create_app
-from api.store import Store
+from core.store import Store
 
 from .helpers import environment, settings_for
 from .test_cli import WAKEYARD
@@ -54,7 +54,7 @@ def test_free_disk_below_the_threshold_is_degraded(tmp_path: Path) -> None:
         assert r.status_code == 503 and r.json()["free_disk_bytes"] > 0
         assert "MiB free in the data folder, below 1000000000 MiB" in r.json()["problems"][0]
         metrics = client.get("/metrics").text
-        shown = int(re.search(r"^wakeyard_free_disk_bytes (\d+)$", metrics, re.MULTILINE).group(1))
+        shown = float(re.search(r"^wakeyard_free_disk_bytes (\S+)$", metrics, re.MULTILINE).group(1))
         assert abs(shown - r.json()["free_disk_bytes"]) < 2**30 and "wakeyard_healthy 0" in metrics  # others write
 
 

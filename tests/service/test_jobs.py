@@ -10,7 +10,7 @@ import zipfile
 
 from fastapi.testclient import TestClient
 
-from api.store import Store
+from core.store import Store
 from solver.caution import CAUTION
 
 from .helpers import finished, tiny, wait_for

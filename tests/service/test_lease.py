@@ -12,7 +12,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy import update
 
 from api.app import create_app
-from api.store import Job, Store, utcnow
+from core.store import Job, Store, utcnow
 
 from .helpers import Hold, Worker, finished, settings_for, tiny, wait_for
 
@@ -85,3 +85,25 @@ def test_kill_9_of_a_pool_child_requeues_and_the_same_worker_finishes(tmp_path: 
             assert worker.proc.poll() is None  # the worker replaced its child and carried on
     finally:
         worker.stop()
+
+
+def test_reaper_resends_lost_wake_ups_without_local_workers(tmp_path: Path) -> None:
+    """``serve --workers 0`` (the compose API): wake-ups lost while the workers sat idle are still re-sent, one per
+    worker process seen in the store, at least one."""
+    from api.reaper import Reaper
+    from core.disk import DiskReserve
+
+    settings = settings_for(tmp_path, "wakeyard-reaper", broker="", workers=0)
+    store, sent = Store(settings.db_url), []
+    reaper = Reaper(settings, store, sent.append, DiskReserve(tmp_path))
+    try:
+        queued = [store.create("ana", tiny(), []).id for _ in range(3)]
+        reaper.tick()
+        assert sent == queued[:1]
+        store.worker_alive("box-a:1")
+        store.worker_alive("box-b:2")
+        sent.clear()
+        reaper.tick()
+        assert sent == queued[:2]
+    finally:
+        reaper.broker_db.dispose()  # the reaper's thread never started: tick() ran here

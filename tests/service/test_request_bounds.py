@@ -24,7 +24,7 @@ def _sweep(path: str, values: list[float]) -> dict:
 def test_the_cap_comes_before_the_points_are_checked(offline: TestClient) -> None:
     """Four points over a cap of three: 429 although point 1 is invalid (checking it would have given 422)."""
     r = offline.post("/api/v1/studies", json=_sweep("bodies.0.radius", [0.05, -0.01, 0.02, 0.03]))
-    assert r.status_code == 429 and "would add 4" in r.json()["detail"]
+    assert r.status_code == 429 and "would add 4" in r.json()["detail"][0]["message"]
     r = offline.post("/api/v1/studies", json=_sweep("bodies.0.radius", [0.05, -0.01, 0.02]))
     assert r.status_code == 422 and [d["field"] for d in r.json()["detail"]] == ["points.1.bodies.0.radius"]
 

@@ -16,7 +16,7 @@ import httpx
 import numpy as np
 import pytest
 
-from api.store import Store
+from core.store import Store
 
 from .helpers import finished, tiny
 from .test_cli import WAKEYARD, _children, _free_port

@@ -81,7 +81,7 @@ def test_per_user_cap_is_429_with_the_limit(offline: TestClient) -> None:
         assert offline.post("/api/v1/jobs", json=tiny()).status_code == 202
     r = offline.post("/api/v1/jobs", json=tiny())
     assert r.status_code == 429
-    assert "limit per user is 3" in r.json()["detail"]
+    assert "limit per user is 3" in r.json()["detail"][0]["message"]
     first = offline.get("/api/v1/jobs").json()["jobs"][-1]["id"]
     assert offline.post(f"/api/v1/jobs/{first}/cancel").json()["state"] == "cancelled"
     assert offline.post("/api/v1/jobs", json=tiny()).status_code == 202

@@ -49,6 +49,23 @@ def test_round_off_differences_give_no_order_with_the_reason():
     assert real.observed_order == pytest.approx(2.0, rel=1e-6) and real.reason is None
 
 
+def test_zero_finest_value_gives_order_but_no_relative_error():
+    """A lift coefficient that is 0 on the finest grid (a symmetric body) once divided by zero."""
+    h = (0.5, 1.0, 2.0)
+    g = grid_convergence(h, tuple(0.2 * x**2 - 0.05 for x in h))  # 0 on the finest grid, second order
+    assert g.observed_order == pytest.approx(2.0, rel=1e-9) and g.extrapolated == pytest.approx(-0.05, rel=1e-9)
+    assert math.isnan(g.approximate_error) and math.isnan(g.gci_fine) and "finest-grid value is 0" in g.reason
+
+
+def test_differences_that_do_not_shrink_give_no_order():
+    """A ratio of differences of exactly 1 (no convergence at all) once divided by zero."""
+    g = grid_convergence((1.0, 2.0, 4.0), (1.0, 1.1, 1.2))
+    assert math.isnan(g.observed_order) and math.isnan(g.gci_fine) and g.extrapolated == 1.0
+    assert "does not shrink" in g.reason and g.monotone
+    g = grid_convergence((1.0, 2.0, 4.0), (1.0, 1.1, 1.0))  # oscillating with equal steps
+    assert math.isnan(g.observed_order) and not g.monotone
+
+
 def test_mesh_study_extrapolates_2d1_drag_towards_reference(tmp_path):
     # benchmark 2D-1 (Schäfer & Turek 1996): cD = 5.57953523384 from the FEATFLOW group's online reference values,
     # digits recalled (see tests/solver/test_benchmarks.py for the exact source note). The bounds below

@@ -28,6 +28,12 @@ class Settings(BaseSettings):
     lease_seconds: float = Field(60.0, gt=0, description="a running job whose heartbeat is older is re-queued")
     reaper_seconds: float = Field(5.0, gt=0, description="how often the API looks for expired leases")
     max_attempts: int = Field(3, ge=1)
+    first_admin: str = Field(
+        "",
+        max_length=100,
+        description="serve on a network address while no token exists: create an admin token of this name first "
+        "and write it to first-admin-token in the data folder (a container needs no token made beforehand)",
+    )
     min_free_mb: float = Field(
         512.0,
         ge=0,

@@ -1,0 +1,42 @@
+"""The job store (SQLAlchemy 2): the single source of truth for job state; broker messages only wake workers.
+
+One class, :class:`Store`, made of one part per concern: jobs, studies, tokens, leases (claims, heartbeats and
+the worker processes' liveness).
+"""
+
+from __future__ import annotations
+
+from sqlalchemy.orm import sessionmaker
+
+from .engine import make_engine
+from .jobs import Jobs, Provenance
+from .leases import Claimed, Leases
+from .models import Base, Job, JobTag, Study, Token, WorkerSeen
+from .studies import Studies
+from .tokens import Tokens
+from .values import finite, utcnow
+
+
+class Store(Jobs, Studies, Tokens, Leases):
+    """Job-store operations used by the API, the workers and the lease reaper."""
+
+    def __init__(self, url: str):
+        """Connect only: the schema is brought up to date once, by ``core.migrate`` (``wakeyard migrate``)."""
+        self.engine = make_engine(url)
+        self.session = sessionmaker(self.engine, expire_on_commit=False)
+        self._token_users = {}
+
+
+__all__ = [
+    "Base",
+    "Claimed",
+    "Job",
+    "JobTag",
+    "Provenance",
+    "Store",
+    "Study",
+    "Token",
+    "WorkerSeen",
+    "finite",
+    "utcnow",
+]

@@ -1,0 +1,99 @@
+"""The job store's tables (SQLAlchemy 2 declarative models); their history is in ``core/migrations``."""
+
+from __future__ import annotations
+
+from datetime import UTC, datetime
+from typing import Any
+
+from sqlalchemy import JSON, Boolean, DateTime, Float, ForeignKey, Index, Integer, String, Text, TypeDecorator
+from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
+
+
+class UTCDateTime(TypeDecorator[datetime]):
+    """Naive UTC in the database (sortable text in SQLite), aware UTC in Python."""
+
+    impl = DateTime
+    cache_ok = True
+
+    def process_bind_param(self, value: datetime | None, dialect: Any) -> datetime | None:
+        return value.astimezone(UTC).replace(tzinfo=None) if value is not None else None
+
+    def process_result_value(self, value: datetime | None, dialect: Any) -> datetime | None:
+        return value.replace(tzinfo=UTC) if value is not None else None
+
+
+class Base(DeclarativeBase):
+    pass
+
+
+class Job(Base):
+    __tablename__ = "jobs"
+    __table_args__ = (  # the two look-ups every creation makes, answered from the index alone
+        Index("ix_jobs_owner_state", "owner", "state"),
+        Index("ix_jobs_hash_state", "spec_hash", "state"),
+    )
+
+    seq: Mapped[int] = mapped_column(Integer, primary_key=True, autoincrement=True)
+    id: Mapped[str] = mapped_column(String(32), unique=True, index=True)
+    state: Mapped[str] = mapped_column(String(16), index=True)  # a core.states.JobState value
+    owner: Mapped[str] = mapped_column(String(100), index=True)
+    title: Mapped[str] = mapped_column(String(200), default="")
+    spec: Mapped[dict[str, Any]] = mapped_column(JSON)
+    tags: Mapped[list[str]] = mapped_column(JSON, default=list)
+    created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+    started_at: Mapped[datetime | None] = mapped_column(UTCDateTime)
+    finished_at: Mapped[datetime | None] = mapped_column(UTCDateTime)
+    heartbeat_at: Mapped[datetime | None] = mapped_column(UTCDateTime)
+    attempts: Mapped[int] = mapped_column(Integer, default=0)
+    claim: Mapped[str | None] = mapped_column(String(32))
+    worker_host: Mapped[str | None] = mapped_column(String(200))
+    cancel_requested: Mapped[bool] = mapped_column(Boolean, default=False)
+    progress_fraction: Mapped[float] = mapped_column(Float, default=0.0)
+    progress_step: Mapped[int] = mapped_column(Integer, default=0)
+    progress_time: Mapped[float] = mapped_column(Float, default=0.0)
+    eta_seconds: Mapped[float | None] = mapped_column(Float)
+    summary: Mapped[dict[str, Any] | None] = mapped_column(JSON)
+    error: Mapped[str | None] = mapped_column(Text)
+    spec_hash: Mapped[str | None] = mapped_column(String(64), index=True)
+    reused_from: Mapped[str | None] = mapped_column(String(32))
+    study_id: Mapped[str | None] = mapped_column(ForeignKey("studies.id"), index=True)
+    study_values: Mapped[dict[str, float] | None] = mapped_column(JSON)
+
+
+class Study(Base):
+    """A parameter study; its state and progress derive from its jobs (``Job.study_id``)."""
+
+    __tablename__ = "studies"
+
+    seq: Mapped[int] = mapped_column(Integer, primary_key=True, autoincrement=True)
+    id: Mapped[str] = mapped_column(String(32), unique=True, index=True)
+    kind: Mapped[str] = mapped_column(String(32))
+    title: Mapped[str] = mapped_column(String(200), default="")
+    owner: Mapped[str] = mapped_column(String(100), index=True)
+    spec: Mapped[dict[str, Any]] = mapped_column(JSON)
+    created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+
+
+class JobTag(Base):
+    """One row per (job, tag): portable tag filtering on SQLite and PostgreSQL."""
+
+    __tablename__ = "job_tags"
+
+    job_seq: Mapped[int] = mapped_column(ForeignKey("jobs.seq", ondelete="CASCADE"), primary_key=True)
+    tag: Mapped[str] = mapped_column(String(64), primary_key=True, index=True)
+
+
+class Token(Base):
+    __tablename__ = "tokens"
+
+    name: Mapped[str] = mapped_column(String(100), primary_key=True)
+    digest: Mapped[str] = mapped_column(String(64), unique=True, index=True)
+    admin: Mapped[bool] = mapped_column(Boolean, default=False)
+    created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+
+
+class WorkerSeen(Base):
+    __tablename__ = "workers"
+
+    name: Mapped[str] = mapped_column(String(200), primary_key=True)
+    seen_at: Mapped[datetime] = mapped_column(UTCDateTime)

@@ -1,0 +1,82 @@
+"""Alembic migrations of the job store: the baseline equals the models, a store made before migrations (and before
+studies) is brought up to date, and nothing migrates when a connection or a Store is made."""
+
+from __future__ import annotations
+
+import subprocess
+from pathlib import Path
+
+import sqlalchemy
+from alembic.autogenerate import compare_metadata
+from alembic.runtime.migration import MigrationContext
+
+from api.submission import spec_hash
+from core.migrate import head, migrate, revision
+from core.store import Base, Job, Provenance, Store
+
+from .test_cli import WAKEYARD
+from .test_studies import steady
+
+
+def test_the_migrations_make_exactly_the_models_tables(blank_store_url: str) -> None:
+    assert migrate(blank_store_url) == (None, head())
+    engine = sqlalchemy.create_engine(blank_store_url)
+    try:
+        with engine.connect() as conn:
+            assert compare_metadata(MigrationContext.configure(conn), Base.metadata) == []
+    finally:
+        engine.dispose()
+    assert migrate(blank_store_url) == (head(), head())  # a second run changes nothing
+
+
+def test_a_store_is_never_migrated_by_connecting(blank_store_url: str) -> None:
+    store = Store(blank_store_url)
+    store.ping()
+    assert sqlalchemy.inspect(store.engine).get_table_names() == [] and revision(blank_store_url) is None
+    store.engine.dispose()
+
+
+def test_a_job_store_from_before_migrations_and_studies_is_upgraded(blank_store_url: str) -> None:
+    """The jobs table as the first release made it (no reuse or study columns, no other tables, no version)."""
+    new = {"spec_hash", "reused_from", "study_id", "study_values"}
+    old = sqlalchemy.MetaData()
+    sqlalchemy.Table(
+        "jobs",
+        old,
+        *[
+            sqlalchemy.Column(c.name, c.type, primary_key=c.primary_key)
+            for c in Job.__table__.columns
+            if c.name not in new
+        ],
+    )
+    engine = sqlalchemy.create_engine(blank_store_url)
+    old.create_all(engine)
+    engine.dispose()
+    assert migrate(blank_store_url) == (None, head())
+    store = Store(blank_store_url)
+    spec = steady("upgrade")
+    job = store.create("ana", spec, [], Provenance(spec_hash(spec), "upgrade"))
+    claimed = store.claim_next("w")
+    store.finish(claimed.id, claimed.claim, "succeeded", {"bodies": []})
+    assert store.find_result(spec_hash(spec)).id == job.id
+    inspector = sqlalchemy.inspect(store.engine)
+    assert {"ix_jobs_spec_hash", "ix_jobs_study_id"} <= {i["name"] for i in inspector.get_indexes("jobs")}
+    assert {"studies", "tokens", "workers", "job_tags"} <= set(inspector.get_table_names())
+    store.engine.dispose()
+
+
+def test_wakeyard_migrate_says_what_it_did_and_the_api_refuses_an_old_store(tmp_path: Path) -> None:
+    from api.app import create_app
+    from core.settings import Settings
+
+    settings = Settings(data_dir=tmp_path, workers=0)
+    try:
+        create_app(settings)
+        raise AssertionError("an unmigrated store was accepted")
+    except RuntimeError as err:
+        assert "run `wakeyard migrate`" in str(err)
+    run = [*WAKEYARD, "migrate", "--data", str(tmp_path)]
+    first = subprocess.run(run, capture_output=True, text=True, timeout=60)
+    assert first.returncode == 0 and f"migrated from revision None to {head()}" in first.stderr, first.stderr
+    again = subprocess.run(run, capture_output=True, text=True, timeout=60)
+    assert again.returncode == 0 and f"at revision {head()} already" in again.stderr
