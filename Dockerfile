@@ -9,8 +9,9 @@ COPY pyproject.toml .
 RUN python -c 'import tomllib; print("\n".join(tomllib.load(open("pyproject.toml", "rb"))["project"]["dependencies"]))' \
         > /tmp/requirements.txt && pip install --no-cache-dir -r /tmp/requirements.txt
 COPY . .
-# editable, so that api/ finds the page in /src/web (web/ is not package data yet)
-RUN pip install --no-cache-dir --no-deps -e .
+# a normal (not editable) install: the page ships inside the package; the source folder is not needed afterwards
+RUN pip install --no-cache-dir --no-deps . && cd / && rm -rf /src
+WORKDIR /
 RUN useradd --create-home wakeyard && mkdir /data && chown wakeyard /data
 USER wakeyard
 ENV WAKEYARD_DATA_DIR=/data

@@ -4,20 +4,20 @@ from __future__ import annotations
 
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
-from pathlib import Path
+from importlib import resources
 from typing import Any
 
 from fastapi import FastAPI
 from fastapi.staticfiles import StaticFiles
 
-import solver
-from core.broker import make_celery
-from core.disk import DiskReserve
-from core.migrate import head, revision
-from core.settings import Settings
-from core.store import Store
-from solver.caution import CAUTION
-from solver.study import StudySpec
+from wakeyard import solver
+from wakeyard.core.broker import make_celery
+from wakeyard.core.disk import DiskReserve
+from wakeyard.core.migrate import head, revision
+from wakeyard.core.settings import Settings
+from wakeyard.core.store import Store
+from wakeyard.solver.caution import CAUTION
+from wakeyard.solver.study import StudySpec
 
 from . import routes_files, routes_jobs, routes_ops, routes_studies
 from .dispatch import Dispatcher
@@ -27,7 +27,7 @@ from .problems import install
 from .reaper import Reaper
 from .text_checks import RefuseNul
 
-WEB = Path(__file__).resolve().parent.parent / "web"
+WEB = resources.files("wakeyard.web")  # package data: the page's files, wherever wakeyard is installed
 
 
 def create_app(settings: Settings | None = None) -> FastAPI:
@@ -68,8 +68,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     for module in (routes_jobs, routes_files, routes_studies, routes_ops):
         app.include_router(module.router)
     _document_spec(app)
-    WEB.mkdir(exist_ok=True)
-    app.mount("/", StaticFiles(directory=WEB, html=True), name="web")
+    app.mount("/", StaticFiles(directory=str(WEB), html=True), name="web")
     return app
 
 

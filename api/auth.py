@@ -5,7 +5,7 @@ from __future__ import annotations
 import hashlib
 import secrets
 
-from core.store import Store
+from wakeyard.core.store import Store
 
 
 def digest(token: str) -> str:

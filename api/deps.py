@@ -13,9 +13,9 @@ from fastapi import Depends, Request
 from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
 from starlette.concurrency import run_in_threadpool
 
-from core.disk import DiskReserve
-from core.settings import Settings
-from core.store import Store
+from wakeyard.core.disk import DiskReserve
+from wakeyard.core.settings import Settings
+from wakeyard.core.store import Store
 
 from .auth import digest
 from .dispatch import Dispatcher

@@ -12,7 +12,7 @@ import threading
 
 from celery import Celery
 
-from core.broker import TASK
+from wakeyard.core.broker import TASK
 
 log = logging.getLogger(__name__)
 

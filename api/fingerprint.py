@@ -11,7 +11,7 @@ from functools import cache
 from importlib import metadata
 from pathlib import Path
 
-import solver
+from wakeyard import solver
 
 # the libraries whose results the solver passes on (a new release may change the last digits)
 NUMERICAL = ("numpy", "scipy", "scikit-fem", "gmsh", "pypardiso")

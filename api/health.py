@@ -12,9 +12,9 @@ from typing import Any
 
 from celery import Celery
 
-from core.settings import Settings
-from core.states import JobState
-from core.store import Store
+from wakeyard.core.settings import Settings
+from wakeyard.core.states import JobState
+from wakeyard.core.store import Store
 
 
 @dataclass

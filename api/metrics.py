@@ -12,9 +12,9 @@ from prometheus_client.core import GaugeMetricFamily, Metric
 from prometheus_client.registry import Collector
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
-from core.settings import Settings
-from core.states import JobState
-from core.store import Store
+from wakeyard.core.settings import Settings
+from wakeyard.core.states import JobState
+from wakeyard.core.store import Store
 
 from .health import check
 

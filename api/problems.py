@@ -16,7 +16,7 @@ from fastapi.responses import JSONResponse
 from sqlalchemy.exc import SQLAlchemyError
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
-from core.disk import disk_full
+from wakeyard.core.disk import disk_full
 
 Problems = list[tuple[str, str]]
 

@@ -11,10 +11,10 @@ from datetime import datetime, timedelta
 from sqlalchemy import create_engine, text
 from sqlalchemy.exc import OperationalError
 
-from core.disk import DiskReserve
-from core.settings import Settings
-from core.states import JobState
-from core.store import Store
+from wakeyard.core.disk import DiskReserve
+from wakeyard.core.settings import Settings
+from wakeyard.core.states import JobState
+from wakeyard.core.store import Store
 
 log = logging.getLogger(__name__)
 

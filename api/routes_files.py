@@ -12,9 +12,9 @@ from typing import IO, Any
 from fastapi import APIRouter
 from fastapi.responses import FileResponse, StreamingResponse
 
-from core.settings import Settings
-from core.store import Store
-from solver.caution import CAUTION, caution_lines
+from wakeyard.core.settings import Settings
+from wakeyard.core.store import Store
+from wakeyard.solver.caution import CAUTION, caution_lines
 
 from .deps import SettingsDep, StoreDep, UserDep
 from .problems import NotFound

@@ -11,11 +11,11 @@ from fastapi import APIRouter, Body, Query
 from fastapi.responses import JSONResponse
 from sqlalchemy.engine import Row
 
-import solver
-from core.settings import Settings
-from core.states import ACTIVE, JobState
-from core.store import Job, Store
-from solver.caution import CAUTION
+from wakeyard import solver
+from wakeyard.core.settings import Settings
+from wakeyard.core.states import ACTIVE, JobState
+from wakeyard.core.store import Job, Store
+from wakeyard.solver.caution import CAUTION
 
 from .deps import ReserveDep, SettingsDep, StoreDep, User, UserDep
 from .problems import Conflict, Forbidden, NotFound, SpecProblems

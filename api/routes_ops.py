@@ -6,7 +6,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import JSONResponse, Response
 from prometheus_client import CONTENT_TYPE_LATEST, generate_latest
 
-from solver.caution import CAUTION
+from wakeyard.solver.caution import CAUTION
 
 from .deps import SettingsDep, StoreDep
 from .health import check

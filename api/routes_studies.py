@@ -9,11 +9,11 @@ from typing import Annotated, Any
 from fastapi import APIRouter, Body, Query
 from fastapi.responses import JSONResponse, Response
 
-import solver
-from core.states import ACTIVE
-from core.store import Job, Store, Study
-from solver.caution import CAUTION
-from solver.study import StudySpec, expand
+from wakeyard import solver
+from wakeyard.core.states import ACTIVE
+from wakeyard.core.store import Job, Store, Study
+from wakeyard.solver.caution import CAUTION
+from wakeyard.solver.study import StudySpec, expand
 
 from . import studies
 from .deps import StoreDep, UserDep

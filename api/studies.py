@@ -8,12 +8,12 @@ from typing import Any
 
 import numpy as np
 
-import solver
-from core.states import ACTIVE, JobState
-from core.store import Job, Study, finite
-from solver.caution import CAUTION
-from solver.study import convergence, summary_values
-from solver.units import labelled, spec_unit, value_unit
+from wakeyard import solver
+from wakeyard.core.states import ACTIVE, JobState
+from wakeyard.core.store import Job, Study, finite
+from wakeyard.solver.caution import CAUTION
+from wakeyard.solver.study import convergence, summary_values
+from wakeyard.solver.units import labelled, spec_unit, value_unit
 
 
 def varied(study: Study) -> list[str]:

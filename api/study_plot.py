@@ -7,8 +7,8 @@ import io
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
-from solver.caution import add_footer
-from solver.units import labelled, spec_unit, value_unit
+from wakeyard.solver.caution import add_footer
+from wakeyard.solver.units import labelled, spec_unit, value_unit
 
 Point = tuple[dict[str, float], float]  # (varied values, summary value)
 

@@ -19,9 +19,9 @@ from typing import Annotated, Any
 
 from fastapi import Depends
 
-from core.settings import Settings
-from core.states import JobState
-from core.store import Job, Provenance, Store
+from wakeyard.core.settings import Settings
+from wakeyard.core.states import JobState
+from wakeyard.core.store import Job, Provenance, Store
 
 from .deps import DispatchDep, SettingsDep, StoreDep
 from .fingerprint import solver_fingerprint

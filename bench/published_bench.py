@@ -16,9 +16,9 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # the published cases live with the tests
 
-import solver
-from core.blas import one_blas_thread
 from tests.solver import published_cases as pc
+from wakeyard import solver
+from wakeyard.core.blas import one_blas_thread
 
 one_blas_thread()  # as the worker runs
 

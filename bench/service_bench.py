@@ -27,7 +27,7 @@ from typing import Any
 import httpx
 import redis
 
-import solver
+from wakeyard import solver
 
 REDIS_URL = "redis://127.0.0.1:6379/6"
 CREATIONS, READS, CLIENTS, LATENCY_JOBS = 400, 2000, 8, 5
@@ -68,7 +68,7 @@ class Service:
             [
                 sys.executable,
                 "-c",
-                "import sys; from cli.main import main; sys.exit(main())",
+                "import sys; from wakeyard.cli.main import main; sys.exit(main())",
                 "serve",
                 "--port",
                 str(self.port),

@@ -24,12 +24,12 @@ from pathlib import Path
 
 import numpy as np
 
-import solver
-from core.blas import one_blas_thread
-from solver import analysis
-from solver.case import Case
-from solver.linear import RepeatedSolver
-from solver.transient import Stepper
+from wakeyard import solver
+from wakeyard.core.blas import one_blas_thread
+from wakeyard.solver import analysis
+from wakeyard.solver.case import Case
+from wakeyard.solver.linear import RepeatedSolver
+from wakeyard.solver.transient import Stepper
 
 one_blas_thread()  # as the worker runs
 

@@ -47,7 +47,7 @@ def one(sig: signal.Signals, busy: bool) -> tuple[float, str]:
     with tempfile.TemporaryDirectory() as folder:
         port, log = _free_port(), Path(folder) / "serve.log"
         proc = subprocess.Popen(
-            [sys.executable, "-m", "cli", "serve", "--port", str(port), "--data", folder, "--workers", "1"],
+            [sys.executable, "-m", "wakeyard.cli", "serve", "--port", str(port), "--data", folder, "--workers", "1"],
             stdout=log.open("w"),
             stderr=subprocess.STDOUT,
             start_new_session=True,

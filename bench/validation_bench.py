@@ -13,10 +13,10 @@ from pathlib import Path
 import numpy as np
 from fastapi.testclient import TestClient
 
-from api.app import create_app
-from core.migrate import migrate
-from core.settings import Settings
-from solver import _polygons
+from wakeyard.api.app import create_app
+from wakeyard.core.migrate import migrate
+from wakeyard.core.settings import Settings
+from wakeyard.solver import _polygons
 
 
 def polygons() -> list[dict]:

@@ -72,9 +72,9 @@ def main(argv: list[str] | None = None) -> int:
 
 
 def _run(spec_path: Path, out: Path, quiet: bool) -> int:
-    import solver
-    from core.blas import one_blas_thread
-    from solver.caution import caution_lines
+    from wakeyard import solver
+    from wakeyard.core.blas import one_blas_thread
+    from wakeyard.solver.caution import caution_lines
 
     one_blas_thread()
 

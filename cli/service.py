@@ -34,11 +34,11 @@ def _loopback(host: str) -> bool:
 
 
 def serve(host: str, port: int) -> int:
-    from api.app import create_app
-    from core.blas import one_blas_thread
-    from core.settings import Settings
-    from core.store import Store
-    from worker.supervisor import Supervisor
+    from wakeyard.api.app import create_app
+    from wakeyard.core.blas import one_blas_thread
+    from wakeyard.core.settings import Settings
+    from wakeyard.core.store import Store
+    from wakeyard.worker.supervisor import Supervisor
 
     from .datalock import DataLock
 
@@ -114,7 +114,7 @@ def serve(host: str, port: int) -> int:
 def _first_admin(store: Any, name: str, path: Path) -> None:
     """The first admin token, written to a file only this user can read: never to the log, and no restart is
     needed before the service listens (as `wakeyard token create` before the first `serve` would)."""
-    from api.auth import create_token
+    from wakeyard.api.auth import create_token
 
     token = create_token(store, name, admin=True)
     fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
@@ -162,7 +162,7 @@ def _log_to_stderr() -> None:
 
 def migrate() -> int:
     """``wakeyard migrate``: bring the job store to the schema this wakeyard needs, and say what was done."""
-    from core.settings import Settings
+    from wakeyard.core.settings import Settings
 
     settings = Settings()
     settings.data_dir.mkdir(parents=True, exist_ok=True)
@@ -173,7 +173,7 @@ def migrate() -> int:
 def _migrate(url: str, quiet: bool) -> None:
     from sqlalchemy.engine import make_url
 
-    from core.migrate import migrate
+    from wakeyard.core.migrate import migrate
 
     before, after = migrate(url)
     if not quiet or before not in (None, after):
@@ -184,7 +184,7 @@ def _migrate(url: str, quiet: bool) -> None:
 
 def _wait_for_schema(url: str) -> None:
     """Workers never migrate: they wait for ``wakeyard serve`` or ``wakeyard migrate`` to have done it."""
-    from core.migrate import head, revision
+    from wakeyard.core.migrate import head, revision
 
     told = False
     while (found := revision(url)) != head():
@@ -200,9 +200,9 @@ def _wait_for_schema(url: str) -> None:
 
 
 def worker() -> int:
-    from core.settings import Settings
-    from core.store import Store
-    from worker.supervisor import Supervisor
+    from wakeyard.core.settings import Settings
+    from wakeyard.core.store import Store
+    from wakeyard.worker.supervisor import Supervisor
 
     _log_to_stderr()
     settings = Settings()
@@ -226,8 +226,8 @@ def check_worker() -> int:
     """For container health checks: a worker process of this host has reported in within the lease."""
     import socket
 
-    from core.settings import Settings
-    from core.store import Store
+    from wakeyard.core.settings import Settings
+    from wakeyard.core.store import Store
 
     settings = Settings()
     seen = Store(settings.db_url).workers_seen(within=settings.lease_seconds, host=socket.gethostname())
@@ -236,9 +236,9 @@ def check_worker() -> int:
 
 
 def create_token(name: str, admin: bool) -> int:
-    from api.auth import create_token
-    from core.settings import Settings
-    from core.store import Store
+    from wakeyard.api.auth import create_token
+    from wakeyard.core.settings import Settings
+    from wakeyard.core.store import Store
 
     settings = Settings()
     settings.data_dir.mkdir(parents=True, exist_ok=True)

@@ -12,7 +12,7 @@ def one_blas_thread() -> None:
     threadpoolctl limits the libraries loaded so far, so the solver (numpy, scipy and, for pypardiso, MKL) is
     loaded first; environment variables would have to be set before numpy's first import instead, which depends
     on import order."""
-    import solver  # noqa: F401  (loads the numerical libraries)
+    from wakeyard import solver  # noqa: F401  (loads the numerical libraries)
 
     for _ in range(2):  # MKL loads its OpenMP runtime only when its thread count is first set: limit that too
         threadpool_limits(limits=1)

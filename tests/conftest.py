@@ -8,6 +8,8 @@ import pytest
 
 from . import servers
 
+pytest_plugins = ["tests.fixtures"]  # the service fixtures (stores, the API, a worker)
+
 
 @pytest.fixture(scope="session")
 def redis_url() -> Iterator[str]:

@@ -10,15 +10,15 @@ import threading
 
 from celery.signals import task_postrun, worker_ready, worker_shutting_down
 
-from core.broker import make_celery
-from core.settings import Settings
-from core.store import Store
-from worker.tasks import BUSY, SHUTDOWN
+from wakeyard.core.broker import make_celery
+from wakeyard.core.settings import Settings
+from wakeyard.core.store import Store
+from wakeyard.worker.tasks import BUSY, SHUTDOWN
 
 log = logging.getLogger(__name__)
 
 
-app = make_celery(Settings(), include=["worker.tasks"])
+app = make_celery(Settings(), include=["wakeyard.worker.tasks"])
 
 
 _stop_announcing = threading.Event()

@@ -26,9 +26,9 @@ def die_with_parent(parent: int) -> None:
 
 def main(loglevel: str) -> None:
     die_with_parent(int(os.environ["WAKEYARD_SUPERVISOR_PID"]))
-    from core.blas import one_blas_thread
-    from core.settings import Settings
-    from worker.app import app
+    from wakeyard.core.blas import one_blas_thread
+    from wakeyard.core.settings import Settings
+    from wakeyard.worker.app import app
 
     one_blas_thread()
 

@@ -66,7 +66,10 @@ class Supervisor:
         env = {**os.environ, "WAKEYARD_SUPERVISOR_PID": str(os.getpid())}
         try:  # a group of its own: a Ctrl-C in the terminal reaches only the supervisor, which stops the children
             proc = subprocess.Popen(
-                [sys.executable, "-m", "worker.child", self.loglevel], env=env, pass_fds=self.keep_fds, process_group=0
+                [sys.executable, "-m", "wakeyard.worker.child", self.loglevel],
+                env=env,
+                pass_fds=self.keep_fds,
+                process_group=0,
             )
         except OSError:  # out of memory or processes: try again later
             log.exception("could not start worker process %d", i)

@@ -13,12 +13,12 @@ from typing import Any
 from celery import shared_task
 from sqlalchemy.exc import SQLAlchemyError
 
-import solver
-from core.broker import TASK
-from core.disk import DiskReserve, disk_full
-from core.settings import Settings
-from core.states import JobState
-from core.store import Claimed, Store, finite
+from wakeyard import solver
+from wakeyard.core.broker import TASK
+from wakeyard.core.disk import DiskReserve, disk_full
+from wakeyard.core.settings import Settings
+from wakeyard.core.states import JobState
+from wakeyard.core.store import Claimed, Store, finite
 
 log = logging.getLogger(__name__)
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from alembic import context
 
-from core.store.models import Base
+from wakeyard.core.store.models import Base
 
 connection = context.config.attributes["connection"]
 context.configure(connection=connection, target_metadata=Base.metadata, render_as_batch=True)

@@ -15,9 +15,9 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.linalg import eigs
 
-from solver import load
-from solver.case import Case
-from solver.steady import solve_steady
+from wakeyard.solver import load
+from wakeyard.solver.case import Case
+from wakeyard.solver.steady import solve_steady
 
 
 # Williamson & Brown (1998), Strouhal-Reynolds fit for the laminar wake of a circular cylinder, as listed in

@@ -9,10 +9,10 @@ sections III.5 and II.4; recalled). The accepted bands are project choices.
 import numpy as np
 import pytest
 
-from solver import SpecError, load, run
-from solver.adaptive import AdaptiveBDF2, Scales
-from solver.case import Case
-from solver.output import read_forces
+from wakeyard.solver import SpecError, load, run
+from wakeyard.solver.adaptive import AdaptiveBDF2, Scales
+from wakeyard.solver.case import Case
+from wakeyard.solver.output import read_forces
 
 END = 0.4
 

@@ -14,7 +14,7 @@ it): the digits are recalled from memory, and agree with the values other public
 
 import pytest
 
-from solver import run
+from wakeyard.solver import run
 
 REFERENCE = {"cd_max": 3.22739, "strouhal": 0.30184}
 

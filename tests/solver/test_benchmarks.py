@@ -20,8 +20,8 @@ import json
 
 import pytest
 
-from solver import run
-from solver.caution import CAUTION
+from wakeyard.solver import run
+from wakeyard.solver.caution import CAUTION
 
 REFERENCE_2D1 = {"cd": 5.57953523384, "cl": 0.010618948146, "dp": 0.11752016697}
 

@@ -4,12 +4,12 @@ import numpy as np
 import pytest
 from skfem import MeshTri
 
-from solver import load
-from solver.boundary import Dirichlet
-from solver.case import Case
-from solver.navier_stokes import NavierStokes
-from solver.steady import solve_steady
-from solver.taylor_hood import TaylorHood
+from wakeyard.solver import load
+from wakeyard.solver.boundary import Dirichlet
+from wakeyard.solver.case import Case
+from wakeyard.solver.navier_stokes import NavierStokes
+from wakeyard.solver.steady import solve_steady
+from wakeyard.solver.taylor_hood import TaylorHood
 
 
 def test_poiseuille_is_reproduced_exactly():
@@ -35,7 +35,7 @@ def test_poiseuille_is_reproduced_exactly():
 
 
 def test_velocity_probes_read_the_parabola(tmp_path):
-    from solver import run
+    from wakeyard.solver import run
 
     spec = {
         "channel": {"length": 1.0, "height": 0.4},

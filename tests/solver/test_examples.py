@@ -12,7 +12,7 @@ import json5
 import numpy as np
 import pytest
 
-from solver import Limits, check_limits, load, run
+from wakeyard.solver import Limits, check_limits, load, run
 
 ROOT = Path(__file__).resolve().parents[2]
 

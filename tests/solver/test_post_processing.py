@@ -5,9 +5,9 @@ import math
 import subprocess
 import sys
 
-from solver import InternalError, run
-from solver.caution import caution_lines
-from solver.output import read_forces
+from wakeyard.solver import InternalError, run
+from wakeyard.solver.caution import caution_lines
+from wakeyard.solver.output import read_forces
 
 TANDEM = {
     "title": "two tubes in tandem (test)",
@@ -92,7 +92,7 @@ def test_unexpected_failure_names_its_stage(tmp_path):
 
 
 def cli(*args):
-    return subprocess.run([sys.executable, "-m", "cli", *args], capture_output=True, text=True, timeout=600)
+    return subprocess.run([sys.executable, "-m", "wakeyard.cli", *args], capture_output=True, text=True, timeout=600)
 
 
 def test_cli_reports_a_failure_in_one_line_with_exit_code_3(tmp_path):

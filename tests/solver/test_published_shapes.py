@@ -11,7 +11,7 @@ import math
 
 import pytest
 
-from solver import run
+from wakeyard.solver import run
 
 from . import published_cases as pc
 

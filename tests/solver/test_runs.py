@@ -7,10 +7,10 @@ import sys
 import numpy as np
 import pytest
 
-from solver import Cancelled, Diverged, run
-from solver.caution import CAUTION
-from solver.output import read_forces
-from solver.units import number_paths, unit_of
+from wakeyard.solver import Cancelled, Diverged, run
+from wakeyard.solver.caution import CAUTION
+from wakeyard.solver.output import read_forces
+from wakeyard.solver.units import number_paths, unit_of
 
 # The cylinder and fluid of the 2D-1 benchmark (Schäfer & Turek 1996) in a channel shortened to 1.0: a cheap Re-20
 # case whose behaviour is well known; no published value is checked in this file.
@@ -113,7 +113,7 @@ def test_a_far_too_long_explicit_step_fails_early_with_advice(tmp_path):
 
 
 def cli(*args):
-    return subprocess.run([sys.executable, "-m", "cli", *args], capture_output=True, text=True, timeout=600)
+    return subprocess.run([sys.executable, "-m", "wakeyard.cli", *args], capture_output=True, text=True, timeout=600)
 
 
 def test_cli_exit_codes(tmp_path):

@@ -13,8 +13,8 @@ import copy
 import numpy as np
 import pytest
 
-from solver import run
-from solver.output import read_forces
+from wakeyard.solver import run
+from wakeyard.solver.output import read_forces
 
 CENTRE = 0.205  # centre line of the 0.41 m channel
 BASE = {

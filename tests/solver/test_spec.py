@@ -2,8 +2,8 @@
 
 import pytest
 
-from solver import Limits, SpecError, check_limits, load
-from solver.spec import DEFAULT_POST
+from wakeyard.solver import Limits, SpecError, check_limits, load
+from wakeyard.solver.spec import DEFAULT_POST
 
 # the cylinder and channel of the 2D-1 benchmark (Schäfer & Turek 1996), given explicitly: not the defaults
 CYLINDER = {"shape": "circle", "center": [0.2, 0.2], "radius": 0.05}

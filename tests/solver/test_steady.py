@@ -3,9 +3,9 @@
 import numpy as np
 import pytest
 
-from solver import Diverged, load
-from solver.case import Case
-from solver.steady import newton, solve_steady
+from wakeyard.solver import Diverged, load
+from wakeyard.solver.case import Case
+from wakeyard.solver.steady import newton, solve_steady
 
 
 @pytest.fixture(scope="module")

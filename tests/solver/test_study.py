@@ -2,9 +2,9 @@
 
 import pytest
 
-from solver import SpecError, load
-from solver.study import expand, summary_values
-from solver.units import labelled, number_paths, spec_unit, value_unit
+from wakeyard.solver import SpecError, load
+from wakeyard.solver.study import expand, summary_values
+from wakeyard.solver.units import labelled, number_paths, spec_unit, value_unit
 
 PIER = {
     "channel": {"length": 2.0, "height": 1.0},

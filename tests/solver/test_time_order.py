@@ -5,9 +5,9 @@ The expected orders (1 for Euler, 2 for BDF2) are common knowledge; the accepted
 import numpy as np
 import pytest
 
-from solver import load
-from solver.case import Case
-from solver.transient import Stepper
+from wakeyard.solver import load
+from wakeyard.solver.case import Case
+from wakeyard.solver.transient import Stepper
 
 END = 0.4
 

@@ -6,7 +6,7 @@ and the same mesh (no published value is used; the 1 % agreement asked below is 
 
 import pytest
 
-from solver import run
+from wakeyard.solver import run
 
 BASE = {
     "channel": {"length": 2.2, "height": 0.41},

@@ -7,7 +7,7 @@ import math
 
 import pytest
 
-from solver.verification import grid_convergence
+from wakeyard.solver.verification import grid_convergence
 
 
 def test_celik_2008_worked_example():
@@ -70,8 +70,8 @@ def test_mesh_study_extrapolates_2d1_drag_towards_reference(tmp_path):
     # benchmark 2D-1 (Schäfer & Turek 1996): cD = 5.57953523384 from the FEATFLOW group's online reference values,
     # digits recalled (see tests/solver/test_benchmarks.py for the exact source note). The bounds below
     # (observed order > 2, GCI < 1e-4, extrapolation closer than the finest mesh) are project choices.
-    from solver import run
-    from solver.study import convergence, expand
+    from wakeyard.solver import run
+    from wakeyard.solver.study import convergence, expand
 
     reference = 5.57953523384
     base = {

@@ -74,7 +74,7 @@ def base_url(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
         [
             sys.executable,
             "-m",
-            "cli",
+            "wakeyard.cli",
             "serve",
             "--host",
             "127.0.0.1",

@@ -14,9 +14,9 @@ import re
 
 import pytest
 
-from solver import JobSpec
-from solver.caution import CAUTION
 from tests.solver.test_post_processing import TANDEM
+from wakeyard.solver import JobSpec
+from wakeyard.solver.caution import CAUTION
 
 from .conftest import TINY, shot, submit, wait_state
 

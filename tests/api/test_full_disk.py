@@ -14,10 +14,9 @@ from pathlib import Path
 import pytest
 from fastapi.testclient import TestClient
 
-from api.app import create_app
-
-from .helpers import TINY, finished, settings_for, tiny
-from .test_supervision import Serve, until
+from tests.helpers import TINY, finished, settings_for, tiny
+from tests.worker.test_supervision import Serve, until
+from wakeyard.api.app import create_app
 
 
 @pytest.fixture

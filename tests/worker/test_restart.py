@@ -8,9 +8,8 @@ from pathlib import Path
 import redis
 from fastapi.testclient import TestClient
 
-from api.app import create_app
-
-from .helpers import REDIS_DB, Worker, finished, settings_for, tiny, wait_for
+from tests.helpers import REDIS_DB, Worker, finished, settings_for, tiny, wait_for
+from wakeyard.api.app import create_app
 
 
 def test_api_and_broker_restart_with_queued_jobs(tmp_path: Path, redis_url: str) -> None:

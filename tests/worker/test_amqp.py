@@ -8,9 +8,8 @@ from pathlib import Path
 import kombu
 from fastapi.testclient import TestClient
 
-from api.app import create_app
-
-from .helpers import Worker, finished, settings_for, tiny, wait_for
+from tests.helpers import Worker, finished, settings_for, tiny, wait_for
+from wakeyard.api.app import create_app
 
 
 def test_a_job_runs_to_success_through_rabbitmq(tmp_path: Path, amqp_url: str) -> None:

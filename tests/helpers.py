@@ -14,8 +14,8 @@ from typing import Any
 
 from fastapi.testclient import TestClient
 
-from core.migrate import migrate
-from core.settings import Settings
+from wakeyard.core.migrate import migrate
+from wakeyard.core.settings import Settings
 
 from .hold import Hold
 
@@ -82,7 +82,7 @@ class Worker:
         if hold is not None:  # park the solver mid-run for the test (see hold.py)
             env.update(hold.environment())
         self.proc = subprocess.Popen(
-            [sys.executable, "-c", "import sys; from cli.main import main; sys.exit(main())", "worker"],
+            [sys.executable, "-c", "import sys; from wakeyard.cli.main import main; sys.exit(main())", "worker"],
             env=env,
             stdout=log.open("w"),
             stderr=subprocess.STDOUT,

@@ -7,11 +7,10 @@ from pathlib import Path
 
 import pytest
 
-import solver
-from api import submission
-from api.fingerprint import code_fingerprint, solver_fingerprint
-
-from .helpers import tiny
+from tests.helpers import tiny
+from wakeyard import solver
+from wakeyard.api import submission
+from wakeyard.api.fingerprint import code_fingerprint, solver_fingerprint
 
 
 def test_any_change_to_a_solver_file_changes_the_fingerprint(tmp_path: Path) -> None:

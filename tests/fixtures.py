@@ -12,8 +12,8 @@ import redis
 import sqlalchemy
 from fastapi.testclient import TestClient
 
-from api.app import create_app
-from core.migrate import migrate
+from wakeyard.api.app import create_app
+from wakeyard.core.migrate import migrate
 
 from .helpers import REDIS_DB, Worker, settings_for
 

@@ -16,10 +16,9 @@ import httpx
 import numpy as np
 import pytest
 
-from core.store import Store
-
-from .helpers import finished, tiny
-from .test_cli import WAKEYARD, _children, _free_port
+from tests.cli.test_cli import WAKEYARD, _children, _free_port
+from tests.helpers import finished, tiny
+from wakeyard.core.store import Store
 
 SPEED = {"WAKEYARD_HEARTBEAT_SECONDS": "0.5", "WAKEYARD_REAPER_SECONDS": "0.5"}
 

@@ -1,5 +1,5 @@
 """Honest health: degraded (503) with the reason when the broker or the job store does not answer or the disk is
-short; /metrics carries the same facts. (Queued jobs without a worker: tests/service/test_validation.py.)"""
+short; /metrics carries the same facts. (Queued jobs without a worker: tests/api/test_validation.py.)"""
 
 from __future__ import annotations
 
@@ -11,11 +11,10 @@ from pathlib import Path
 from fastapi.testclient import TestClient
 from sqlalchemy import text
 
-from api.app import create_app
-from core.store import Store
-
-from .helpers import environment, settings_for
-from .test_cli import WAKEYARD
+from tests.cli.test_cli import WAKEYARD
+from tests.helpers import environment, settings_for
+from wakeyard.api.app import create_app
+from wakeyard.core.store import Store
 
 
 def test_a_broker_that_does_not_answer_is_degraded(tmp_path: Path) -> None:

@@ -13,8 +13,8 @@ from pathlib import Path
 import httpx
 import sqlalchemy
 
-from .helpers import tiny
-from .test_cli import WAKEYARD, _free_port
+from tests.cli.test_cli import WAKEYARD, _free_port
+from tests.helpers import tiny
 
 
 def test_a_table_lock_does_not_stall_other_requests(tmp_path: Path, postgres_url: str) -> None:

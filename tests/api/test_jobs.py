@@ -10,10 +10,9 @@ import zipfile
 
 from fastapi.testclient import TestClient
 
-from core.store import Store
-from solver.caution import CAUTION
-
-from .helpers import finished, tiny, wait_for
+from tests.helpers import finished, tiny, wait_for
+from wakeyard.core.store import Store
+from wakeyard.solver.caution import CAUTION
 
 
 def test_submit_runs_to_success_with_files(service: TestClient) -> None:

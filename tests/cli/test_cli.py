@@ -12,9 +12,9 @@ from pathlib import Path
 
 import httpx
 
-from .helpers import finished, tiny
+from tests.helpers import finished, tiny
 
-WAKEYARD = [sys.executable, "-c", "import sys; from cli.main import main; sys.exit(main())"]
+WAKEYARD = [sys.executable, "-c", "import sys; from wakeyard.cli.main import main; sys.exit(main())"]
 
 
 def _free_port() -> int:

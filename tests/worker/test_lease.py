@@ -11,10 +11,9 @@ import numpy as np
 from fastapi.testclient import TestClient
 from sqlalchemy import update
 
-from api.app import create_app
-from core.store import Job, Store, utcnow
-
-from .helpers import Hold, Worker, finished, settings_for, tiny, wait_for
+from tests.helpers import Hold, Worker, finished, settings_for, tiny, wait_for
+from wakeyard.api.app import create_app
+from wakeyard.core.store import Job, Store, utcnow
 
 
 def _stale(store: Store, job_id: str) -> None:
@@ -90,8 +89,8 @@ def test_kill_9_of_a_pool_child_requeues_and_the_same_worker_finishes(tmp_path: 
 def test_reaper_resends_lost_wake_ups_without_local_workers(tmp_path: Path) -> None:
     """``serve --workers 0`` (the compose API): wake-ups lost while the workers sat idle are still re-sent, one per
     worker process seen in the store, at least one."""
-    from api.reaper import Reaper
-    from core.disk import DiskReserve
+    from wakeyard.api.reaper import Reaper
+    from wakeyard.core.disk import DiskReserve
 
     settings = settings_for(tmp_path, "wakeyard-reaper", broker="", workers=0)
     store, sent = Store(settings.db_url), []

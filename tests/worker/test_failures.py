@@ -6,11 +6,10 @@ from pathlib import Path
 
 from fastapi.testclient import TestClient
 
-from core.store import Store
+from tests.helpers import finished, settings_for, tiny, wait_for
 from tests.solver.test_post_processing import TANDEM
-from worker.tasks import _Attempt
-
-from .helpers import finished, settings_for, tiny, wait_for
+from wakeyard.core.store import Store
+from wakeyard.worker.tasks import _Attempt
 
 
 def test_tandem_tubes_succeed_with_the_undefined_wake_length_explained(service: TestClient) -> None:

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-ROOT = Path(__file__).resolve().parents[2]
+ROOT = Path(__file__).resolve().parents[1]
 FOLDER_VARIABLE, STEP_VARIABLE = "WAKEYARD_TEST_HOLD_DIR", "WAKEYARD_TEST_HOLD_STEP"
 
 
@@ -28,7 +28,7 @@ class Hold:
 
     def environment(self) -> dict[str, str]:
         self.folder.mkdir(parents=True, exist_ok=True)
-        (self.folder / "sitecustomize.py").write_text("from tests.service import hold\n\nhold.install()\n")
+        (self.folder / "sitecustomize.py").write_text("from tests import hold\n\nhold.install()\n")
         path = os.pathsep.join(filter(None, [str(self.folder), str(ROOT), os.environ.get("PYTHONPATH")]))
         return {FOLDER_VARIABLE: str(self.folder), STEP_VARIABLE: str(self.step), "PYTHONPATH": path}
 
@@ -44,7 +44,7 @@ class Hold:
 
 def install() -> None:
     """Wrap ``solver.run._Transient._checkpoint`` in this process (and the pool processes it forks)."""
-    run = importlib.import_module("solver.run")  # the module: ``solver.run`` the attribute is the function
+    run = importlib.import_module("wakeyard.solver.run")  # the module: ``solver.run`` the attribute is the function
 
     folder, step = Path(os.environ[FOLDER_VARIABLE]), int(os.environ[STEP_VARIABLE])
     original = run._Transient._checkpoint

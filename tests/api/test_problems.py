@@ -9,9 +9,8 @@ from typing import Any
 from fastapi.testclient import TestClient
 from httpx import Response
 
-from api.auth import create_token
-
-from .helpers import tiny
+from tests.helpers import tiny
+from wakeyard.api.auth import create_token
 
 
 def problems(r: Response, status: int) -> list[dict[str, Any]]:

@@ -1,6 +1,6 @@
 """Property-based fuzz of every operation in the service's own OpenAPI schema: whatever the generated
 request (NUL characters included), the answer is never a server error (5xx). Targeted classes of odd text
-(huge and non-ASCII-digit cursors, names over 255 bytes): tests/service/test_odd_input.py."""
+(huge and non-ASCII-digit cursors, names over 255 bytes): tests/api/test_odd_input.py."""
 
 from __future__ import annotations
 
@@ -11,9 +11,8 @@ import pytest
 import schemathesis
 from hypothesis import HealthCheck, settings
 
-from api.app import create_app
-
-from .helpers import settings_for
+from tests.helpers import settings_for
+from wakeyard.api.app import create_app
 
 
 @pytest.fixture

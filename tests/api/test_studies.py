@@ -18,11 +18,10 @@ import pytest
 import uvicorn
 from fastapi.testclient import TestClient
 
-from api.studies import fluid_area
-from solver.caution import CAUTION
-
-from .helpers import finished, wait_for
-from .test_cli import WAKEYARD, _free_port
+from tests.cli.test_cli import WAKEYARD, _free_port
+from tests.helpers import finished, wait_for
+from wakeyard.api.studies import fluid_area
+from wakeyard.solver.caution import CAUTION
 
 # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a channel shortened to 1.0 (Re 20 at peak 0.3)
 STEADY: dict[str, Any] = {

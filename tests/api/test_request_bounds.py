@@ -9,8 +9,8 @@ from pathlib import Path
 
 from fastapi.testclient import TestClient
 
-from .helpers import TINY
-from .test_supervision import Serve
+from tests.helpers import TINY
+from tests.worker.test_supervision import Serve
 
 
 def _sweep(path: str, values: list[float]) -> dict:

@@ -10,12 +10,11 @@ import sqlalchemy
 from alembic.autogenerate import compare_metadata
 from alembic.runtime.migration import MigrationContext
 
-from api.submission import spec_hash
-from core.migrate import head, migrate, revision
-from core.store import Base, Job, Provenance, Store
-
-from .test_cli import WAKEYARD
-from .test_studies import steady
+from tests.api.test_studies import steady
+from tests.cli.test_cli import WAKEYARD
+from wakeyard.api.submission import spec_hash
+from wakeyard.core.migrate import head, migrate, revision
+from wakeyard.core.store import Base, Job, Provenance, Store
 
 
 def test_the_migrations_make_exactly_the_models_tables(blank_store_url: str) -> None:
@@ -66,8 +65,8 @@ def test_a_job_store_from_before_migrations_and_studies_is_upgraded(blank_store_
 
 
 def test_wakeyard_migrate_says_what_it_did_and_the_api_refuses_an_old_store(tmp_path: Path) -> None:
-    from api.app import create_app
-    from core.settings import Settings
+    from wakeyard.api.app import create_app
+    from wakeyard.core.settings import Settings
 
     settings = Settings(data_dir=tmp_path, workers=0)
     try:

@@ -12,9 +12,8 @@ from fastapi.testclient import TestClient
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from api.app import create_app
-
-from .helpers import TINY, settings_for, tiny
+from tests.helpers import TINY, settings_for, tiny
+from wakeyard.api.app import create_app
 
 
 @pytest.fixture
