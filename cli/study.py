@@ -14,7 +14,7 @@ from typing import Any
 
 import httpx
 
-FINISHED = ("succeeded", "failed", "cancelled")
+from wakeyard.core.states import FINISHED, JobState
 
 
 def _refused(response: httpx.Response) -> int:
@@ -71,4 +71,4 @@ def _wait(client: httpx.Client, study_id: str, poll: float) -> int:
         time.sleep(poll)
     print(client.get(f"/api/v1/studies/{study_id}/table.csv").text, end="")
     print(study["caution"], file=sys.stderr)
-    return 0 if study["state"] == "succeeded" else 1
+    return 0 if study["state"] == JobState.SUCCEEDED else 1
