@@ -119,7 +119,10 @@ def test_sweep_runs_every_point_with_table_and_plot(service: TestClient) -> None
         (
             {
                 "kind": "sweep",
-                "base": {**STEADY, "analysis": {"mode": "transient", "end_time": 1.0}},
+                "base": {
+                    **STEADY,
+                    "analysis": {"mode": "transient", "scheme": "bdf2-imex", "time_step": 0.01, "end_time": 1.0},
+                },
                 "vary": [{"path": "analysis.time_step", "values": [0.01, 1e-5]}],
             },
             "points.1.analysis.time_step",
