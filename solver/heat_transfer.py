@@ -20,7 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.linalg import spsolve
-from skfem import BilinearForm, ElementTriP2, FacetBasis, Functional
+from skfem import Basis, BilinearForm, ElementTriP2, FacetBasis, Functional
 
 from .heat import AdvectionDiffusion
 from .meshing import ChannelMesh
@@ -32,6 +32,11 @@ from .thermal import Thermal
 @BilinearForm
 def _mass(u, v, w):
     return u * v
+
+
+def surface_mass(basis: Basis, facets: np.ndarray) -> sp.csr_matrix:
+    """Mass matrix of the P2 space on the boundary facets ``facets`` (full size)."""
+    return _mass.assemble(FacetBasis(basis.mesh, ElementTriP2(), facets=facets, intorder=5)).tocsr()
 
 
 @Functional
@@ -79,8 +84,7 @@ class HeatTransfer:
         for i, (name, thermal) in enumerate(sides):
             facets = cm.facets[name]
             dofs = basis.get_dofs(facets).all()
-            fb = FacetBasis(basis.mesh, ElementTriP2(), facets=facets, intorder=5)
-            mass = _mass.assemble(fb).tocsr()
+            mass = surface_mass(basis, facets)
             if thermal.kind == "temperature":
                 # walls at a temperature keep the inflow's where they meet the inlet (the inflow is prescribed)
                 dofs_free = np.setdiff1d(dofs, fixed[0]) if name == "walls" else dofs
