@@ -17,6 +17,7 @@ import numpy as np
 
 from . import analysis, heat_pictures, output, pictures
 from .case import Case
+from .errors import Diverged
 from .heat_transfer import HeatTransfer
 
 log = logging.getLogger(__name__)
@@ -46,7 +47,7 @@ class HeatRun:
         """Follow one accepted flow step to time ``t``."""
         T = self.heat.advance(x, dt)
         if not np.isfinite(T).all():
-            raise FloatingPointError(f"the temperature is not finite at t = {t:.6g} s")
+            raise Diverged(f"the temperature is not finite at t = {t:.6g} s")
         self.rows.append(self._row(t, x))
 
     def _row(self, t: float, x: np.ndarray) -> list[float]:

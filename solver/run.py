@@ -253,11 +253,11 @@ class _Transient:
                 if time.perf_counter() > self.deadline:
                     raise WallTimeExceeded(f"wall-time limit reached at t = {stepper.t:.6g} s (step {stepper.n})")
                 result = stepper.step()
-                if heat:  # heat hook: follow every accepted flow step
-                    heat.after_step(stepper.t, result.x, self.dt)
                 row = case.force_row(stepper.t, result.x, result.convection, result.dudt)
                 if not np.all(np.isfinite(row)) or not np.isfinite(result.x).all() or self._blown_up(result.x):
                     self._diverged(stepper)
+                if heat:  # heat hook: follow every accepted flow step
+                    heat.after_step(stepper.t, result.x, self.dt)
                 self.rows.append(row)
                 if stepper.n % self.output_every == 0 or stepper.n == self.total:
                     snaps.save(stepper.n, stepper.t, result.x)
