@@ -60,6 +60,11 @@ class Thermal(BaseModel):
             return {"heat_flux": self.heat_flux}
         return "insulated"
 
+    @classmethod
+    def __get_pydantic_json_schema__(cls, core_schema: Any, handler: Any) -> dict[str, Any]:
+        # the word "insulated" is accepted as well as the object (see ``_word``)
+        return {"anyOf": [{"type": "string", "enum": ["insulated"]}, handler(core_schema)]}
+
     @property
     def kind(self) -> Literal["insulated", "temperature", "heat_flux"]:
         if self.temperature is not None:

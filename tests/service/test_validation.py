@@ -29,6 +29,8 @@ def fields(response: Any) -> list[str]:
         ({**TINY, "channel": {"length": "long", "height": 0.41}}, "channel.length"),
         ({**TINY, "colour": "blue"}, "colour"),
         ({**TINY, "analysis": {**TINY["analysis"], "time_step": 1e-6, "end_time": 100.0}}, "analysis.time_step"),
+        ({**TINY, "heat": {"prandtl": 0.7, "walls": {"heat_flux": 50.0}}}, "heat.walls.heat_flux"),
+        ({**TINY, "heat": {"walls": {"temperature": -300.0}}}, "heat.walls.temperature"),
         ([1, 2, 3], "(body)"),
     ],
 )
