@@ -110,6 +110,13 @@ class HeatRun:
             entry = by_name.setdefault(s.name, {"name": s.name})
             entry["nusselt_number"] = analysis.window_stats(values) if transient else float(values[-1])
             entry["surface_temperature"] = h.surface_temperature(s)
+        heated = {s.name for s in h.surfaces}
+        for i, body in enumerate(self.case.spec.bodies):
+            if body.thermal is not None and body.thermal.kind != "insulated" and body.name not in heated:
+                by_name[body.name]["nusselt_number"] = None
+                self.case.unavailable[f"bodies.{i}.nusselt_number"] = (
+                    f"{body.name} neither gains nor gives heat (surface at the inflow temperature or zero heat flux)"
+                )
         outlet = data[window, -1]
         if np.isfinite(outlet).all():
             summary["outlet_temperature"] = analysis.window_stats(outlet) if transient else float(outlet[-1])

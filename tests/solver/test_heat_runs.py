@@ -84,7 +84,7 @@ def test_cancel_and_resume_continue_the_temperature(heated_run, tmp_path):
 
 
 def test_steady_run_without_heat_writes_no_heat(tmp_path):
-    summary = run({**SMALL, "analysis": {"mode": "steady"}}, tmp_path)
+    summary = run({**SMALL, "inflow": {"peak_velocity": 0.3}, "analysis": {"mode": "steady"}}, tmp_path)
     assert "outlet_temperature" not in summary and "nusselt_number" not in summary["bodies"][0]
     assert not (tmp_path / "heat.csv").exists()
     assert "temperature" not in meshio.read(tmp_path / "fields" / "step_000000.vtu").point_data
@@ -100,3 +100,16 @@ def test_cli_rejects_bad_heat_input_with_exit_2(tmp_path):
         timeout=600,
     )
     assert done.returncode == 2 and "heat.walls.heat_flux" in done.stderr
+
+
+def test_a_body_at_the_inflow_temperature_has_no_nusselt_number_and_says_why(tmp_path):
+    spec = {
+        **HEATED,
+        "bodies": [{**SMALL["bodies"][0], "thermal": {"temperature": 20.0}}],
+        "inflow": {"peak_velocity": 0.3},  # no ramp: a steady run takes the inflow at t = 0
+        "analysis": {"mode": "steady"},
+    }
+    summary = run(spec, tmp_path)
+    assert summary["bodies"][0]["nusselt_number"] is None
+    assert "inflow temperature" in summary["unavailable"]["bodies.0.nusselt_number"]
+    assert summary["outlet_temperature"] == pytest.approx(20.0, abs=1e-9)  # nothing heats the water
