@@ -10,12 +10,14 @@ import csv
 import io
 import json
 import os
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
 import meshio
 import numpy as np
 import scipy.sparse as sp
+from skfem import Basis
 
 from .taylor_hood import TaylorHood
 
@@ -73,7 +75,9 @@ class Snapshots:
         self.points = np.c_[basis.doflocs.T, np.zeros(th.nu)]
         dofs = basis.element_dofs
         self.cells = [("triangle6", dofs[:6].T)] if th.elements == "P2P1" else [("triangle", dofs[:3].T)]
-        self.pressure_to_velocity = density * _pressure_on_velocity_nodes(th)
+        self.pressure_to_velocity = density * on_velocity_nodes(th, th.pressure)
+        # more fields on the velocity nodes (the temperature), set by whoever solves for them
+        self.extra_fields: Callable[[], dict[str, np.ndarray]] | None = None
         # a resumed run keeps the snapshots written before its checkpoint
         self.index = sorted((float(np.load(f)["time"]), f.stem) for f in self.dir.glob("step_*.npz"))
 
@@ -81,6 +85,8 @@ class Snapshots:
         th = self.th
         ux, uy, p = th.split(x)
         fields = {"ux": ux, "uy": uy, "pressure": self.pressure_to_velocity @ p, "vorticity": th.vorticity(ux, uy)}
+        extra = self.extra_fields() if self.extra_fields else {}
+        fields.update(extra)
         stem = f"step_{k:06d}"
         np.savez_compressed(self.dir / f"{stem}.npz", time=t, **fields)
         mesh = meshio.Mesh(
@@ -91,6 +97,7 @@ class Snapshots:
                 "pressure": fields["pressure"],
                 "vorticity": fields["vorticity"],
                 "speed": np.hypot(ux, uy),
+                **extra,
             },
         )
         tmp = self.dir / f".{stem}.vtu"
@@ -109,9 +116,12 @@ class Snapshots:
         )
 
 
-def _pressure_on_velocity_nodes(th: TaylorHood) -> sp.csr_matrix:
-    """Matrix that evaluates the pressure at the velocity nodes (files share one set of points)."""
-    vb, pb = th.velocity, th.pressure
+def on_velocity_nodes(th: TaylorHood, pb: Basis) -> sp.csr_matrix:
+    """Matrix that evaluates a field of basis ``pb`` (pressure, temperature) at the velocity nodes.
+
+    The files share one set of points; ``pb`` must live on the velocity basis's cells.
+    """
+    vb = th.velocity
     rows, cols, vals = [], [], []
     # evaluate every pressure basis function at the velocity element's reference nodes
     refs = vb.elem.doflocs.T

@@ -19,6 +19,8 @@ FIELDS = {
     "vorticity": ("Vorticity [1/s]", "RdBu_r"),
     "pressure": ("Pressure [Pa]", "magma"),
 }
+# drawn only for runs that solve for the temperature
+HEAT_FIELDS = {"temperature": ("Temperature [°C]", "inferno")}
 
 
 def triangulation(points: np.ndarray, element_dofs: np.ndarray) -> Triangulation:
@@ -54,7 +56,7 @@ def field_picture(
     limits: tuple[float, float],
     time: float | None,
 ) -> None:
-    label, cmap = FIELDS[name]
+    label, cmap = {**FIELDS, **HEAT_FIELDS}[name]
     values = np.hypot(fields["ux"], fields["uy"]) if name == "speed" else fields[name]
     L, H = spec.channel.length, spec.channel.height
     width = 10.0

@@ -18,6 +18,7 @@ from .adaptive import AdaptiveBDF2, Scales
 from .case import Case
 from .caution import CAUTION
 from .errors import Cancelled, Diverged, InternalError, RunFailed, WallTimeExceeded
+from .heat_output import HeatRun
 from .recirculation import recirculation_length
 from .spec import ADAPTIVE, JobSpec, load
 from .stages import failed_stage
@@ -172,9 +173,16 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
         "residual": newton.residual,
         "continuation": newton.continuation_steps,
     }
+    heat = HeatRun(case, out) if spec.heat else None  # heat hook: the temperature in the stationary flow
+    if heat:
+        heat.steady(x, summary)
     t1 = time.perf_counter()
-    output.Snapshots(out, case.th, spec.fluid.density).save(0, 0.0, x)
+    snaps = output.Snapshots(out, case.th, spec.fluid.density)
+    snaps.extra_fields = heat.fields if heat else None
+    snaps.save(0, 0.0, x)
     _pictures(case, out, [0])
+    if heat:
+        heat.pictures([0])
     summary["timings"].update({"solve": solve, "output": time.perf_counter() - t1})
     return summary
 
@@ -226,12 +234,15 @@ class _Transient:
         self.snapshots: list[int] = []
         self.fingerprint = hashlib.sha256(case.spec.model_dump_json().encode()).hexdigest()
         self.resumed_from_step: int | None = None
+        self.heat: HeatRun | None = None
 
     def run(self) -> dict[str, Any]:
         case, a = self.case, self.case.spec.analysis
         t_solve = time.perf_counter()
         stepper = self._start()
+        heat = self._start_heat(stepper.n)
         snaps = output.Snapshots(self.out, case.th, case.spec.fluid.density)
+        snaps.extra_fields = heat.fields if heat else None
         if stepper.n == 0:
             snaps.save(0, 0.0, stepper.x)
             self.snapshots = [0]
@@ -252,6 +263,8 @@ class _Transient:
                 row = [*case.force_row(stepper.t, result.x, result.convection, result.dudt), dt]
                 if not np.all(np.isfinite(row)) or not np.isfinite(result.x).all() or self._blown_up(result.x):
                     self._diverged(stepper, *healthy)
+                if heat:  # heat hook: follow every accepted flow step
+                    heat.after_step(stepper.t, result.x, dt)
                 self.rows.append(row)
                 max_cfl = max(max_cfl, case.cfl(result.x, dt))
                 if stepper.t >= end or int(stepper.t / self.output_interval) > int(t_before / self.output_interval):
@@ -272,6 +285,8 @@ class _Transient:
         finally:
             if self.rows:
                 output.write_forces(self.out / "forces.csv", self.columns, self.rows)
+            if heat and heat.rows:
+                heat.write()
         solve = time.perf_counter() - t_solve
         t_out = time.perf_counter()
         data = np.array(self.rows)
@@ -293,6 +308,9 @@ class _Transient:
                 "resumed_from_step": self.resumed_from_step,
             }
         )
+        if heat:  # heat hook: Nusselt statistics over the forces' window, temperature pictures
+            heat.finish(summary, stepper.x)
+            heat.pictures(self.snapshots)
         summary["timings"].update(
             {"solve": solve, "seconds_per_step": solve / max(stepper.n, 1), "output": time.perf_counter() - t_out}
         )
@@ -322,7 +340,16 @@ class _Transient:
                     self.resumed_from_step = stepper.n
         return stepper
 
+    def _start_heat(self, step: int) -> HeatRun | None:
+        """Heat hook: the temperature beside the flow, resumed with it."""
+        self.heat = HeatRun(self.case, self.out) if self.case.spec.heat else None
+        if self.heat and step > 0:
+            self.heat.resume(step)
+        return self.heat
+
     def _checkpoint(self, stepper: Stepper | AdaptiveBDF2) -> None:
+        if self.heat:
+            self.heat.checkpoint(stepper.n)
         tmp = self.out / ".checkpoint.npz"
         with open(tmp, "wb") as f:
             np.savez(

@@ -12,6 +12,8 @@ from typing import Annotated, Literal
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, field_validator
 
+from .thermal import Thermal
+
 # Geometry is in metres; the bounds keep arithmetic on untrusted input finite.
 Coordinate = Annotated[float, Field(ge=-1e6, le=1e6)]
 Point = tuple[Coordinate, Coordinate]
@@ -21,6 +23,7 @@ class _Body(BaseModel):
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     name: str = Field("", max_length=40, pattern=r"^[A-Za-z0-9_\-]*$")
+    thermal: Thermal | None = Field(None, description="surface temperature, heat flux or insulated (needs heat)")
 
     def outline(self, n: int = 256) -> np.ndarray:
         """Return ``(n, 2)`` boundary points, counter-clockwise, not closed."""

@@ -21,6 +21,8 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_valida
 from . import _polygons
 from .errors import SpecError
 from .shapes import Body, Point
+from .thermal import Heat
+from .thermal import check as check_heat
 
 _Positive = Field(gt=0, allow_inf_nan=False)
 # The range of Reynolds numbers and kinematic viscosities a case may have, given or derived from the other (a project
@@ -212,6 +214,7 @@ class JobSpec(_Model):
     elements: Literal["P2P1", "P3P2"] = "P2P1"
     analysis: Analysis = Analysis()
     probes: Probes = Probes()
+    heat: Heat | None = Field(None, description="solve for the temperature (forced convection)")
 
     @model_validator(mode="after")
     def _name_bodies(self) -> JobSpec:
@@ -352,7 +355,11 @@ def load(data: dict[str, Any] | JobSpec) -> JobSpec:
         spec = data if isinstance(data, JobSpec) else JobSpec.model_validate(data)
     except ValidationError as err:
         raise SpecError([(_path(e["loc"]), _message(e)) for e in err.errors()]) from None
-    problems = _check_geometry(spec) or _check_scales(spec)
+    problems = (
+        _check_geometry(spec)
+        or _check_scales(spec)
+        or check_heat(spec.heat, spec.bodies, spec.viscosity(), spec.fluid.density)
+    )
     if problems:
         raise SpecError(problems)
     return spec

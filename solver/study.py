@@ -171,7 +171,7 @@ def summary_values(summary: dict[str, Any]) -> dict[str, float]:
     """Flat numeric values of a job summary for tables and plots (transient: means and amplitudes)."""
     out: dict[str, float] = {}
     for body in summary.get("bodies", []):
-        for key, short in (("drag_coefficient", "cd"), ("lift_coefficient", "cl")):
+        for key, short in (("drag_coefficient", "cd"), ("lift_coefficient", "cl"), ("nusselt_number", "nu")):
             v = body.get(key)
             if isinstance(v, dict):
                 out[f"{body['name']}.{short}_mean"] = v["mean"]

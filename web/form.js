@@ -222,12 +222,48 @@ export class CaseForm {
         Array.isArray(pd) ? h("div", {class: "probe-points"},
           pointField("probes.pressure_drop.0", "Point a", sp), pointField("probes.pressure_drop.1", "Point b", sp)) : null,
         sp.probes?.velocity?.length ? h("p", {class: "hint"},
-          `${sp.probes.velocity.length} velocity probe(s) set in the JSON.`) : null));
+          `${sp.probes.velocity.length} velocity probe(s) set in the JSON.`) : null),
+      this.heatFields());
     for (const [path, message] of this.localErrors) {
       if (!this.serverErrors?.some((p) => p.field === path)) this.putError(path, message);
     }
     if (this.serverErrors) this.placeErrors(this.serverErrors, false);
     if (active) document.getElementById(active)?.focus({preventScroll: true});
+  }
+
+  /** Temperature (forced convection): the fluid's thermal properties, the inflow temperature, the walls. */
+  heatFields() {
+    const sp = this.spec;
+    const heat = sp.heat;
+    const byPrandtl = isNum(heat?.prandtl) || (heat?.prandtl !== undefined && heat?.conductivity === undefined);
+    return fieldset("Heat transfer", "heat",
+      checkboxToggle("heat", "Solve for the temperature (forced convection: it does not act back on the flow)", sp, null,
+        (on) => {
+          if (!on) for (const b of this.spec.bodies ?? []) delete b.thermal;
+          this.set("heat", on ? {inflow_temperature: 20} : undefined, true);
+        }),
+      heat ? [
+        radioGroup("heat-by", "Thermal properties", [["conductivity", "Conductivity and heat capacity"], ["prandtl", "Prandtl number"]],
+          byPrandtl ? "prandtl" : "conductivity", (v) => this.switchHeat(v)),
+        byPrandtl
+          ? numberField("heat.prandtl", "Prandtl number Pr", sp, {hint: "Air about 0.71, water at 20 °C about 7.0. Heat fluxes need the conductivity instead."})
+          : h("div", {class: "row"},
+            numberField("heat.conductivity", "Conductivity k", sp, {unit: "W/(m K)", placeholder: "0.598"}),
+            numberField("heat.heat_capacity", "Heat capacity c", sp, {unit: "J/(kg K)", placeholder: "4182",
+              hint: "Empty: water at 20 °C. Air at 20 °C: 0.0257 W/(m K), 1005 J/(kg K)."})),
+        numberField("heat.inflow_temperature", "Inflow temperature", sp, {unit: "°C", placeholder: "20"}),
+        thermalField("heat.walls", "Top and bottom walls", sp, (v) => this.set("heat.walls", v, true)),
+      ] : null);
+  }
+
+  switchHeat(by) {
+    const heat = (this.spec.heat ??= {});
+    delete heat.prandtl;
+    delete heat.conductivity;
+    delete heat.heat_capacity;
+    if (by === "prandtl") heat.prandtl = 7.0;
+    this.renderFields();
+    this.update();
   }
 
   bodyCard(body, i, ch) {
@@ -273,7 +309,8 @@ export class CaseForm {
           if (Array.isArray(anchor) && fresh.center) fresh.center = [...anchor];
           this.spec.bodies[i] = fresh;
         }})),
-      make());
+      make(),
+      sp.heat ? thermalField(`${p}.thermal`, "Surface", sp, (v) => this.set(`${p}.thermal`, v === "insulated" ? undefined : v, true)) : null);
   }
 
   // ---------- editing ----------
@@ -669,6 +706,19 @@ function pointsField(path, label, spec) {
     spellcheck: false, dataset: {path, kind: "points"}});
   area.value = formatPoints(v);
   return field(path, label, area);
+}
+
+/** A surface's thermal condition: "insulated", {temperature: °C} or {heat_flux: W/m²}. */
+function thermalField(path, label, spec, onPick) {
+  const v = getPath(spec, path);
+  const kind = v?.temperature !== undefined ? "temperature" : v?.heat_flux !== undefined ? "heat_flux" : "insulated";
+  const fresh = {insulated: "insulated", temperature: {temperature: 60}, heat_flux: {heat_flux: 1000}};
+  const select = h("select", {id: `${idOf(path)}-kind`, onchange: (e) => onPick(fresh[e.target.value])},
+    [["insulated", "Insulated"], ["temperature", "Fixed temperature"], ["heat_flux", "Fixed heat flux"]].map(([value, text]) =>
+      h("option", {value, selected: value === kind}, text)));
+  return h("div", {class: "row"}, field(path, `${label}: thermal condition`, select),
+    kind === "temperature" ? numberField(`${path}.temperature`, "Temperature", spec, {unit: "°C"}) : null,
+    kind === "heat_flux" ? numberField(`${path}.heat_flux`, "Heat flux into the fluid", spec, {unit: "W/m²"}) : null);
 }
 
 function fieldset(legend, path, ...children) {

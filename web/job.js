@@ -8,7 +8,8 @@ import {picked, progressCell, savePicked} from "./queue.js";
 import {caution, downloadLink, jobTitle, loadForces, showPicture, sizeText, stateBadge, summaryTable} from "./results.js";
 import {duration, fill, h, num, secondsBetween, toast, when} from "./util.js";
 
-const FIELDS = [["speed", "Speed"], ["vorticity", "Vorticity"], ["pressure", "Pressure"]];
+const FIELDS = [["speed", "Speed"], ["vorticity", "Vorticity"], ["pressure", "Pressure"], ["temperature", "Temperature"]];
+const HEAT_PLOTS = [["nusselt.png", "Mean Nusselt number over time"], ["local_nusselt.png", "Local Nusselt number around each heated body"]];
 
 export class JobView {
   constructor(root, {onEdit}) {
@@ -127,6 +128,7 @@ export class JobView {
     if (paths.has("forces.csv")) this.renderForces(chartCard);
     else chartCard.append(h("p", {class: "hint"}, "No force history was written."));
     this.renderPictures(pictureCard, files);
+    this.renderHeat(pictureCard, paths);
     this.renderDownloads(downloads, files);
   }
 
@@ -174,7 +176,7 @@ export class JobView {
   renderPictures(card, files) {
     const byKind = {};
     for (const f of files) {
-      const m = /^pictures\/(speed|vorticity|pressure)_(\d+)\.png$/.exec(f.path);
+      const m = /^pictures\/(speed|vorticity|pressure|temperature)_(\d+)\.png$/.exec(f.path);
       if (m) (byKind[m[1]] ??= new Map()).set(Number(m[2]), f.path);
     }
     const kinds = FIELDS.filter(([k]) => byKind[k]);
@@ -237,10 +239,25 @@ export class JobView {
     update();
   }
 
+  /** The heat-transfer plots (runs that solved for the temperature), after the field pictures. */
+  renderHeat(pictureCard, paths) {
+    const plots = HEAT_PLOTS.filter(([path]) => paths.has(path));
+    if (!plots.length) return;
+    const card = h("section", {class: "card pictures heat-plots", "aria-labelledby": "heat-heading"},
+      h("h3", {id: "heat-heading"}, "Heat transfer"));
+    for (const [path, label] of plots) {
+      const img = h("img", {class: "field-picture", alt: label, decoding: "async", dataset: {path}});
+      card.append(h("figure", {}, img, h("figcaption", {}, label)));
+      showPicture(img, this.job.id, path).catch((err) => toast(err.message, "error"));
+    }
+    pictureCard.after(card);
+  }
+
   renderDownloads(card, files) {
     const main = [
       ["forces.csv", "Force history (CSV)"], ["summary.json", "Summary (JSON)"], ["forces.png", "Force plot (PNG)"],
       ["fields.zip", "Fields for ParaView (zip of VTU + PVD)"], ["spec.json", "Case (JSON)"],
+      ["heat.csv", "Nusselt history (CSV)"], ["local_nusselt.csv", "Local Nusselt numbers (CSV)"],
     ];
     const byPath = new Map(files.map((f) => [f.path, f]));
     const list = h("ul", {class: "download-list"});

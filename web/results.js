@@ -35,6 +35,17 @@ export function summaryRows(job) {
       if (b.recirculation_length !== undefined) rows.push([`${n}: recirculation length (m)`, num(b.recirculation_length, 4)]);
     }
   }
+  for (const b of s.bodies ?? []) {
+    if (b.nusselt_number === undefined) continue;
+    if (transient) {
+      rows.push([`${b.name}: Nusselt number mean`, num(stat(b.nusselt_number, "mean"), 4)]);
+      rows.push([`${b.name}: Nusselt number amplitude`, num(stat(b.nusselt_number, "amplitude"), 4)]);
+    } else rows.push([`${b.name}: Nusselt number`, num(stat(b.nusselt_number, "mean"), 4)]);
+    rows.push([`${b.name}: mean surface temperature (°C)`, num(b.surface_temperature, 5)]);
+  }
+  if (s.outlet_temperature !== undefined && s.outlet_temperature !== null) {
+    rows.push(["Outlet mixed-mean temperature (°C)", num(stat(s.outlet_temperature, "mean"), 5)]);
+  }
   if (transient && s.strouhal_number !== undefined) {
     rows.push(["Strouhal number (case)", num(typeof s.strouhal_number === "object" ? s.strouhal_number?.strouhal_number : s.strouhal_number, 4)]);
   }

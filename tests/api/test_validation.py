@@ -32,6 +32,8 @@ def fields(response: Any) -> list[str]:
         ({**TINY, "analysis": {"mode": "transient", "accuracy": -0.001}}, "analysis.accuracy"),
         ({**TINY, "analysis": {"mode": "transient", "accuracy": 5.0}}, "analysis.accuracy"),
         ({**TINY, "analysis": {"mode": "transient", "scheme": "bdf2-imex"}}, "analysis.time_step"),
+        ({**TINY, "heat": {"prandtl": 0.7, "walls": {"heat_flux": 50.0}}}, "heat.walls.heat_flux"),
+        ({**TINY, "heat": {"walls": {"temperature": -300.0}}}, "heat.walls.temperature"),
         ([1, 2, 3], "(body)"),
     ],
 )

@@ -188,3 +188,40 @@ def leading_eigenvalue(spec: dict[str, Any]) -> complex:
     M = mass[free][:, free].astype(complex).tocsc()
     values = eigs(A, k=6, M=M, sigma=0.8j, which="LM", return_eigenvectors=False)
     return complex(values[np.argmax(values.real)])
+
+
+# --- heat transfer ---------------------------------------------------------------------------------------------
+# Shah & London (1978), Laminar Flow Forced Convection in Ducts (Academic Press): fully developed laminar flow
+# between parallel plates, Nusselt number on the hydraulic diameter 2H (recalled; the values are also in issue 14).
+PLATES_NUSSELT = {"temperature": 7.541, "heat_flux": 8.235}
+
+
+def plates(walls: dict[str, float], scale: float = 1.0, peclet: float = 200.0, length: float = 24.0) -> dict[str, Any]:
+    """Plates 1 apart, parabolic inflow of mean speed 1 at 20 °C; Pe on the hydraulic diameter 2 (k = 2 / Pe,
+    ρ = c = 1). At Pe 200 the temperature is fully developed after about 8 (thermal entrance length near
+    0.02 Pe D_h, common practice) and axial conduction is negligible."""
+    return {
+        "title": "heated parallel plates (Shah & London 1978)",
+        "channel": {"length": length, "height": 1.0},
+        "fluid": {"density": 1.0, "reynolds": 10.0, "reference": {"length": 2.0, "velocity": 1.0}},
+        "inflow": {"profile": "parabolic", "mean_velocity": 1.0},
+        "mesh": {"preset": "coarse", "scale": scale},
+        "heat": {"conductivity": 2.0 / peclet, "heat_capacity": 1.0, "inflow_temperature": 20.0, "walls": walls},
+    }
+
+
+def nusselt_lange_durst_breuer(reynolds: float) -> float:
+    """Lange, Durst & Breuer (1998), Int. J. Heat Mass Transfer 41:3409: fit of their computed mean Nusselt number
+    of a cylinder in an unbounded stream at Pr 0.71, 1e-4 < Re < 200 (2D, shedding included above Re 47):
+    Nu = 0.082 Re^0.5 + 0.734 Re^(0.05 + 0.226 Re^0.085) (recalled, not read: verify before relying on it)."""
+    return 0.082 * reynolds**0.5 + 0.734 * reynolds ** (0.05 + 0.226 * reynolds**0.085)
+
+
+def heated_circle(reynolds: float, scale: float, height: float = 20.0, analysis: dict | None = None) -> dict[str, Any]:
+    """The free-stream cylinder at 1 °C above a 0 °C inflow, Pr 0.7, in a channel ``height`` D wide, 1.5 times as
+    long, the cylinder in the middle."""
+    bodies = circle(centre=(height / 2, height / 2), offset=0.05 if analysis else 0.0)
+    bodies[0]["thermal"] = {"temperature": 1.0}
+    spec = free_stream(bodies, reynolds, scale, length=1.5 * height, height=height, analysis=analysis)
+    spec["heat"] = {"prandtl": 0.7, "inflow_temperature": 0.0}
+    return spec

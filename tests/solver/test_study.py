@@ -86,8 +86,15 @@ def test_every_numeric_spec_field_has_a_unit_for_study_axes():
     full = load(
         {
             "bodies": [
-                {"shape": "circle", "center": [0.05, 0.05], "radius": 0.005, "spin": 1.0},
                 {
+                    "shape": "circle",
+                    "center": [0.05, 0.05],
+                    "radius": 0.005,
+                    "spin": 1.0,
+                    "thermal": {"temperature": 50},
+                },
+                {
+                    "thermal": {"heat_flux": 100.0},
                     "shape": "rectangle",
                     "center": [0.1, 0.05],
                     "width": 0.01,
@@ -104,12 +111,21 @@ def test_every_numeric_spec_field_has_a_unit_for_study_axes():
             "mesh": {"body_size": 0.001, "wake_size": 0.002, "far_size": 0.01, "wake_length": 0.1},
             "analysis": {"output_interval": 1.0, "until_periodic": {}},
             "probes": {"pressure_drop": [[0.01, 0.05], [0.39, 0.05]], "velocity": [[0.2, 0.02]]},
+            "heat": {"walls": {"temperature": 30.0}},
         }
     )
     data = full.model_dump(mode="json")
     assert [p for p in number_paths(data) if spec_unit(p) is None] == []
     assert spec_unit("inflow.mean_velocity") == "m/s" and spec_unit("bodies.1.center.0") == "m"
     assert spec_unit("fluid.viscosity") == "m^2/s" and spec_unit("bodies.0.angle") == "deg"
+    assert spec_unit("bodies.1.thermal.heat_flux") == "W/m^2" and spec_unit("heat.conductivity") == "W/(m K)"
     assert labelled("inflow.mean_velocity", "m/s") == "inflow.mean_velocity [m/s]"
     assert labelled("pier.cd", value_unit("pier.cd")) == "pier.cd [-]"
     assert value_unit("pressure_drop_mean") == "Pa" and labelled("x", None) == "x"
+
+
+def test_summary_values_carry_the_nusselt_number():
+    steady = {"bodies": [{"name": "rod", "drag_coefficient": 1.5, "lift_coefficient": 0.0, "nusselt_number": 2.4}]}
+    assert summary_values(steady)["rod.nu"] == 2.4
+    transient = {"bodies": [{"name": "rod", "nusselt_number": {"mean": 5.1, "amplitude": 0.2}}]}
+    assert summary_values(transient) == {"rod.nu_mean": 5.1, "rod.nu_amplitude": 0.2}

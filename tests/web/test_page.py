@@ -580,3 +580,38 @@ def test_a_quantity_not_computed_is_shown_with_its_reason(page, api) -> None:
     expect(row.locator("td")).to_contain_text("reaches downstream")
     length = page.locator(".summary-table tr", has_text="upstream: recirculation length (m)")
     expect(length.locator("td")).to_have_text("—")
+
+
+def test_heat_form_and_results(page, api) -> None:
+    page.goto("/#/new")
+    page.locator("#f-heat-on").check()
+    fill(page, "heat.inflow_temperature", 15)
+    page.locator("#f-bodies-0-thermal-kind").select_option("temperature")
+    fill(page, "bodies.0.thermal.temperature", 45)
+    page.locator("#f-heat-walls-kind").select_option("heat_flux")
+    fill(page, "heat.walls.heat_flux", 200)
+    spec = json.loads(page.locator("#spec-json").input_value())
+    assert spec["heat"] == {"inflow_temperature": 15, "walls": {"heat_flux": 200}}
+    assert spec["bodies"][0]["thermal"] == {"temperature": 45}
+    page.locator("#heat-by-prandtl").check()  # a Prandtl number alone gives no conductivity for the wall flux
+    page.locator("#submit-case").click()
+    expect(page.locator("#err-f-heat-walls-heat_flux")).to_contain_text("needs heat.conductivity")
+    page.locator("#f-heat-on").uncheck()
+    assert "thermal" not in json.loads(page.locator("#spec-json").input_value())["bodies"][0]
+
+    heated = {
+        **TINY,
+        "title": "Heated pipe (browser test)",
+        "bodies": [{**TINY["bodies"][0], "thermal": {"temperature": 60.0}}],
+        "heat": {"inflow_temperature": 20.0},
+        "analysis": {**TINY["analysis"], "end_time": 0.1, "output_interval": 0.05},
+    }
+    job = wait_state(api, submit(api, heated), {"succeeded", "failed"}, timeout=150)
+    assert job["state"] == "succeeded", job["error"]
+    page.goto(f"/#/jobs/{job['id']}")
+    expect(page.locator(".summary-table")).to_contain_text("pipe: Nusselt number mean")
+    page.locator("#field-temperature").check()
+    expect(page.locator("#field-picture")).to_have_attribute("data-path", re.compile(r"pictures/temperature_\d+\.png"))
+    expect(page.locator(".heat-plots figure")).to_have_count(2)
+    expect(page.locator(".download-list").first).to_contain_text("Nusselt history (CSV)")
+    shot(page, "heat-results")
