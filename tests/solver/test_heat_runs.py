@@ -113,3 +113,15 @@ def test_a_body_at_the_inflow_temperature_has_no_nusselt_number_and_says_why(tmp
     assert summary["bodies"][0]["nusselt_number"] is None
     assert "inflow temperature" in summary["unavailable"]["bodies.0.nusselt_number"]
     assert summary["outlet_temperature"] == pytest.approx(20.0, abs=1e-9)  # nothing heats the water
+
+
+def test_the_temperature_follows_error_controlled_steps(tmp_path):
+    spec = {**HEATED, "analysis": {"mode": "transient", "end_time": 0.2, "checkpoint_interval": 1000}}
+    summary = run(spec, tmp_path)
+    assert summary["scheme"] == "bdf2-adaptive"
+    heat = np.loadtxt(tmp_path / "heat.csv", delimiter=",", skiprows=1, ndmin=2)
+    forces = np.loadtxt(tmp_path / "forces.csv", delimiter=",", skiprows=1, ndmin=2)
+    assert len(heat) == summary["steps"] and np.array_equal(heat[:, 0], forces[:, 0])
+    assert len(set(np.round(forces[:, -1], 12))) > 3  # uneven steps
+    nusselt = summary["bodies"][0]["nusselt_number"]
+    assert 0 < nusselt["min"] <= nusselt["mean"] <= nusselt["max"]
