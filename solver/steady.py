@@ -60,8 +60,9 @@ def solve_steady(
     tol: float = 1e-8,
     max_iterations: int = 30,
     on_iteration: Callable[[int, float], None] | None = None,
+    t: float = 0.0,
 ) -> tuple[np.ndarray, NewtonReport]:
-    """Stationary flow: plain Newton from Stokes, else continuation in the Reynolds number.
+    """Stationary flow with the boundary data at time ``t``: plain Newton from Stokes, else continuation in Re.
 
     Continuation first finds a viscosity, up to 256 times the target, at which
     Newton converges from Stokes, then walks back to the target; a step that
@@ -70,14 +71,14 @@ def solve_steady(
     """
     target = ns.viscosity
     try:
-        x, its, res = newton(ns, ns.stokes(), tol, max_iterations, on_iteration)
+        x, its, res = newton(ns, ns.stokes(t), tol, max_iterations, on_iteration)
         return x, NewtonReport(its, res, [])
     except Diverged:
         pass
     for k in range(1, 9):
         easier = NavierStokes(ns.th, target * 2.0**k, ns.dirichlet)
         try:
-            x, total, _ = newton(easier, easier.stokes(), tol, max_iterations)
+            x, total, _ = newton(easier, easier.stokes(t), tol, max_iterations)
             break
         except Diverged:
             continue

@@ -145,3 +145,11 @@ def test_cli_exit_codes(tmp_path):
     assert done.returncode == 0, done.stderr
     assert (tmp_path / "good" / "summary.json").exists() and (tmp_path / "good" / "forces.csv").exists()
     assert " ".join(done.stderr.split()) == f"Caution: {CAUTION}" and "Caution" not in done.stdout
+
+
+def test_a_steady_run_solves_for_the_inflow_after_the_start_up_ramp(tmp_path):
+    steady = {**SMALL, "analysis": {"mode": "steady"}}
+    ramped = run(steady, tmp_path / "ramped")  # SMALL's inflow ramps up over 0.2 s
+    plain = run({**steady, "inflow": {"peak_velocity": 0.3}}, tmp_path / "plain")
+    cd = ramped["bodies"][0]["drag_coefficient"]
+    assert cd > 1.0 and cd == pytest.approx(plain["bodies"][0]["drag_coefficient"], rel=1e-9)
