@@ -1,6 +1,7 @@
 """Error-controlled time stepping: observed order, tolerance proportionality, rough inflows, exact resumption.
 
-The observed orders are measured by self-convergence against a fine fixed-step run (common practice); that a
+The observed order is measured by self-convergence against the same scheme at a far tighter accuracy (common
+practice); that a
 variable-step BDF2 is second order and that an error-per-unit-step control makes the global error about
 proportional to the tolerance are textbook facts (e.g. Hairer, Norsett & Wanner, "Solving ODEs I", 1993,
 sections III.5 and II.4; recalled). The accepted bands are project choices.
@@ -11,26 +12,9 @@ import pytest
 
 from wakeyard.solver import SpecError, load, run
 from wakeyard.solver.adaptive import AdaptiveBDF2, Scales
-from wakeyard.solver.case import Case
 from wakeyard.solver.output import read_forces
 
-END = 0.4
-
-
-@pytest.fixture(scope="module")
-def case():
-    # smooth start from rest: the inflow ramps up over the whole run (Re 20 at full speed);
-    # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a channel shortened to 1.0
-    spec = load(
-        {
-            "bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-            "channel": {"length": 1.0, "height": 0.41},
-            "mesh": {"preset": "coarse", "scale": 2.0},
-            "fluid": {"density": 1.0, "viscosity": 1e-3},
-            "inflow": {"peak_velocity": 0.3, "ramp_time": 2 * END},
-        }
-    )
-    return Case.build(spec)
+from .conftest import RAMP_END as END
 
 
 def final_velocity(case, accuracy):
@@ -42,7 +26,8 @@ def final_velocity(case, accuracy):
     return stepper, result.x
 
 
-def test_second_order_and_error_about_proportional_to_the_accuracy(case):
+def test_second_order_and_error_about_proportional_to_the_accuracy(ramped_cylinder):
+    case = ramped_cylinder
     # the reference: the same scheme at a far tighter accuracy (self-convergence; measured within 3e-8 of a
     # fixed-step BDF2 run with 1280 steps, 50 times below the smallest error checked here)
     reference_stepper, reference = final_velocity(case, 1e-6)
