@@ -98,6 +98,9 @@ def _without(data: dict[str, Any], fields: list[str]) -> tuple[dict[str, Any], l
         elif len(parts) == 1:
             out.pop(parts[0], None)
     if isinstance(bodies, list):
+        for i, body in enumerate(bodies):  # keep the default names the user's numbering gives
+            if isinstance(body, dict) and not body.get("name"):
+                body["name"] = f"body{i + 1}"
         for i in dropped:
             if i < len(bodies):
                 bodies.pop(i)

@@ -69,6 +69,7 @@ def test_every_problem_at_once() -> None:
     assert "bodies.1.radius" in fields and "analysis.accuracy" in fields  # field problems
     assert "bodies.0" in fields and "bodies.3" in fields  # geometry problems, with the user's numbering
     assert "bodies.2" not in fields
+    assert "body4 overlaps or touches body3" in [q["message"] for q in p["problems"]]
     assert p["estimate"] is None and p["spec"] is None
 
 
