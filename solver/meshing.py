@@ -136,7 +136,26 @@ def _initialize_keeping_signal_handlers(gmsh: Any) -> None:
             signal.signal(sig, handler)
 
 
-def _generate(spec: JobSpec, s: MeshSizes) -> tuple[np.ndarray, np.ndarray]:
+def counts(spec: JobSpec) -> tuple[int, int, int]:
+    """Vertices, edges and cells of the mesh :func:`build` would make, without building it.
+
+    Only the coarse base mesh is generated; the uniform splits that follow are counted, not made: splitting every
+    triangle into four adds one vertex per edge and turns E edges and F cells into 2E + 3F and 4F.
+    """
+    s = sizes(spec)
+    coarsen = 2**s.preset_splits
+    base = MeshSizes(s.body * coarsen, s.wake * coarsen, s.far * coarsen, s.wake_length)
+    with _gmsh_lock:
+        _, t = _generate(spec, base, dry=True)
+    edges = np.unique(np.sort(np.hstack([t[[0, 1]], t[[1, 2]], t[[2, 0]]]), axis=0), axis=1)
+    v, e, f = int(np.unique(t).size), int(edges.shape[1]), int(t.shape[1])
+    for _ in range(s.preset_splits + s.extra_splits):
+        v, e, f = v + e, 2 * e + 3 * f, 4 * f
+    return v, e, f
+
+
+def _generate(spec: JobSpec, s: MeshSizes, dry: bool = False) -> tuple[np.ndarray, np.ndarray]:
+    """Points and cells of the mesh; ``dry`` stops after the first straight mesh (no splits, no curving)."""
     import gmsh
 
     _initialize_keeping_signal_handlers(gmsh)
@@ -161,15 +180,15 @@ def _generate(spec: JobSpec, s: MeshSizes) -> tuple[np.ndarray, np.ndarray]:
         ]:
             gmsh.option.setNumber(name, value)
         gmsh.model.mesh.generate(2)
-        for _ in range(s.preset_splits + s.extra_splits):
+        for _ in range(0 if dry else s.preset_splits + s.extra_splits):
             gmsh.model.mesh.refine()
-        if spec.mesh.curved:
+        if spec.mesh.curved and not dry:
             gmsh.model.mesh.setOrder(2)
         tags, xyz, _ = gmsh.model.mesh.getNodes()
         etypes, _, enodes = gmsh.model.mesh.getElements(2)
     finally:
         gmsh.finalize()
-    nper = 6 if spec.mesh.curved else 3
+    nper = 6 if spec.mesh.curved and not dry else 3
     index = np.empty(int(tags.max()) + 1, dtype=np.int64)
     index[tags.astype(np.int64)] = np.arange(len(tags))
     t = index[np.concatenate(enodes).astype(np.int64)].reshape(-1, nper).T

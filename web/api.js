@@ -113,6 +113,7 @@ export const api = {
   caution: () => request("GET", "/caution"),
   listJobs: async (query, signal) => listOf(await request("GET", "/jobs", {query, signal})),
   getJob: (id, signal) => request("GET", `/jobs/${encodeURIComponent(id)}`, {signal}),
+  preview: (spec, signal) => request("POST", "/previews", {body: spec, signal}),
   createJob: (spec, tags) => request("POST", "/jobs", {body: spec, query: tags?.length ? {tags} : undefined}),
   cancelJob: (id) => request("POST", `/jobs/${encodeURIComponent(id)}/cancel`),
   deleteJob: (id) => request("DELETE", `/jobs/${encodeURIComponent(id)}`),

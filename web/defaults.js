@@ -1,4 +1,4 @@
-// The job spec's defaults as the solver has them (solver/spec.py), for placeholders, drawings and estimates:
+// The job spec's defaults as the solver has them (solver/spec.py), for placeholders and drawings (the figures come from the service):
 // a 100 mm wide laboratory channel of water at 20 °C moving at 1 mm/s, with a 20 mm post in it (Re ≈ 20).
 
 export const ADAPTIVE = "bdf2-adaptive"; // the default time stepping: error-controlled, no time step to pick

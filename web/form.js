@@ -1,12 +1,12 @@
 // The case form: edits one job spec (the same JSON a script would send), draws it to scale,
-// shows the Reynolds number, blockage ratio and a rough cost, and puts the service's validation
-// errors beside the fields they name.
+// shows the Reynolds number, blockage ratio, mesh size and time steps from the service's preview (the solver's
+// own figures, POST /api/v1/previews), and puts the service's validation errors beside the fields they name.
 
 import {ApiError, api} from "./api.js";
 import {CaseDrawing, translateBody} from "./drawing.js";
 import {ADAPTIVE, DEFAULTS} from "./defaults.js";
 import {EXAMPLES, newBody} from "./examples.js";
-import {blockage, channelOf, cost, geometryWarnings, nominalVelocity, referenceLength, reynolds} from "./geometry.js";
+import {channelOf, geometryWarnings, nominalVelocity, reynolds} from "./geometry.js";
 import {duration, fill, getPath, h, integer, num, prune, setPath, toast} from "./util.js";
 
 const SHAPES = [["circle", "Circle"], ["rectangle", "Rectangle"], ["ellipse", "Ellipse"],
@@ -18,6 +18,7 @@ const isNum = (v) => typeof v === "number" && Number.isFinite(v);
 
 /** Seconds per (unknown × step) measured on succeeded jobs of this server; set by the queue view. */
 export const calibration = {rate: null, jobs: 0};
+const PREVIEW_DELAY = 300; // ms of quiet typing before the service is asked for the figures
 
 export class CaseForm {
   constructor(root, {onQueued}) {
@@ -439,37 +440,69 @@ export class CaseForm {
     const spec = this.currentSpec();
     const warnings = geometryWarnings(spec);
     this.drawing.draw(spec, new Set(warnings.map((w) => w.index)));
-    const {re, nu, U, L} = reynolds(spec);
-    const block = blockage(spec);
-    const c = cost(spec);
+    this.localWarnings = warnings;
+    this.showFigures(spec);
+    this.schedulePreview(spec);
+    if (!this.jsonDirty && document.activeElement !== this.json) this.json.value = JSON.stringify(spec, null, 2);
+  }
+
+  /** Ask the service for the preview (the solver's own figures) once typing pauses for PREVIEW_DELAY ms. */
+  schedulePreview(spec) {
+    clearTimeout(this.previewTimer);
+    this.previewTimer = setTimeout(async () => {
+      this.previewAbort?.abort();
+      const abort = new AbortController();
+      this.previewAbort = abort;
+      try {
+        const preview = await api.preview(spec, abort.signal);
+        this.preview = {spec: JSON.stringify(spec), ...preview};
+      } catch (err) {
+        if (err.name === "AbortError") return;
+        this.preview = {spec: JSON.stringify(spec), failed: err.message};
+      }
+      this.showFigures(this.currentSpec());
+    }, PREVIEW_DELAY);
+  }
+
+  /** The live figures from the latest preview; marked as updating while the spec has changed since. */
+  showFigures(spec) {
+    const warnings = [...(this.localWarnings ?? [])];
+    const p = this.preview;
+    const stale = !p || p.spec !== JSON.stringify(spec);
+    const e = p?.estimate;
+    const transient = (spec.analysis?.mode ?? "steady") === "transient";
     const items = [
-      ["Reynolds number", isNum(re) ? num(re, 4) : "—", isNum(U) && isNum(L) ? `U = ${num(U, 3)} m/s, L = ${num(L, 3)} m, ν = ${num(nu, 3)} m²/s` : ""],
-      ["Blockage ratio", `${num(100 * block, 3)} %`, "share of the channel height the bodies cover"],
-      ["Mesh, roughly", `${integer(c.cells)} cells`, `${integer(c.dofs)} unknowns`],
+      ["Reynolds number", isNum(p?.reynolds) ? num(p.reynolds, 4) : "—", "U·L/ν on the reference scales"],
+      ["Blockage ratio", isNum(p?.blockage) ? `${num(100 * p.blockage, 3)} %` : "—", "share of the channel height the bodies cover"],
+      ["Mesh", e ? `${integer(e.cells)} cells` : "—", e ? `${integer(e.dofs)} unknowns, ${e.method === "mesher"
+        ? "from a dry run of the mesher" : "estimated (too big to mesh for a preview)"}` : ""],
     ];
-    if (c.transient) {
-      items.push(c.steps
-        ? ["Time steps", integer(c.steps), `${num(spec.analysis?.end_time ?? 1)} s in steps of ${num(spec.analysis?.time_step)} s`]
-        : ["Time steps", "chosen while it runs", "by the error control, for the accuracy asked"]);
+    if (transient) {
+      items.push(e?.steps
+        ? ["Time steps", integer(e.steps), `${num(spec.analysis?.end_time ?? 1)} s in steps of ${num(spec.analysis?.time_step)} s`]
+        : ["Time steps", e ? "chosen while it runs" : "—", "by the error control, for the accuracy asked"]);
       const peak = nominalVelocity(spec) * ((spec.inflow?.profile ?? "parabolic") === "parabolic" ? 1.5 : 1);
-      const hBody = estimateBodyCell(spec);
-      if (isNum(hBody) && hBody > 0 && c.steps && isNum(peak)) {
-        const cfl = (peak * (spec.analysis?.time_step ?? 1e-3)) / hBody;
+      if (isNum(e?.body_cell_size) && e.steps && isNum(peak)) {
+        const cfl = (peak * spec.analysis.time_step) / e.body_cell_size;
         items.push(["CFL near the bodies", `≈ ${num(cfl, 2)}`, "peak speed × Δt / cell size"]);
         if (cfl > 1 && spec.analysis?.scheme !== "bdf2-implicit") {
           warnings.push({message: "The CFL number is above 1 with explicit convection: the solver will split the steps. Use a smaller time step or error-controlled steps."});
         }
       }
     }
-    if (calibration.rate && c.dofs && (!c.transient || c.steps)) {
-      const work = c.dofs * (c.transient ? c.steps : 15);
+    if (calibration.rate && e?.dofs && (!transient || e.steps)) {
+      const work = e.dofs * (transient ? e.steps : 15);
       items.push(["Run time, roughly", duration(work * calibration.rate), `from ${calibration.jobs} succeeded job(s) on this server`]);
     }
-    if (block > 0.5) warnings.push({message: `The bodies block ${num(100 * block, 3)} % of the channel: the walls will dominate the forces.`});
+    if (isNum(p?.blockage) && p.blockage > 0.5) {
+      warnings.push({message: `The bodies block ${num(100 * p.blockage, 3)} % of the channel: the walls will dominate the forces.`});
+    }
+    if (p?.failed) warnings.push({message: `No preview: ${p.failed}`});
+    for (const problem of p?.problems ?? []) warnings.push({message: `${readable(problem.field)}: ${problem.message}`});
+    this.figures.setAttribute("aria-busy", String(stale));
     fill(this.figures, items.map(([k, v, note]) => h("div", {class: "figure"},
       h("dt", {}, k), h("dd", {dataset: {figure: k}}, v, note ? h("small", {}, note) : null))));
     fill(this.warnings, warnings.map((w) => h("li", {}, w.message)));
-    if (!this.jsonDirty && document.activeElement !== this.json) this.json.value = JSON.stringify(spec, null, 2);
   }
 
   applyJson(text = this.json.value) {
@@ -744,15 +777,6 @@ function defaultProbes(spec) {
   const {length: L, height: H} = channelOf(spec);
   const r = (v) => Number(v.toPrecision(3));
   return [[r(L * 0.1), r(H / 2)], [r(L * 0.6), r(H / 2)]];
-}
-
-function estimateBodyCell(spec) {
-  if (!spec.bodies?.length) return null;
-  // cell size at the bodies, as the mesher picks it (preset fraction of the smallest body, times the scale)
-  const frac = {coarse: 1 / 20, medium: 1 / 40, fine: 1 / 80}[spec.mesh?.preset ?? "medium"] ?? 1 / 40;
-  const d = Math.min(...spec.bodies.map(referenceLength).filter(isNum));
-  if (!isNum(d)) return null;
-  return (spec.mesh?.body_size ?? frac * d) * (spec.mesh?.scale ?? 1);
 }
 
 function stripNulls(value) {

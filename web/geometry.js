@@ -1,7 +1,6 @@
-// Case geometry and quick figures computed in the browser before submitting:
-// body outlines, Reynolds number, blockage ratio and a rough size of the computation.
-// They follow the solver's own rules (solver/spec.py, solver/meshing.py) closely enough to guide a
-// person; the service's answer is the authority.
+// Case geometry the browser needs at once, before the service's preview answers: body outlines for the
+// drawing, the nominal velocity and the viscosity/Reynolds conversion of the fluid switch. Every figure
+// shown (Reynolds number, blockage, mesh size, steps) comes from the preview (POST /api/v1/previews).
 
 import {DEFAULTS} from "./defaults.js";
 
@@ -98,15 +97,6 @@ export function bounds(points) {
   return {x0: Math.min(...xs), x1: Math.max(...xs), y0: Math.min(...ys), y1: Math.max(...ys)};
 }
 
-function perimeter(points) {
-  let total = 0;
-  points.forEach((p, i) => {
-    const q = points[(i + 1) % points.length];
-    total += Math.hypot(q[0] - p[0], q[1] - p[1]);
-  });
-  return total;
-}
-
 /** The length that makes cD, cL and Re: diameter, chord, otherwise the frontal height. */
 export function referenceLength(body) {
   if (body?.shape === "circle") return 2 * (body.radius ?? DEFAULTS.circle.radius);
@@ -155,58 +145,6 @@ export function reynolds(spec) {
   }
   const nu = fluid.viscosity ?? DEFAULTS.fluid.viscosity;
   return {re: (U * L) / nu, nu, U, L};
-}
-
-/** Share of the channel height the bodies block (union of their vertical extents). */
-export function blockage(spec) {
-  const H = channelOf(spec).height;
-  const spans = (spec.bodies ?? []).map((b) => outline(b)).filter(Boolean).map(bounds).map((b) => [b.y0, b.y1]);
-  if (!spans.length || !(H > 0)) return 0;
-  spans.sort((a, b) => a[0] - b[0]);
-  let covered = 0;
-  let [lo, hi] = spans[0];
-  for (const [a, b] of spans.slice(1)) {
-    if (a > hi) {
-      covered += hi - lo;
-      [lo, hi] = [a, b];
-    } else hi = Math.max(hi, b);
-  }
-  covered += hi - lo;
-  return covered / H;
-}
-
-const PRESETS = {coarse: [1 / 20, 1 / 3, 1 / 1.2], medium: [1 / 40, 1 / 6, 1 / 2.4], fine: [1 / 80, 1 / 12, 1 / 4.8]};
-
-/** Rough cell and unknown counts and the number of time steps, as the solver estimates them. */
-export function cost(spec) {
-  const {length: L, height: H} = channelOf(spec);
-  const mesh = spec.mesh ?? {};
-  const bodies = (spec.bodies ?? []).map((b) => ({b, pts: outline(b)})).filter((x) => x.pts);
-  const refs = bodies.map(({b}) => referenceLength(b)).filter((x) => x > 0);
-  const d = refs.length ? Math.min(...refs) : H / 4;
-  const [fb, fw, ff] = PRESETS[mesh.preset ?? "medium"] ?? PRESETS.medium;
-  const scale = finite(mesh.scale) && mesh.scale > 0 ? mesh.scale : 1;
-  const far = Math.min(mesh.far_size ?? ff * d, H / 4, L / 4);
-  const body = Math.min(mesh.body_size ?? fb * d, far);
-  const wake = Math.min(Math.max(mesh.wake_size ?? fw * d, body), far);
-  const wakeLength = mesh.wake_length ?? Math.min(L, 12 * d);
-  const [sb, sw, sf] = [body * scale, wake * scale, far * scale];
-  let cells = (2.3 * L * H) / sf ** 2;
-  for (const {pts} of bodies) {
-    const bb = bounds(pts);
-    const extent = bb.y1 - bb.y0 + 2 * sw;
-    const wakeArea = Math.min(wakeLength, L) * Math.min(extent * 2, H);
-    cells += 2.3 * (wakeArea / sw ** 2 + (perimeter(pts) * 4 * sb) / sb ** 2);
-  }
-  const dofs = Math.round(cells * ((spec.elements ?? "P2P1") === "P2P1" ? 4.5 : 9.5));
-  const a = spec.analysis ?? {};
-  const transient = (a.mode ?? "steady") === "transient";
-  const end = a.end_time ?? 1;
-  // error-controlled steps are only known as the run goes; fixed ones are end / dt
-  const dt = (a.scheme ?? "bdf2-adaptive") === "bdf2-adaptive" ? null : a.time_step;
-  const steps = transient && finite(end) && finite(dt) && end > 0 && dt > 0 ? Math.ceil(end / dt - 1e-9) : null;
-  const ok = Number.isFinite(cells) && cells > 0;
-  return {cells: ok ? Math.round(cells) : null, dofs: ok ? dofs : null, steps, transient};
 }
 
 /** Local checks shown on the drawing (the service repeats them and has the last word). */

@@ -15,7 +15,8 @@ import re
 import pytest
 
 from tests.solver.test_post_processing import TANDEM
-from wakeyard.solver import JobSpec
+from wakeyard.solver import JobSpec, load
+from wakeyard.solver.case import Case
 from wakeyard.solver.caution import CAUTION
 
 from .conftest import TINY, shot, submit, wait_state
@@ -349,6 +350,26 @@ def test_json_spec_round_trip_and_upload(page, base_url, tmp_path) -> None:
     expect(page.locator(".case-svg .probe")).to_have_count(2)
     expect(page.locator('dd[data-figure="Blockage ratio"]')).to_contain_text("13.3 %")
     assert json.loads(box.input_value()) == pier
+
+
+def test_live_figures_come_from_the_services_preview(page) -> None:
+    """Cells and unknowns are the solver's (a dry run of its mesher), not a copy of its rules in the page."""
+    page.goto("/#/new")
+    mesh = page.locator('dd[data-figure="Mesh"]')
+    spec = json.loads(page.locator("#spec-json").input_value())
+    for preset in ("coarse", "medium"):
+        page.locator("#f-mesh-preset").select_option(preset)
+        case = Case.build(load({**spec, "mesh": {**spec.get("mesh", {}), "preset": preset}}))
+        expect(mesh).to_contain_text(f"{case.cells:,} cells")
+        expect(mesh).to_contain_text(f"{case.th.ndofs:,} unknowns")
+    expect(page.locator('dd[data-figure="Time steps"]')).to_contain_text("chosen while it runs")  # bdf2-adaptive
+    # a second post on top of the first: the service's geometry problem is listed while typing, before any submit
+    page.locator("#new-shape").select_option("circle")
+    page.locator("#add-body").click()
+    fill(page, "bodies.1.center.0", spec["bodies"][0]["center"][0])
+    fill(page, "bodies.1.center.1", spec["bodies"][0]["center"][1])
+    expect(page.locator("ul.warnings")).to_contain_text("overlaps")
+    expect(mesh).to_contain_text("—")
 
 
 def test_bodies_move_with_the_keyboard(page) -> None:
