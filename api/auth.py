@@ -8,6 +8,7 @@ from datetime import timedelta
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from wakeyard.core.settings import TOKEN_NAME
 from wakeyard.core.store import Store, Token, utcnow
 
 MAX_EXPIRY_DAYS = 3650
@@ -21,7 +22,7 @@ class TokenRequest(BaseModel):
     name: str = Field(
         min_length=1,
         max_length=100,
-        pattern=r"^[A-Za-z0-9][A-Za-z0-9_.@-]*$",
+        pattern=TOKEN_NAME,
         description="the user the token stands for (jobs are owned by this name)",
     )
     admin: bool = Field(False, description="may change anyone's jobs and manage tokens")
