@@ -6,11 +6,14 @@ import threading
 from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
+import pytest
 import sqlalchemy
 from fastapi.testclient import TestClient
 
+from tests.api.test_studies import sweep
 from tests.helpers import settings_for, tiny
 from wakeyard.api.app import create_app
+from wakeyard.api.submission import Submission
 from wakeyard.core.store import OverCap, Store
 
 CAP, TRIES = 4, 24
@@ -65,3 +68,16 @@ def test_concurrent_requests_never_pass_the_cap(tmp_path: Path, postgres_url: st
         with admin.begin() as conn:
             conn.execute(sqlalchemy.text(f"DROP SCHEMA {schema} CASCADE"))
         admin.dispose()
+
+
+def test_a_study_that_meets_the_cap_midway_cancels_the_points_it_made(
+    offline: TestClient, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """As when concurrent requests fill the room after the early check: the study's 429 says what was undone."""
+    monkeypatch.setattr(Submission, "check_room", lambda *_: None)  # the early check saw room
+    r = offline.post("/api/v1/studies", json=sweep("midway", [0.1, 0.2, 0.3, 0.4]))  # the cap is 3
+    assert r.status_code == 429, r.text
+    message = r.json()["detail"][0]["message"]
+    assert "the limit per user is 3" in message and "the 3 points of study" in message
+    jobs = offline.get("/api/v1/jobs").json()["jobs"]
+    assert len(jobs) == 3 and {j["state"] for j in jobs} == {"cancelled"}
