@@ -48,7 +48,8 @@ def create_token(store: StoreDep, _: AdminDep, wanted: TokenRequest) -> JSONResp
         token, secret = issue_token(store, wanted)
     except TokenTaken as taken:
         raise Conflict("name", str(taken)) from None
-    return JSONResponse({**view(token), "token": secret}, status_code=201)
+    # the secret is in this answer only: no cache on the way may keep it
+    return JSONResponse({**view(token), "token": secret}, status_code=201, headers={"Cache-Control": "no-store"})
 
 
 @router.delete("/{token_id}", summary="Revoke a token: requests with it get 401 from then on")

@@ -28,7 +28,7 @@ def refused(r, status: int) -> str:  # type: ignore[no-untyped-def]
 def test_an_admin_creates_lists_and_revokes_tokens(offline: TestClient) -> None:
     ops = create_token(offline.app.state.store, "ops", admin=True)
     made = offline.post("/api/v1/tokens", json={"name": "alice", "expires_days": 30}, headers=bearer(ops))
-    assert made.status_code == 201, made.text
+    assert made.status_code == 201 and made.headers["cache-control"] == "no-store", made.text
     alice, alice_id = made.json()["token"], made.json()["id"]
     expires = made.json()["expires_at"]
     assert made.json()["state"] == "active" and expires[:10] == (utcnow() + timedelta(days=30)).date().isoformat()
