@@ -19,7 +19,7 @@ from wakeyard.core.store import Store
 from wakeyard.solver.caution import CAUTION
 from wakeyard.solver.study import StudySpec
 
-from . import routes_files, routes_jobs, routes_ops, routes_previews, routes_studies
+from . import routes_files, routes_jobs, routes_ops, routes_previews, routes_studies, routes_tokens
 from .dispatch import Dispatcher
 from .limits import BodyLimit
 from .metrics import Timing, registry_for
@@ -65,7 +65,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes, max_seconds=settings.max_body_seconds)
     app.add_middleware(RefuseNul)
     app.add_middleware(Timing, latency=latency)  # outermost of ours: refusals are timed too
-    for module in (routes_jobs, routes_previews, routes_files, routes_studies, routes_ops):
+    for module in (routes_jobs, routes_previews, routes_files, routes_studies, routes_tokens, routes_ops):
         app.include_router(module.router)
     _document_spec(app)
     app.mount("/", StaticFiles(directory=str(WEB), html=True), name="web")

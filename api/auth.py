@@ -4,16 +4,44 @@ from __future__ import annotations
 
 import hashlib
 import secrets
+from datetime import timedelta
 
-from wakeyard.core.store import Store
+from pydantic import BaseModel, ConfigDict, Field
+
+from wakeyard.core.settings import TOKEN_NAME
+from wakeyard.core.store import Store, Token, utcnow
+
+MAX_EXPIRY_DAYS = 3650
+
+
+class TokenRequest(BaseModel):
+    """A token to create: the same rules in the API and in ``wakeyard token create``."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    name: str = Field(
+        min_length=1,
+        max_length=100,
+        pattern=TOKEN_NAME,
+        description="the user the token stands for (jobs are owned by this name)",
+    )
+    admin: bool = Field(False, description="may change anyone's jobs and manage tokens")
+    expires_days: int | None = Field(
+        None, ge=1, le=MAX_EXPIRY_DAYS, description="days until the token stops working (none: never)"
+    )
 
 
 def digest(token: str) -> str:
     return hashlib.sha256(token.encode()).hexdigest()
 
 
+def issue_token(store: Store, request: TokenRequest) -> tuple[Token, str]:
+    """Store a new token and return its row and its secret: the only time the secret is ever shown."""
+    secret = "wy_" + secrets.token_urlsafe(32)
+    expires = utcnow() + timedelta(days=request.expires_days) if request.expires_days else None
+    return store.add_token(request.name, digest(secret), request.admin, expires), secret
+
+
 def create_token(store: Store, name: str, admin: bool = False) -> str:
-    """Store a new token for ``name`` and return it: the only time it is ever shown."""
-    token = "wy_" + secrets.token_urlsafe(32)
-    store.add_token(name, digest(token), admin)
-    return token
+    """A new token's secret (for the first admin and for tests)."""
+    return issue_token(store, TokenRequest(name=name, admin=admin))[1]

@@ -15,7 +15,7 @@ from starlette.concurrency import run_in_threadpool
 
 from wakeyard.core.disk import DiskReserve
 from wakeyard.core.settings import Settings
-from wakeyard.core.store import Store
+from wakeyard.core.store import Store, TokenRefused
 
 from .auth import digest
 from .dispatch import Dispatcher
@@ -69,9 +69,12 @@ async def current_user(
     field = "Authorization"
     if credentials is not None and credentials.credentials:
         key = digest(credentials.credentials.strip())
-        user = store.known_token_user(key) or await run_in_threadpool(store.token_user, key)
+        user = store.known_token_user(key)
         if user is None:
-            raise Unauthorized(field, "unknown token")
+            try:
+                user = await run_in_threadpool(store.token_user, key)
+            except TokenRefused as refused:  # unknown, expired or revoked
+                raise Unauthorized(field, str(refused)) from None
         return User(*user)
     if request.headers.get("authorization"):
         raise Unauthorized(field, "use the header Authorization: Bearer <token>")

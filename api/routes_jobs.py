@@ -119,7 +119,6 @@ def _check_tags(tags: list[str]) -> list[str]:
 def _submit(submission: Submission, user: User, spec: dict[str, Any], tags: list[str], fresh: bool) -> JSONResponse:
     submission.check_space()
     planned = submission.plan(spec, fresh)
-    submission.check_cap(user.name, [planned])
     job = submission.place(user.name, planned, tags)
     return JSONResponse(
         {"id": job.id, "state": job.state, "reused_from": job.reused_from, "links": links(job.id)},

@@ -17,7 +17,7 @@ from wakeyard.solver.study import StudySpec, expand
 
 from . import studies
 from .deps import StoreDep, UserDep
-from .problems import Conflict, Forbidden, NotFound, SpecProblems
+from .problems import Conflict, Forbidden, NotFound, SpecProblems, TooManyJobs
 from .routes_jobs import Fresh, limits
 from .study_plot import plot_png
 from .submission import Submission, SubmissionDep
@@ -78,10 +78,19 @@ def create_study(
     title = spec.title or str(points[0][1].get("title", "")) or spec.kind
     planned = [submission.plan(case, fresh, _point_title(title, v), values=v) for v, case in points]
     study = submission.store.create_study(user.name, spec.kind, title, spec.model_dump(mode="json"))
-    jobs = []
-    for p in planned:
-        p.provenance.study_id = study.id
-        jobs.append(submission.place(user.name, p, []))
+    jobs: list[Job] = []
+    try:
+        for p in planned:
+            p.provenance.study_id = study.id
+            jobs.append(submission.place(user.name, p, []))
+    except TooManyJobs as refused:  # concurrent requests took the room the early check saw: undo, say so
+        for job in jobs:
+            submission.store.cancel(job.id)
+        raise TooManyJobs(
+            "(request)",
+            f"{refused.problems[0][1]} (other requests took the room meanwhile: the {len(jobs)} points of study "
+            f"{study.id} created before were cancelled)",
+        ) from None
     return JSONResponse(
         {"id": study.id, "state": studies.state(jobs), "jobs": [j.id for j in jobs], "links": links(study.id)},
         status_code=202,

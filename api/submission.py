@@ -21,7 +21,7 @@ from fastapi import Depends
 
 from wakeyard.core.settings import Settings
 from wakeyard.core.states import JobState
-from wakeyard.core.store import Job, Provenance, Store
+from wakeyard.core.store import Job, OverCap, Provenance, Store
 
 from .deps import DispatchDep, SettingsDep, StoreDep
 from .fingerprint import solver_fingerprint
@@ -76,26 +76,17 @@ class Submission:
                 "is freed (delete jobs that are no longer needed)",
             )
 
-    def check_cap(self, owner: str, planned: list[Planned]) -> None:
-        """Refuse (429) jobs that would take ``owner`` over the per-user cap of queued + running jobs."""
-        self.check_room(owner, sum(p.provenance.source is None for p in planned))
-
     def check_room(self, owner: str, to_run: int) -> None:
-        """Refuse (429) ``to_run`` more jobs if they would take ``owner`` over the cap."""
-        if not to_run:
-            return
+        """Refuse (429) ``to_run`` more jobs at once if they would take ``owner`` over the per-user cap of queued +
+        running jobs: a cheap early refusal for a study; each creation checks again, atomically (:meth:`place`)."""
         cap, active = self.settings.max_active_per_user, self.store.active_count(owner)
-        if active + to_run > cap:
-            adding = "" if to_run == 1 else f" and this study would add {to_run} more"
-            raise TooManyJobs(
-                "(request)",
-                f"{owner} already has {active} queued or running jobs{adding}, the limit per user "
-                f"is {cap}: wait for some to finish, cancel some, or split the study",
-            )
+        if to_run and active + to_run > cap:
+            raise _too_many(owner, active, cap, to_run)
 
     def place(self, owner: str, planned: Planned, tags: list[str]) -> Job:
-        """Create the job; a reused result's files are hard-linked first, so deleting either job never breaks the
-        other. If the reused job's files vanish meanwhile (it was deleted), the job is queued to run instead."""
+        """Create the job (429 if a queued one would take ``owner`` over the cap, even under concurrent requests);
+        a reused result's files are hard-linked first, so deleting either job never breaks the other. If the
+        reused job's files vanish meanwhile (it was deleted), the job is queued to run instead."""
         job_id, source = uuid.uuid4().hex, planned.provenance.source
         if source is not None:
             target = self.settings.jobs_dir / job_id
@@ -105,10 +96,24 @@ class Submission:
                 log.warning("could not reuse the files of job %s (%s): running the case again", source.id, err)
                 shutil.rmtree(target, ignore_errors=True)
                 planned.provenance.source = None
-        job = self.store.create(owner, planned.spec, tags, planned.provenance, job_id)
+        try:
+            job = self.store.create(
+                owner, planned.spec, tags, planned.provenance, job_id, self.settings.max_active_per_user
+            )
+        except OverCap as over:
+            raise _too_many(owner, over.active, over.cap, 1) from None
         if job.state == JobState.QUEUED:
             self.dispatch(job.id)
         return job
+
+
+def _too_many(owner: str, active: int, cap: int, to_run: int) -> TooManyJobs:
+    adding = "" if to_run == 1 else f" and this study would add {to_run} more"
+    return TooManyJobs(
+        "(request)",
+        f"{owner} already has {active} queued or running jobs{adding}, the limit per user "
+        f"is {cap}: wait for some to finish, cancel some, or split the study",
+    )
 
 
 def _link_tree(source: Path, target: Path) -> None:

@@ -50,8 +50,14 @@ def main(argv: list[str] | None = None) -> int:
     token_sub = p_token.add_subparsers(dest="token_command", required=True)
     p_create = token_sub.add_parser("create", help="create a token and print it (shown only once)")
     p_create.add_argument("name")
-    p_create.add_argument("--admin", action="store_true", help="may cancel and delete anyone's jobs")
+    p_create.add_argument("--admin", action="store_true", help="may change anyone's jobs and manage tokens")
+    p_create.add_argument("--expires", type=int, metavar="DAYS", help="stops working after DAYS days (default: never)")
     p_create.add_argument("--data", type=Path)
+    p_list = token_sub.add_parser("list", help="the tokens: id, name, state, expiry, last use (never the secrets)")
+    p_list.add_argument("--data", type=Path)
+    p_revoke = token_sub.add_parser("revoke", help="revoke a token: the service refuses it within seconds")
+    p_revoke.add_argument("id", help="its id, from `wakeyard token list`")
+    p_revoke.add_argument("--data", type=Path)
     args = parser.parse_args(argv)
     if args.command == "run":
         return _run(args.spec, args.out, args.quiet)
@@ -68,7 +74,11 @@ def main(argv: list[str] | None = None) -> int:
         return service.migrate()
     if args.command == "worker":
         return service.check_worker() if args.check else service.worker()
-    return service.create_token(args.name, args.admin)
+    from . import tokens
+
+    if args.token_command == "create":
+        return tokens.create(args.name, args.admin, args.expires)
+    return tokens.show() if args.token_command == "list" else tokens.revoke(args.id)
 
 
 def _run(spec_path: Path, out: Path, quiet: bool) -> int:

@@ -1,4 +1,4 @@
-"""``wakeyard serve``, ``worker`` and ``token create``: start the service's processes on one machine."""
+"""``wakeyard serve`` and ``worker``: start the service's processes on one machine."""
 
 from __future__ import annotations
 
@@ -54,7 +54,7 @@ def serve(host: str, port: int) -> int:
             file=sys.stderr,
         )
         return 2
-    _migrate(settings.db_url, quiet=True)
+    migrate_store(settings.db_url, quiet=True)
     store, started = Store(settings.db_url), time.monotonic()
     if not _loopback(host) and not store.has_tokens() and settings.first_admin:
         _first_admin(store, settings.first_admin, settings.data_dir / "first-admin-token")
@@ -166,11 +166,11 @@ def migrate() -> int:
 
     settings = Settings()
     settings.data_dir.mkdir(parents=True, exist_ok=True)
-    _migrate(settings.db_url, quiet=False)
+    migrate_store(settings.db_url, quiet=False)
     return 0
 
 
-def _migrate(url: str, quiet: bool) -> None:
+def migrate_store(url: str, quiet: bool) -> None:
     from sqlalchemy.engine import make_url
 
     from wakeyard.core.migrate import migrate
@@ -233,19 +233,3 @@ def check_worker() -> int:
     seen = Store(settings.db_url).workers_seen(within=settings.lease_seconds, host=socket.gethostname())
     print(f"{seen} worker process(es) of this host seen in the last {settings.lease_seconds:g} s")
     return 0 if seen else 1
-
-
-def create_token(name: str, admin: bool) -> int:
-    from wakeyard.api.auth import create_token
-    from wakeyard.core.settings import Settings
-    from wakeyard.core.store import Store
-
-    settings = Settings()
-    settings.data_dir.mkdir(parents=True, exist_ok=True)
-    _migrate(settings.db_url, quiet=True)  # the first token may come before the first serve
-    store = Store(settings.db_url)
-    if store.has_token_named(name):
-        print(f"error: a token named {name!r} exists already", file=sys.stderr)
-        return 2
-    print(create_token(store, name, admin))
-    return 0

@@ -8,6 +8,9 @@ from pathlib import Path
 from pydantic import Field
 from pydantic_settings import BaseSettings, SettingsConfigDict
 
+# a token's name is its user's name: letters, digits and _ . @ - (the API's and the CLI's rule too)
+TOKEN_NAME = r"^[A-Za-z0-9][A-Za-z0-9_.@-]*$"
+
 
 class Settings(BaseSettings):
     model_config = SettingsConfigDict(env_prefix="WAKEYARD_", extra="ignore")
@@ -31,6 +34,7 @@ class Settings(BaseSettings):
     first_admin: str = Field(
         "",
         max_length=100,
+        pattern=f"^$|{TOKEN_NAME}",
         description="serve on a network address while no token exists: create an admin token of this name first "
         "and write it to first-admin-token in the data folder (a container needs no token made beforehand)",
     )

@@ -9,11 +9,11 @@ from __future__ import annotations
 from sqlalchemy.orm import sessionmaker
 
 from .engine import make_engine
-from .jobs import Jobs, Provenance
+from .jobs import Jobs, OverCap, Provenance
 from .leases import Claimed, Leases
 from .models import Base, Job, JobTag, Study, Token, WorkerSeen
 from .studies import Studies
-from .tokens import Tokens
+from .tokens import TokenRefused, Tokens, TokenTaken, token_state
 from .values import finite, utcnow
 
 
@@ -32,11 +32,15 @@ __all__ = [
     "Claimed",
     "Job",
     "JobTag",
+    "OverCap",
     "Provenance",
     "Store",
     "Study",
     "Token",
+    "TokenRefused",
+    "TokenTaken",
     "WorkerSeen",
     "finite",
+    "token_state",
     "utcnow",
 ]

@@ -1,7 +1,8 @@
 """Jobs: creation (queued, or succeeded at once by reusing a result), reads, lists, cancel and delete.
 
 Every state change is a compare-and-set ``UPDATE ... WHERE state = ...`` so that concurrent API calls and workers
-never overwrite each other.
+never overwrite each other. The per-user cap is checked in the creating transaction, after the insert and under a
+per-owner lock, so concurrent creations never take an owner over it.
 """
 
 from __future__ import annotations
@@ -10,8 +11,8 @@ import uuid
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import bindparam, delete, func, insert, select, update
-from sqlalchemy.engine import Row
+from sqlalchemy import bindparam, delete, func, insert, select, text, update
+from sqlalchemy.engine import Connection, Row
 
 from ..states import ACTIVE, JobState
 from .base import Repository
@@ -40,6 +41,24 @@ _RESULT = (
     .limit(1)
 )
 _ACTIVE = select(func.count()).where(Job.owner == bindparam("owner"), Job.state.in_(ACTIVE))
+# PostgreSQL: a transaction-scoped advisory lock per owner (the two-key form: a key space apart from the migration
+# lock's); a hash collision between two owners only makes them wait for each other, never lets one over its cap.
+_OWNER_LOCK = text("SELECT pg_advisory_xact_lock(1, hashtext(:owner))")
+
+
+class OverCap(Exception):
+    """A queued job would take its owner over the per-user cap; nothing was created."""
+
+    def __init__(self, owner: str, active: int, cap: int):
+        super().__init__(f"{owner} has {active} queued or running jobs, the cap is {cap}")
+        self.owner, self.active, self.cap = owner, active, cap
+
+
+def _lock_owner(conn: Connection, owner: str) -> None:
+    """Serialise the creations of one owner until this transaction ends. SQLite needs nothing here: the insert
+    that comes first takes its one write lock, held until commit, so the count after it sees every other job."""
+    if conn.dialect.name == "postgresql":
+        conn.execute(_OWNER_LOCK, {"owner": owner})
 
 
 class Jobs(Repository):
@@ -50,8 +69,12 @@ class Jobs(Repository):
         tags: list[str],
         new: Provenance | None = None,
         job_id: str | None = None,
+        cap: int | None = None,
     ) -> Job:
-        """A queued job, or with ``new.source`` one that is succeeded at once with the source's result."""
+        """A queued job, or with ``new.source`` one that is succeeded at once with the source's result.
+
+        With ``cap``, a queued job is created only if its owner then has at most ``cap`` queued or running jobs,
+        else :class:`OverCap` is raised and nothing is created."""
         job = Job(
             id=job_id or uuid.uuid4().hex,
             state=JobState.QUEUED,
@@ -75,8 +98,13 @@ class Jobs(Repository):
             job.started_at = job.finished_at = now
             job.progress_fraction, job.progress_step, job.progress_time = 1.0, src.progress_step, src.progress_time
         values = {c.key: getattr(job, c.key) for c in JOBS.columns if c.key != "seq"}
+        capped = cap is not None and job.state == JobState.QUEUED
         with self.engine.begin() as conn:  # Core, not the unit of work: creation is a hot path
+            if capped:
+                _lock_owner(conn, owner)
             job.seq = conn.execute(insert(JOBS), values).inserted_primary_key[0]
+            if capped and (active := conn.scalar(_ACTIVE, {"owner": owner}) or 0) > cap:
+                raise OverCap(owner, active - 1, cap)  # rolls the insert back
             if tags:
                 conn.execute(insert(JobTag.__table__), [{"job_seq": job.seq, "tag": t} for t in set(tags)])
         return job

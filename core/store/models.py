@@ -84,12 +84,18 @@ class JobTag(Base):
 
 
 class Token(Base):
+    """One live token per name (the name is the user); a revoked or expired one stays listed until replaced."""
+
     __tablename__ = "tokens"
 
     name: Mapped[str] = mapped_column(String(100), primary_key=True)
+    id: Mapped[str] = mapped_column(String(16), unique=True, index=True)  # what lists show and revoke takes
     digest: Mapped[str] = mapped_column(String(64), unique=True, index=True)
     admin: Mapped[bool] = mapped_column(Boolean, default=False)
     created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+    expires_at: Mapped[datetime | None] = mapped_column(UTCDateTime)
+    last_used_at: Mapped[datetime | None] = mapped_column(UTCDateTime)
+    revoked_at: Mapped[datetime | None] = mapped_column(UTCDateTime)
 
 
 class WorkerSeen(Base):

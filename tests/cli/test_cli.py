@@ -83,6 +83,32 @@ def test_open_address_needs_a_token_and_token_create_prints_one(tmp_path: Path) 
     assert again.returncode == 2 and "exists already" in again.stderr
 
 
+def test_token_list_and_revoke(tmp_path: Path) -> None:
+    """Tokens are listed with id, state and expiry (never the secret), revoked by id; bad input is exit 2."""
+
+    def token(*args: str) -> subprocess.CompletedProcess[str]:
+        cmd = [*WAKEYARD, "token", *args, "--data", str(tmp_path)]
+        return subprocess.run(cmd, capture_output=True, text=True, timeout=60)
+
+    made = token("create", "ana", "--expires", "7")
+    secret = made.stdout.strip()
+    assert made.returncode == 0 and secret.startswith("wy_") and "until " in made.stderr
+    assert token("create", "ops", "--admin").returncode == 0
+    listed = token("list")
+    header, *rows = listed.stdout.splitlines()
+    assert header.split()[:4] == ["ID", "NAME", "ADMIN", "STATE"] and secret not in listed.stdout
+    ana = next(r.split() for r in rows if r.split()[1] == "ana")
+    assert ana[2:4] == ["no", "active"] and len(rows) == 2
+    revoked = token("revoke", ana[0])
+    assert revoked.returncode == 0 and f"revoked the token {ana[0]} of 'ana'" in revoked.stderr
+    assert next(r.split() for r in token("list").stdout.splitlines() if " ana " in r)[3] == "revoked"
+    unknown = token("revoke", "nope")
+    assert unknown.returncode == 2 and "no token nope" in unknown.stderr
+    bad = token("create", "bo", "--expires", "0")
+    assert bad.returncode == 2 and "--expires: " in bad.stderr
+    assert token("create", "ana").returncode == 0  # a revoked token's name can be given a new one
+
+
 def test_first_admin_token_lets_serve_listen_openly_without_a_restart(tmp_path: Path) -> None:
     """The compose API's case: no token exists yet, and serve on 0.0.0.0 makes the first admin token itself."""
     port = _free_port()
