@@ -324,10 +324,12 @@ class _Transient:
         x0 = case.ns.stokes(0.0)
         if a.scheme == ADAPTIVE:
             U = case.spec.reference_velocity()
-            scales = Scales(U, case.spec.reference_length() / U, float(case.th.mass.sum()))
+            scales = Scales(U, case.spec.reference_length() / U)
             first = a.time_step or FIRST_STEP * scales.time
             breakpoints = case.spec.inflow.breakpoints()
-            return AdaptiveBDF2(case.ns, x0, a.accuracy, scales, first_step=first, breakpoints=breakpoints)
+            return AdaptiveBDF2(
+                case.ns, x0, a.accuracy, scales, first_step=first, breakpoints=breakpoints, cfl=case.cfl
+            )
         return Stepper(case.ns, a.scheme, a.time_step, x0, cfl=case.cfl)
 
     def _start(self) -> Stepper | AdaptiveBDF2:
