@@ -140,6 +140,8 @@ export class JobView {
       card.append(h("p", {class: "message"}, err.message));
       return;
     }
+    this.stepTimes = forces.time;
+    this.updatePicture?.();
     if (forces.time.length < 2) {
       // steady run: one row of values
       card.append(h("table", {class: "summary-table", id: "force-values"},
@@ -185,7 +187,7 @@ export class JobView {
       return;
     }
     const steps = [...new Set(kinds.flatMap(([k]) => [...byKind[k].keys()]))].sort((a, b) => a - b);
-    const dt = this.job.spec?.analysis?.mode === "transient" ? this.job.spec.analysis.time_step : null;
+    const transient = this.job.spec?.analysis?.mode === "transient";
     let kind = kinds[0][0];
     let index = steps.length - 1;
     const img = h("img", {class: "field-picture", id: "field-picture", alt: "", decoding: "async"});
@@ -196,7 +198,9 @@ export class JobView {
     const update = () => {
       const step = steps[index];
       const path = byKind[kind].get(step) ?? null;
-      const t = dt ? ` · t ≈ ${num(step * dt, 4)} s` : "";
+      // steps vary in length: a snapshot's time is that of its row in forces.csv (step n is row n)
+      const time = transient ? (step === 0 ? 0 : this.stepTimes?.[step - 1]) : undefined;
+      const t = time !== undefined ? ` · t = ${num(time, 4)} s` : "";
       const label = FIELDS.find(([k]) => k === kind)[1];
       caption.textContent = `${label}, snapshot ${index + 1} of ${steps.length} (step ${step}${t})`;
       slider.setAttribute("aria-valuetext", caption.textContent);
@@ -209,6 +213,7 @@ export class JobView {
       img.dataset.path = path;
       showPicture(img, this.job.id, path).catch((err) => toast(err.message, "error"));
     };
+    this.updatePicture = update;
     slider.addEventListener("input", () => {
       index = Number(slider.value);
       update();

@@ -187,6 +187,7 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
     # a field picture loads, and the slider and field choice change it
     picture = page.locator("#field-picture")
     expect(picture).to_have_attribute("src", re.compile(r"pictures/speed_000060\.png$"))
+    expect(picture).to_have_attribute("alt", re.compile(r"step 60 · t = 0\.3 s$"))  # its row in forces.csv
     page.wait_for_function(
         "() => { const i = document.getElementById('field-picture'); return i.complete && i.naturalWidth > 100; }"
     )
