@@ -23,6 +23,8 @@ from scipy.sparse.linalg import spsolve  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # the published cases live with the tests
 
+import published_bench  # noqa: E402 (beside this script)
+
 from tests.solver import published_cases as pc  # noqa: E402
 from wakeyard import solver  # noqa: E402
 from wakeyard.solver.case import Case  # noqa: E402
@@ -33,13 +35,7 @@ from wakeyard.solver.steady import solve_steady  # noqa: E402
 
 
 def compare(label: str, computed: float | None, reference: float, source: str) -> None:
-    if computed is None:
-        print(f"  {label:34s} computed   none     published {reference:8.4f}  ({source})")
-        return
-    print(
-        f"  {label:34s} computed {computed:8.4f}  published {reference:8.4f}  "
-        f"diff {100 * (computed - reference) / abs(reference):+6.2f} %  ({source})"
-    )
+    published_bench.compare(label, computed, reference, source, width=34)
 
 
 def plates() -> None:

@@ -23,12 +23,13 @@ from wakeyard.core.blas import one_blas_thread
 one_blas_thread()  # as the worker runs
 
 
-def compare(label: str, computed: float | None, reference: float, source: str) -> None:
+def compare(label: str, computed: float | None, reference: float, source: str, width: int = 28) -> None:
+    """One line: computed against published, with the difference in per cent and the source."""
     if computed is None:
-        print(f"  {label:28s} computed   none     published {reference:8.4f}  ({source})")
+        print(f"  {label:{width}s} computed   none     published {reference:8.4f}  ({source})")
         return
     print(
-        f"  {label:28s} computed {computed:8.4f}  published {reference:8.4f}  "
+        f"  {label:{width}s} computed {computed:8.4f}  published {reference:8.4f}  "
         f"diff {100 * (computed - reference) / abs(reference):+6.2f} %  ({source})"
     )
 

@@ -84,7 +84,6 @@ class AdaptiveBDF2:
         first_step: float,
         breakpoints: list[float] | None = None,
         cfl: Callable[[np.ndarray, float], float] | None = None,
-        t0: float = 0.0,
     ):
         self.ns, self.accuracy, self.scales = ns, accuracy, scales
         th = ns.th
@@ -93,7 +92,7 @@ class AdaptiveBDF2:
         self.velocity_free = ns.free[ns.free < 2 * th.nu]
         self.levels = [x0.copy()]  # newest first: x_n, x_{n-1}, x_{n-2}
         self.steps: list[float] = []  # newest first: h_n, h_{n-1}
-        self.t, self.n, self.h, self.first_step = t0, 0, first_step, first_step
+        self.t, self.n, self.h, self.first_step = 0.0, 0, first_step, first_step
         self.breakpoints = np.array(sorted(breakpoints or []), dtype=float)
         self.cfl = cfl
         self.controller = PIController()
@@ -214,9 +213,8 @@ class AdaptiveBDF2:
                     self.extra_corrections += 1
                     if self.extra_corrections > RENEW_AFTER:
                         self.factored_alpha = None  # slow corrections cost about a factorisation: factor next step
-                full = np.zeros_like(x)
-                full[free] = delta
-                if contraction * self._norm(full) <= target:
+                # the free unknowns are sorted, velocities first: the correction's velocity part leads it
+                if contraction * self._rms(delta[: len(self.velocity_free)]) <= target:
                     return x, conv
                 r = r_new
             r, _ = residual(x)
@@ -236,7 +234,10 @@ class AdaptiveBDF2:
 
     def _norm(self, x: np.ndarray) -> float:
         """Root mean square of the free velocity unknowns, relative to U (prescribed values are not computed)."""
-        return float(np.sqrt(np.mean(x[self.velocity_free] ** 2)) / self.scales.velocity)
+        return self._rms(x[self.velocity_free])
+
+    def _rms(self, v: np.ndarray) -> float:
+        return float(np.sqrt(np.mean(v**2)) / self.scales.velocity)
 
     def _accept(self, x: np.ndarray, h: float) -> None:
         self.levels = [x, *self.levels][:3]
