@@ -44,6 +44,24 @@ class HealthCollector(Collector):
             yield _gauge("wakeyard_free_disk_bytes", "Free space in the data folder.", found.free_disk_bytes)
 
 
+class DiskUseCollector(Collector):
+    """Bytes of result files per owner as the disk sweep last measured them, and the per-user quota."""
+
+    def __init__(self, settings: Settings, store: Store):
+        self.settings, self.store = settings, store
+
+    def collect(self) -> Iterator[Metric]:
+        try:
+            use = self.store.disk_use_by_owner()
+        except Exception:  # the store does not answer: health says so; no numbers rather than wrong ones
+            return
+        used = GaugeMetricFamily("wakeyard_disk_used_bytes", "Result files each owner's jobs take.", labels=["owner"])
+        for owner, n in sorted(use.items()):
+            used.add_metric([owner], n)
+        yield used
+        yield _gauge("wakeyard_disk_quota_bytes", "Per-user quota (0: none).", self.settings.user_quota_bytes)
+
+
 def _gauge(name: str, documentation: str, value: float) -> GaugeMetricFamily:
     return GaugeMetricFamily(name, documentation, value=float(value))
 
@@ -51,6 +69,7 @@ def _gauge(name: str, documentation: str, value: float) -> GaugeMetricFamily:
 def registry_for(settings: Settings, store: Store, celery: Celery) -> tuple[CollectorRegistry, Histogram]:
     registry = CollectorRegistry(auto_describe=False)
     registry.register(HealthCollector(settings, store, celery))
+    registry.register(DiskUseCollector(settings, store))
     latency = Histogram(
         "wakeyard_http_request_duration_seconds",
         "Time from a request's arrival to the start of its response, by route template, method and status.",

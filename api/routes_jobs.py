@@ -117,7 +117,7 @@ def _check_tags(tags: list[str]) -> list[str]:
 
 
 def _submit(submission: Submission, user: User, spec: dict[str, Any], tags: list[str], fresh: bool) -> JSONResponse:
-    submission.check_space()
+    submission.check_space(user.name)
     planned = submission.plan(spec, fresh)
     job = submission.place(user.name, planned, tags)
     return JSONResponse(
