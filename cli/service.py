@@ -18,6 +18,8 @@ from typing import Any
 import uvicorn
 from uvicorn.supervisors import Multiprocess
 
+SERVE_PID = "WAKEYARD_SERVE_PID"  # the API processes' parent, for their parent-death signal
+
 
 def configure(data: Path | None, workers: int | None) -> None:
     """Command-line options become WAKEYARD_* variables, so worker children see the same settings."""
@@ -116,7 +118,9 @@ def api_process_app() -> Any:
     reads the same WAKEYARD_* settings; the lead (``core.lead``) makes one of them the reaper."""
     from wakeyard.api.app import create_app
     from wakeyard.core.blas import one_blas_thread
+    from wakeyard.worker.child import die_with_parent
 
+    die_with_parent(int(os.environ[SERVE_PID]))  # a kill -9 of serve takes its API processes along, as its workers
     _log_to_stderr()
     one_blas_thread()
     return create_app()
@@ -133,6 +137,7 @@ class _Api:
 
             self.server = _Server(uvicorn.Config(create_app(settings), **common), on_exit=on_exit)
         else:
+            os.environ[SERVE_PID] = str(os.getpid())
             self.config = uvicorn.Config(
                 "wakeyard.cli.service:api_process_app", factory=True, workers=processes, **common
             )

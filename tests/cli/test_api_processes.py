@@ -1,6 +1,6 @@
 """``wakeyard serve --api-processes 2``: two real API processes answer on one port, exactly one of them holds the
 lead and runs the lease reaper, the lead passes to another process when its holder is killed, and Ctrl-C stops
-them all."""
+them all, while a kill -9 of serve takes them along."""
 
 from __future__ import annotations
 
@@ -88,3 +88,11 @@ def test_two_api_processes_exactly_one_leads_and_the_lead_moves_when_it_dies(
     proc.wait(10)
     took = time.monotonic() - started
     assert proc.returncode == 0 and not any(alive(pid) for pid in again), took
+
+
+def test_a_kill_9_of_serve_takes_its_api_processes_along(serve2: tuple[subprocess.Popen[bytes], str, str]) -> None:
+    proc, url, _ = serve2
+    seen = until(lambda: len(s := processes(url)) == 2 and s, timeout=30)
+    os.kill(proc.pid, signal.SIGKILL)
+    proc.wait(10)
+    until(lambda: not any(alive(pid) for pid in seen), timeout=10)  # the kernel's parent-death signal
