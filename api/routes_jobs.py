@@ -83,6 +83,7 @@ def view(job: Job | Row[Any]) -> dict[str, Any]:
         "summary": job.summary,
         "error": job.error,
         "reused_from": job.reused_from,
+        "fields_removed_at": _stamp(job.trimmed_at),  # the retention rule removed fields, pictures, checkpoint
         "study": job.study_id,
         "links": links(job.id),
         "caution": CAUTION,

@@ -24,9 +24,16 @@ MiB = 2**20
 
 
 @pytest.fixture
-def client(tmp_path: Path) -> Iterator[TestClient]:
+def client(tmp_path: Path, blank_store_url: str) -> Iterator[TestClient]:
+    """The API on SQLite and on PostgreSQL, with no worker: the test claims and finishes jobs as a worker would."""
     settings = settings_for(
-        tmp_path, "wakeyard-disk", broker="", user_quota_mb=3, fields_retention_days=7, disk_sweep_seconds=3600
+        tmp_path,
+        "wakeyard-disk",
+        broker="",
+        database_url=blank_store_url,
+        user_quota_mb=3,
+        fields_retention_days=7,
+        disk_sweep_seconds=3600,
     )
     with TestClient(create_app(settings)) as client:
         yield client
@@ -109,7 +116,11 @@ def test_retention_trims_old_jobs_only_and_keeps_their_results(client: TestClien
     assert sorted(p.name for p in old_folder.iterdir()) == ["forces.csv", "spec.json", "summary.json"]
     assert digests(old_folder) == kept_before
     assert digests(recent_folder) == recent_before and (recent_folder / "fields" / "step_000010.vtu").exists()
-    assert client.get(f"/api/v1/jobs/{old}").json()["summary"] == {"bodies": []}
+    shown = client.get(f"/api/v1/jobs/{old}").json()
+    assert shown["summary"] == {"bodies": []} and shown["fields_removed_at"] is not None
+    assert client.get(f"/api/v1/jobs/{recent}").json()["fields_removed_at"] is None
+    files = [f["path"] for f in client.get(f"/api/v1/jobs/{old}/files").json()["files"]]
+    assert sorted(files) == ["forces.csv", "spec.json", "summary.json"]  # no fields.zip offered any more
     assert client.app.state.reaper.sweep.apply_retention() == []  # once only
 
     client.app.state.reaper.sweep.run()
