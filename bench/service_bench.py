@@ -6,9 +6,10 @@ requests to it; nothing leaves the machine. Redis figures use DB 6 of the local 
 on two cores).
 
 ``python bench/service_bench.py wrk [N ...]`` measures the API alone with ``wrk`` (Debian's package): creations/s
-and status reads/s over 32 connections, Redis broker and a PostgreSQL job store (``WAKEYARD_BENCH_POSTGRES_URL``,
-default the local server's ``postgres`` database; a schema of its own, dropped afterwards), for ``serve
---api-processes N`` (default 1 and 2), and prints each figure and its ratio to the first N.
+(all by one owner, then spread over 16) and status reads/s over 32 connections, Redis broker and a PostgreSQL job
+store (``WAKEYARD_BENCH_POSTGRES_URL``, default the local server's ``postgres`` database; a schema of its own,
+dropped afterwards), for ``serve --api-processes N`` (default 1 and 2), and prints each figure and its ratio to
+the first N.
 
 ``python bench/service_bench.py dispatch`` measures the wake-up path alone on Redis: wall and CPU time per
 wake-up for a burst sent one ``send_task`` each (the path before batching) and through ``api.dispatch.Dispatcher``
@@ -214,35 +215,56 @@ def wrk(url: str, script: str, folder: Path) -> float:
     return float(next(line for line in out.splitlines() if line.startswith("Requests/sec:")).split()[1])
 
 
-def wrk_rates(folder: Path, api_processes: int) -> tuple[float, float]:
-    """(creations/s, status reads/s) of ``serve --api-processes N --workers 0`` on Redis and PostgreSQL."""
+OWNERS = 16  # the team run: creations spread over this many tokens
+
+
+def creation_script(body: str, tokens: list[str]) -> str:
+    """wrk Lua: POST the spec, each request with the next token in turn."""
+    names = ", ".join(json.dumps(t) for t in tokens)
+    return f"""
+tokens = {{{names}}}
+body = {json.dumps(body)}
+n = 0
+request = function()
+  n = n + 1
+  local headers = {{["Content-Type"] = "application/json", ["Authorization"] = "Bearer " .. tokens[n % #tokens + 1]}}
+  return wrk.format("POST", nil, headers, body)
+end
+"""
+
+
+def wrk_rates(folder: Path, api_processes: int) -> tuple[float, float, float]:
+    """(creations/s by one owner, creations/s spread over OWNERS owners, status reads/s) of ``serve
+    --api-processes N --workers 0`` on Redis and PostgreSQL."""
     import sqlalchemy
 
+    from wakeyard.api.auth import create_token
+    from wakeyard.core.store import Store
+
     schema = f"wakeyard_bench_{os.getpid()}_{api_processes}"
+    store_url = f"{POSTGRES_URL}?options=-csearch_path%3D{schema}"
     admin = sqlalchemy.create_engine(POSTGRES_URL)
     with admin.begin() as conn:
         conn.execute(sqlalchemy.text(f"CREATE SCHEMA {schema}"))
-    service = Service(
-        folder,
-        workers=0,
-        broker=REDIS_URL,
-        api_processes=api_processes,
-        WAKEYARD_DATABASE_URL=f"{POSTGRES_URL}?options=-csearch_path%3D{schema}",
-    )
+    service = Service(folder, workers=0, broker=REDIS_URL, api_processes=api_processes, WAKEYARD_DATABASE_URL=store_url)
+    store = Store(store_url)
     try:
+        tokens = [create_token(store, f"engineer{i}") for i in range(OWNERS)]
         body = json.dumps(case(0.3))
-        create = (
-            f"wrk.method = 'POST'\nwrk.body = {json.dumps(body)}\nwrk.headers['Content-Type'] = 'application/json'\n"
+        alone = wrk(f"{service.url}/api/v1/jobs", creation_script(body, tokens[:1]), folder)
+        team = wrk(f"{service.url}/api/v1/jobs", creation_script(body, tokens), folder)
+        bearer = {"Authorization": f"Bearer {tokens[0]}"}
+        job_id = httpx.get(f"{service.url}/api/v1/jobs?limit=1", headers=bearer).json()["jobs"][0]["id"]
+        reads = wrk(
+            f"{service.url}/api/v1/jobs/{job_id}", f"wrk.headers['Authorization'] = 'Bearer {tokens[0]}'", folder
         )
-        creations = wrk(f"{service.url}/api/v1/jobs", create, folder)
-        job_id = httpx.get(f"{service.url}/api/v1/jobs?limit=1").json()["jobs"][0]["id"]
-        reads = wrk(f"{service.url}/api/v1/jobs/{job_id}", "", folder)
     finally:
         service.stop()
+        store.engine.dispose()
         with admin.begin() as conn:
             conn.execute(sqlalchemy.text(f"DROP SCHEMA {schema} CASCADE"))
         admin.dispose()
-    return creations, reads
+    return alone, team, reads
 
 
 def wrk_main(processes: list[int]) -> None:
@@ -253,11 +275,11 @@ def wrk_main(processes: list[int]) -> None:
         for n in processes:
             r.flushdb()
             found.append(wrk_rates(Path(tmp) / f"api{n}", n))
-            creations, reads = found[-1]
-            base_c, base_r = found[0]
+            (alone, team, reads), (alone0, team0, reads0) = found[-1], found[0]
             print(
-                f"--api-processes {n}: {creations:7.0f} creations/s (x{creations / base_c:.2f}; target >= 500), "
-                f"{reads:7.0f} status reads/s (x{reads / base_r:.2f}; target >= 2000)",
+                f"--api-processes {n}: creations {alone:5.0f}/s by one owner (x{alone / alone0:.2f}), "
+                f"{team:5.0f}/s by {OWNERS} owners (x{team / team0:.2f}; target >= 500); "
+                f"status reads {reads:5.0f}/s (x{reads / reads0:.2f}; target >= 2000)",
                 flush=True,
             )
     r.flushdb()
