@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from datetime import datetime
 
-from sqlalchemy import bindparam, func, or_, select, update
+from sqlalchemy import bindparam, case, func, or_, select, update
 
 from ..states import FINISHED, JobState
 from .base import Repository
@@ -19,12 +19,20 @@ _USE = select(func.coalesce(func.sum(Job.disk_bytes), 0)).where(Job.owner == bin
 
 
 class Usage(Repository):
-    def to_measure(self) -> list[str]:
+    def to_measure(self, limit: int = 1000) -> list[str]:
         """Jobs whose folder may have changed since it was last measured: running ones, and finished or reused
-        ones not measured since."""
+        ones not measured since, at most ``limit`` (a store upgraded with many jobs is measured over several
+        sweeps, so the lease checks beside them never wait long)."""
         unmeasured = (Job.state.in_(FINISHED)) & Job.disk_bytes.is_(None)
+        running_first = case((Job.state == JobState.RUNNING, 0), else_=1)
+        q = (
+            select(Job.id)
+            .where(or_(Job.state == JobState.RUNNING, unmeasured))
+            .order_by(running_first, Job.seq.desc())
+            .limit(limit)
+        )
         with self.engine.connect() as conn:
-            return list(conn.scalars(select(Job.id).where(or_(Job.state == JobState.RUNNING, unmeasured))))
+            return list(conn.scalars(q))
 
     def record_sizes(self, sizes: dict[str, int]) -> None:
         if not sizes:
