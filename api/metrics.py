@@ -3,12 +3,14 @@ read at each scrape. Each app has its own registry, so several apps in one proce
 
 from __future__ import annotations
 
+import os
 import time
 from collections.abc import Iterator
 
 from celery import Celery
 from prometheus_client import CollectorRegistry, Histogram
 from prometheus_client.core import GaugeMetricFamily, Metric
+from prometheus_client.multiprocess import MultiProcessCollector
 from prometheus_client.registry import Collector
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
@@ -67,14 +69,20 @@ def _gauge(name: str, documentation: str, value: float) -> GaugeMetricFamily:
 
 
 def registry_for(settings: Settings, store: Store, celery: Celery) -> tuple[CollectorRegistry, Histogram]:
+    """The scrape's registry and the latency histogram. Under ``serve --api-processes N`` (``PROMETHEUS_MULTIPROC_DIR``
+    set) every process writes its histogram to that folder and a scrape, whichever process answers it, sums them
+    all (prometheus_client's multiprocess mode)."""
     registry = CollectorRegistry(auto_describe=False)
     registry.register(HealthCollector(settings, store, celery))
     registry.register(DiskUseCollector(settings, store))
+    shared = bool(os.environ.get("PROMETHEUS_MULTIPROC_DIR"))
+    if shared:
+        MultiProcessCollector(registry)
     latency = Histogram(
         "wakeyard_http_request_duration_seconds",
         "Time from a request's arrival to the start of its response, by route template, method and status.",
         ["method", "route", "status"],
-        registry=registry,
+        registry=None if shared else registry,
     )
     return registry, latency
 

@@ -6,6 +6,7 @@ import contextlib
 import ipaddress
 import logging
 import os
+import shutil
 import signal
 import sys
 import threading
@@ -138,6 +139,11 @@ class _Api:
             self.server = _Server(uvicorn.Config(create_app(settings), **common), on_exit=on_exit)
         else:
             os.environ[SERVE_PID] = str(os.getpid())
+            # the API processes' request histograms, summed by every scrape (prometheus_client's multiprocess mode)
+            metrics = settings.data_dir / "api-metrics"
+            shutil.rmtree(metrics, ignore_errors=True)
+            metrics.mkdir()
+            os.environ["PROMETHEUS_MULTIPROC_DIR"] = str(metrics)
             self.config = uvicorn.Config(
                 "wakeyard.cli.service:api_process_app", factory=True, workers=processes, **common
             )

@@ -14,6 +14,7 @@ from pathlib import Path
 import httpx
 import pytest
 import sqlalchemy
+from prometheus_client.parser import text_string_to_metric_families
 
 from tests.cli.test_cli import WAKEYARD, _children, _free_port
 from tests.worker.test_supervision import SPEED, alive, until
@@ -45,11 +46,26 @@ def processes(url: str, tries: int = 400) -> dict[int, bool]:
     """pid → leads, as the API processes answer (a new connection each time, so the kernel spreads them)."""
     seen: dict[int, bool] = {}
     for _ in range(tries):
+        ASKED.append(1)
         process = httpx.get(f"{url}/api/v1/health", timeout=10).json()["process"]
         seen[process["pid"]] = process["leads"]
         if len(seen) == 2:
             break
     return seen
+
+
+ASKED: list[int] = []  # health requests sent so far
+
+
+def health_count(url: str) -> float:
+    """Health requests counted by the latency histogram of /metrics (whichever process answers the scrape)."""
+    return sum(
+        sample.value
+        for family in text_string_to_metric_families(httpx.get(f"{url}/metrics", timeout=10).text)
+        for sample in family.samples
+        if sample.name == "wakeyard_http_request_duration_seconds_count"
+        and sample.labels.get("route") == "/api/v1/health"
+    )
 
 
 def leaders(store_url: str) -> int:
@@ -71,10 +87,14 @@ def test_two_api_processes_exactly_one_leads_and_the_lead_moves_when_it_dies(
     serve2: tuple[subprocess.Popen[bytes], str, str],
 ) -> None:
     proc, url, store_url = serve2
+    ASKED.clear()
     seen = until(lambda: len(s := processes(url)) == 2 and sum(s.values()) == 1 and s, timeout=30)
     assert set(seen) <= set(_children(proc.pid))  # both are serve's own children
     if store_url.startswith("postgresql"):
         assert leaders(store_url) == 1
+
+    # both processes answered health requests: every scrape counts all of them, whichever process answers it
+    assert [health_count(url) for _ in range(6)] == [len(ASKED)] * 6
 
     [leader] = [pid for pid, leads in seen.items() if leads]
     os.kill(leader, signal.SIGKILL)  # uvicorn's manager starts a new process in its place
