@@ -19,11 +19,12 @@ from wakeyard.core.store import Store
 from wakeyard.solver.caution import CAUTION
 from wakeyard.solver.study import StudySpec
 
-from . import routes_files, routes_jobs, routes_ops, routes_previews, routes_studies, routes_tokens
+from . import routes_files, routes_jobs, routes_ops, routes_previews, routes_studies, routes_tokens, routes_usage
 from .dispatch import Dispatcher
 from .limits import BodyLimit
 from .metrics import Timing, registry_for
 from .problems import install
+from .quota import Quota
 from .reaper import Reaper
 from .text_checks import RefuseNul
 
@@ -59,13 +60,21 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         description=f"Queued 2D incompressible flow simulations. Caution: {CAUTION}",
     )
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
-    app.state.reaper, app.state.reserve = reaper, reserve
+    app.state.reaper, app.state.reserve, app.state.quota = reaper, reserve, Quota(settings, store)
     app.state.registry, latency = registry_for(settings, store, celery)
     install(app)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes, max_seconds=settings.max_body_seconds)
     app.add_middleware(RefuseNul)
     app.add_middleware(Timing, latency=latency)  # outermost of ours: refusals are timed too
-    for module in (routes_jobs, routes_previews, routes_files, routes_studies, routes_tokens, routes_ops):
+    for module in (
+        routes_jobs,
+        routes_previews,
+        routes_files,
+        routes_studies,
+        routes_tokens,
+        routes_usage,
+        routes_ops,
+    ):
         app.include_router(module.router)
     _document_spec(app)
     app.mount("/", StaticFiles(directory=str(WEB), html=True), name="web")

@@ -1,4 +1,4 @@
-"""FastAPI dependencies: the app's settings, job store, disk reserve and wake-up sender, and the caller.
+"""FastAPI dependencies: the app's settings, job store, disk reserve, quota and wake-up sender, and the caller.
 
 They are ``async`` on purpose: they only read ``app.state`` (or a cache), and a plain ``def`` would cost every
 request a hop through the thread pool.
@@ -20,6 +20,7 @@ from wakeyard.core.store import Store, TokenRefused
 from .auth import digest
 from .dispatch import Dispatcher
 from .problems import Unauthorized
+from .quota import Quota
 
 LOCAL_USER = "local"
 
@@ -46,10 +47,15 @@ async def get_dispatch(request: Request) -> Dispatcher:
     return request.app.state.dispatch
 
 
+async def get_quota(request: Request) -> Quota:
+    return request.app.state.quota
+
+
 SettingsDep = Annotated[Settings, Depends(get_settings)]
 StoreDep = Annotated[Store, Depends(get_store)]
 ReserveDep = Annotated[DiskReserve, Depends(get_reserve)]
 DispatchDep = Annotated[Dispatcher, Depends(get_dispatch)]
+QuotaDep = Annotated[Quota, Depends(get_quota)]
 
 bearer = HTTPBearer(
     auto_error=False,  # without any token configured the service is single-user: no header is fine then

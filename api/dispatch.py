@@ -1,5 +1,10 @@
 """Wake-ups for workers, sent from a background thread so a request never waits on the broker.
 
+Wake-ups queued while the thread was publishing go out together: one producer taken from the pool per batch, and
+kombu's publish batch (``Producer.batch``), which on Redis sends the whole batch as one pipeline, one round trip
+(other transports publish each message at once, as before). A burst of creations costs one broker round trip, not
+one per job.
+
 A wake-up that is lost (broker down, process killed before sending) costs only time: the job is already
 in the store, and the reaper re-sends wake-ups for queued jobs when the workers sit idle.
 """
@@ -15,6 +20,7 @@ from celery import Celery
 from wakeyard.core.broker import TASK
 
 log = logging.getLogger(__name__)
+MAX_BATCH = 256
 
 
 class Dispatcher:
@@ -33,8 +39,25 @@ class Dispatcher:
         self.thread.join(timeout)
 
     def _loop(self) -> None:
-        while (job_id := self.pending.get()) is not None:
-            try:
-                self.celery.send_task(TASK, args=[job_id], queue=self.queue_name)
-            except Exception:
-                log.exception("could not send the wake-up for job %s; the reaper will retry", job_id)
+        stopping = False
+        while not stopping:
+            batch = [self.pending.get()]
+            while len(batch) < MAX_BATCH:
+                try:
+                    batch.append(self.pending.get_nowait())
+                except queue.Empty:
+                    break
+            stopping = None in batch
+            self._send([job_id for job_id in batch if job_id is not None])
+
+    def _send(self, batch: list[str]) -> None:
+        if not batch:
+            return
+        sent = 0
+        try:
+            with self.celery.producer_or_acquire() as producer, producer.batch(max_size=MAX_BATCH):
+                for job_id in batch:
+                    self.celery.send_task(TASK, args=[job_id], queue=self.queue_name, producer=producer)
+                    sent += 1
+        except Exception:  # the broker is away: the rest would fail the same way, each after its own retries
+            log.exception("could not send %d of %d wake-up(s); the reaper will retry", len(batch) - sent, len(batch))

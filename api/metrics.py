@@ -3,12 +3,14 @@ read at each scrape. Each app has its own registry, so several apps in one proce
 
 from __future__ import annotations
 
+import os
 import time
 from collections.abc import Iterator
 
 from celery import Celery
 from prometheus_client import CollectorRegistry, Histogram
 from prometheus_client.core import GaugeMetricFamily, Metric
+from prometheus_client.multiprocess import MultiProcessCollector
 from prometheus_client.registry import Collector
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
@@ -44,18 +46,43 @@ class HealthCollector(Collector):
             yield _gauge("wakeyard_free_disk_bytes", "Free space in the data folder.", found.free_disk_bytes)
 
 
+class DiskUseCollector(Collector):
+    """Bytes of result files per owner as the disk sweep last measured them, and the per-user quota."""
+
+    def __init__(self, settings: Settings, store: Store):
+        self.settings, self.store = settings, store
+
+    def collect(self) -> Iterator[Metric]:
+        try:
+            use = self.store.disk_use_by_owner()
+        except Exception:  # the store does not answer: health says so; no numbers rather than wrong ones
+            return
+        used = GaugeMetricFamily("wakeyard_disk_used_bytes", "Result files each owner's jobs take.", labels=["owner"])
+        for owner, n in sorted(use.items()):
+            used.add_metric([owner], n)
+        yield used
+        yield _gauge("wakeyard_disk_quota_bytes", "Per-user quota (0: none).", self.settings.user_quota_bytes)
+
+
 def _gauge(name: str, documentation: str, value: float) -> GaugeMetricFamily:
     return GaugeMetricFamily(name, documentation, value=float(value))
 
 
 def registry_for(settings: Settings, store: Store, celery: Celery) -> tuple[CollectorRegistry, Histogram]:
+    """The scrape's registry and the latency histogram. Under ``serve --api-processes N`` (``PROMETHEUS_MULTIPROC_DIR``
+    set) every process writes its histogram to that folder and a scrape, whichever process answers it, sums them
+    all (prometheus_client's multiprocess mode)."""
     registry = CollectorRegistry(auto_describe=False)
     registry.register(HealthCollector(settings, store, celery))
+    registry.register(DiskUseCollector(settings, store))
+    shared = bool(os.environ.get("PROMETHEUS_MULTIPROC_DIR"))
+    if shared:
+        MultiProcessCollector(registry)
     latency = Histogram(
         "wakeyard_http_request_duration_seconds",
         "Time from a request's arrival to the start of its response, by route template, method and status.",
         ["method", "route", "status"],
-        registry=registry,
+        registry=None if shared else registry,
     )
     return registry, latency
 

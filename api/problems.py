@@ -59,6 +59,12 @@ class NoSpace(Problem):
     status = 507
 
 
+class OverQuota(Problem):
+    """Refused because the owner's result files reach the per-user quota (507 Insufficient Storage)."""
+
+    status = 507
+
+
 class SpecProblems(HTTPException):
     """Input the solver (or the service's limits) refuses. An HTTPException, so that FastAPI passes it through
     unchanged even when it is raised while the request body is being read (the size and time caps)."""

@@ -1,10 +1,13 @@
 """The lease: re-queue jobs whose worker went silent, re-send wake-ups that a broker may have lost, prune the
-embedded broker's delivered messages, restore the disk reserve. Runs in a thread of the API process."""
+embedded broker's delivered messages, restore the disk reserve, run the disk sweep (``api.disk_sweep``). Runs in a
+thread of every API process, but does its work only in the one that holds the service's lead (``core.lead``)."""
 
 from __future__ import annotations
 
 import logging
+import os
 import threading
+import time
 from collections.abc import Callable
 from datetime import datetime, timedelta
 
@@ -12,9 +15,12 @@ from sqlalchemy import create_engine, text
 from sqlalchemy.exc import OperationalError
 
 from wakeyard.core.disk import DiskReserve
+from wakeyard.core.lead import Lead
 from wakeyard.core.settings import Settings
 from wakeyard.core.states import JobState
 from wakeyard.core.store import Store
+
+from .disk_sweep import DiskSweep
 
 log = logging.getLogger(__name__)
 
@@ -26,24 +32,45 @@ class Reaper:
         self.thread = threading.Thread(target=self._loop, name="wakeyard-reaper", daemon=True)
         embedded = settings.celery_broker.startswith("sqla+")
         self.broker_db = create_engine(settings.celery_broker.removeprefix("sqla+")) if embedded else None
+        self.lead = Lead(settings.db_url, settings.data_dir)
+        self.sweep, self.swept = DiskSweep(settings, store), -float("inf")
+
+    @property
+    def leading(self) -> bool:
+        return self.lead.held
 
     def start(self) -> None:
-        for job_id in self.store.queued_ids():  # messages may have been lost while we were down
-            self.dispatch(job_id)
         self.thread.start()
 
     def close(self) -> None:
         self.stop.set()
         self.thread.join(timeout=10)
+        self.lead.close()
         if self.broker_db is not None:
             self.broker_db.dispose()
 
     def _loop(self) -> None:
-        while not self.stop.wait(self.settings.reaper_seconds):
+        wait = 0.0  # the first try at once: a lone API process leads from its start
+        while not self.stop.wait(wait):
+            wait = self.settings.reaper_seconds
             try:
-                self.tick()
+                self.step()
             except Exception:  # keep the lease alive through database or broker trouble
                 log.exception("lease check failed")
+
+    def step(self) -> None:
+        """Take or keep the lead; the lead's work when it is ours."""
+        was = self.lead.held
+        if not self.lead.hold():
+            return
+        if not was:
+            log.info("this API process (pid %d) leads: it runs the lease reaper and the disk sweep", os.getpid())
+            for job_id in self.store.queued_ids():  # messages may have been lost while no one led
+                self.dispatch(job_id)
+        self.tick()
+        if time.monotonic() - self.swept >= self.settings.disk_sweep_seconds:
+            self.swept = time.monotonic()
+            self.sweep.run()
 
     def tick(self) -> None:
         self.reserve.ensure()  # back once space has been freed

@@ -83,6 +83,7 @@ def view(job: Job | Row[Any]) -> dict[str, Any]:
         "summary": job.summary,
         "error": job.error,
         "reused_from": job.reused_from,
+        "fields_removed_at": _stamp(job.trimmed_at),  # the retention rule removed fields, pictures, checkpoint
         "study": job.study_id,
         "links": links(job.id),
         "caution": CAUTION,
@@ -117,7 +118,7 @@ def _check_tags(tags: list[str]) -> list[str]:
 
 
 def _submit(submission: Submission, user: User, spec: dict[str, Any], tags: list[str], fresh: bool) -> JSONResponse:
-    submission.check_space()
+    submission.check_space(user.name)
     planned = submission.plan(spec, fresh)
     job = submission.place(user.name, planned, tags)
     return JSONResponse(

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import os
+
 from fastapi import APIRouter, Request
 from fastapi.responses import JSONResponse, Response
 from prometheus_client import CONTENT_TYPE_LATEST, generate_latest
@@ -21,7 +23,9 @@ router = APIRouter(tags=["operations"])
 )
 def health(request: Request, settings: SettingsDep, store: StoreDep) -> JSONResponse:
     found = check(settings, store, request.app.state.celery)
-    return JSONResponse(found.body(), status_code=200 if found.ok else 503)
+    # which API process answered, and whether it is the one that runs the lease reaper and the disk sweep
+    process = {"pid": os.getpid(), "leads": request.app.state.reaper.leading}
+    return JSONResponse({**found.body(), "process": process}, status_code=200 if found.ok else 503)
 
 
 @router.get("/metrics", response_class=Response, summary="Prometheus text format")

@@ -73,7 +73,7 @@ def _point_title(title: str, values: dict[str, float]) -> str:
 def create_study(
     submission: SubmissionDep, user: UserDep, data: Annotated[Any, Body()], fresh: Fresh = False
 ) -> JSONResponse:
-    submission.check_space()
+    submission.check_space(user.name)
     spec, points = _expanded(data, submission, user.name)
     title = spec.title or str(points[0][1].get("title", "")) or spec.kind
     planned = [submission.plan(case, fresh, _point_title(title, v), values=v) for v, case in points]

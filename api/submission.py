@@ -23,9 +23,10 @@ from wakeyard.core.settings import Settings
 from wakeyard.core.states import JobState
 from wakeyard.core.store import Job, OverCap, Provenance, Store
 
-from .deps import DispatchDep, SettingsDep, StoreDep
+from .deps import DispatchDep, QuotaDep, SettingsDep, StoreDep
 from .fingerprint import solver_fingerprint
 from .problems import NoSpace, TooManyJobs
+from .quota import Quota
 
 log = logging.getLogger(__name__)
 
@@ -45,11 +46,12 @@ class Planned:
 
 @dataclass
 class Submission:
-    """The one job-creation path: free space, the per-user cap, reuse, creation and the wake-up."""
+    """The one job-creation path: free space, the storage quota, the per-user cap, reuse, creation and the wake-up."""
 
     store: Store
     settings: Settings
     dispatch: Callable[[str], None]
+    quota: Quota
 
     def plan(
         self,
@@ -65,8 +67,9 @@ class Submission:
         title = str(spec.get("title", "")) if title is None else title
         return Planned(spec, Provenance(digest, title, source, study_id, values))
 
-    def check_space(self) -> None:
-        """Refuse (507) new jobs while the data folder has less free space than the service keeps."""
+    def check_space(self, owner: str) -> None:
+        """Refuse (507) new jobs while the data folder has less free space than the service keeps, or while
+        ``owner``'s result files reach the per-user quota."""
         free = shutil.disk_usage(self.settings.data_dir).free
         if free < self.settings.min_free_bytes:
             raise NoSpace(
@@ -75,6 +78,7 @@ class Submission:
                 f"{self.settings.min_free_mb:.0f} MiB the service keeps: new jobs are refused until space "
                 "is freed (delete jobs that are no longer needed)",
             )
+        self.quota.check(owner)
 
     def check_room(self, owner: str, to_run: int) -> None:
         """Refuse (429) ``to_run`` more jobs at once if they would take ``owner`` over the per-user cap of queued +
@@ -122,8 +126,8 @@ def _link_tree(source: Path, target: Path) -> None:
     shutil.copytree(source, target, copy_function=os.link)
 
 
-async def get_submission(store: StoreDep, settings: SettingsDep, dispatch: DispatchDep) -> Submission:
-    return Submission(store, settings, dispatch)
+async def get_submission(store: StoreDep, settings: SettingsDep, dispatch: DispatchDep, quota: QuotaDep) -> Submission:
+    return Submission(store, settings, dispatch, quota)
 
 
 SubmissionDep = Annotated[Submission, Depends(get_submission)]

@@ -1,8 +1,19 @@
 """Service benchmark: job creations/s, status reads/s, submit-to-start latency and the service's overhead.
 
 Starts ``wakeyard serve`` on 127.0.0.1 (a free port, a temporary data folder) and sends a bounded number of
-requests to it; nothing leaves the machine. Redis figures use DB 6 of the local Redis (flushed before and
-after). Run: ``python bench/service_bench.py`` (about two minutes on two cores).
+requests to it; nothing leaves the machine. Redis figures use DB 6 of the local Redis, or the database of
+``WAKEYARD_BENCH_REDIS_URL`` (flushed before and after). Run: ``python bench/service_bench.py`` (about two minutes
+on two cores).
+
+``python bench/service_bench.py wrk [N ...]`` measures the API alone with ``wrk`` (Debian's package): creations/s
+(all by one owner, then spread over 16) and status reads/s over 32 connections, Redis broker and a PostgreSQL job
+store (``WAKEYARD_BENCH_POSTGRES_URL``, default the local server's ``postgres`` database; a schema of its own,
+dropped afterwards), for ``serve --api-processes N`` (default 1 and 2), and prints each figure and its ratio to
+the first N.
+
+``python bench/service_bench.py dispatch`` measures the wake-up path alone on Redis: wall and CPU time per
+wake-up for a burst sent one ``send_task`` each (the path before batching) and through ``api.dispatch.Dispatcher``
+(batches on one producer, one Redis pipeline each), and their ratios.
 """
 
 from __future__ import annotations
@@ -29,7 +40,9 @@ import redis
 
 from wakeyard import solver
 
-REDIS_URL = "redis://127.0.0.1:6379/6"
+REDIS_URL = os.environ.get("WAKEYARD_BENCH_REDIS_URL", "redis://127.0.0.1:6379/6")
+POSTGRES_URL = os.environ.get("WAKEYARD_BENCH_POSTGRES_URL", "postgresql+psycopg://postgres@127.0.0.1:5432/postgres")
+WRK_SECONDS, WRK_CONNECTIONS = 10, 32
 CREATIONS, READS, CLIENTS, LATENCY_JOBS = 400, 2000, 8, 5
 CASE: dict[str, Any] = {
     # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a channel shortened to 1.0
@@ -52,7 +65,7 @@ def case(end_time: float) -> dict[str, Any]:
 class Service:
     """``wakeyard serve`` in a child process; stopped with Ctrl-C (SIGINT) like a person would."""
 
-    def __init__(self, folder: Path, workers: int, broker: str = ""):
+    def __init__(self, folder: Path, workers: int, broker: str = "", api_processes: int = 1, **env: str):
         with socket.socket() as s:
             s.bind(("127.0.0.1", 0))
             self.port = s.getsockname()[1]
@@ -61,6 +74,7 @@ class Service:
             "WAKEYARD_BROKER_URL": broker,
             "WAKEYARD_MAX_ACTIVE_PER_USER": "100000",
             "WAKEYARD_HEARTBEAT_SECONDS": "0.25",
+            **env,
         }
         folder.mkdir(parents=True, exist_ok=True)
         self.log = folder / "serve.log"
@@ -76,6 +90,8 @@ class Service:
                 str(folder),
                 "--workers",
                 str(workers),
+                "--api-processes",
+                str(api_processes),
             ],
             env=env,
             stdout=self.log.open("w"),
@@ -185,7 +201,137 @@ def latency_and_overhead(folder: Path, broker: str, name: str) -> None:
         service.stop()
 
 
+def wrk(url: str, script: str, folder: Path) -> float:
+    """Requests per second that ``wrk`` measured (2 threads, 32 connections, 10 s), all answered 2xx."""
+    lua = folder / "wrk.lua"
+    lua.write_text(script)
+    out = subprocess.run(
+        ["wrk", "-t2", f"-c{WRK_CONNECTIONS}", f"-d{WRK_SECONDS}s", "-s", str(lua), url],
+        capture_output=True,
+        text=True,
+        check=True,
+    ).stdout
+    assert "Non-2xx" not in out, out
+    return float(next(line for line in out.splitlines() if line.startswith("Requests/sec:")).split()[1])
+
+
+OWNERS = 16  # the team run: creations spread over this many tokens
+
+
+def creation_script(body: str, tokens: list[str]) -> str:
+    """wrk Lua: POST the spec, each request with the next token in turn."""
+    names = ", ".join(json.dumps(t) for t in tokens)
+    return f"""
+tokens = {{{names}}}
+body = {json.dumps(body)}
+n = 0
+request = function()
+  n = n + 1
+  local headers = {{["Content-Type"] = "application/json", ["Authorization"] = "Bearer " .. tokens[n % #tokens + 1]}}
+  return wrk.format("POST", nil, headers, body)
+end
+"""
+
+
+def wrk_rates(folder: Path, api_processes: int) -> tuple[float, float, float]:
+    """(creations/s by one owner, creations/s spread over OWNERS owners, status reads/s) of ``serve
+    --api-processes N --workers 0`` on Redis and PostgreSQL."""
+    import sqlalchemy
+
+    from wakeyard.api.auth import create_token
+    from wakeyard.core.store import Store
+
+    schema = f"wakeyard_bench_{os.getpid()}_{api_processes}"
+    store_url = f"{POSTGRES_URL}?options=-csearch_path%3D{schema}"
+    admin = sqlalchemy.create_engine(POSTGRES_URL)
+    with admin.begin() as conn:
+        conn.execute(sqlalchemy.text(f"CREATE SCHEMA {schema}"))
+    service = Service(folder, workers=0, broker=REDIS_URL, api_processes=api_processes, WAKEYARD_DATABASE_URL=store_url)
+    store = Store(store_url)
+    try:
+        tokens = [create_token(store, f"engineer{i}") for i in range(OWNERS)]
+        body = json.dumps(case(0.3))
+        alone = wrk(f"{service.url}/api/v1/jobs", creation_script(body, tokens[:1]), folder)
+        team = wrk(f"{service.url}/api/v1/jobs", creation_script(body, tokens), folder)
+        bearer = {"Authorization": f"Bearer {tokens[0]}"}
+        job_id = httpx.get(f"{service.url}/api/v1/jobs?limit=1", headers=bearer).json()["jobs"][0]["id"]
+        reads = wrk(
+            f"{service.url}/api/v1/jobs/{job_id}", f"wrk.headers['Authorization'] = 'Bearer {tokens[0]}'", folder
+        )
+    finally:
+        service.stop()
+        store.engine.dispose()
+        with admin.begin() as conn:
+            conn.execute(sqlalchemy.text(f"DROP SCHEMA {schema} CASCADE"))
+        admin.dispose()
+    return alone, team, reads
+
+
+def wrk_main(processes: list[int]) -> None:
+    r = redis.Redis.from_url(REDIS_URL)
+    print(f"wakeyard API with wrk on {os.cpu_count()} cores: Redis broker, PostgreSQL store, no workers")
+    found = []
+    with tempfile.TemporaryDirectory() as tmp:
+        for n in processes:
+            r.flushdb()
+            found.append(wrk_rates(Path(tmp) / f"api{n}", n))
+            (alone, team, reads), (alone0, team0, reads0) = found[-1], found[0]
+            print(
+                f"--api-processes {n}: creations {alone:5.0f}/s by one owner (x{alone / alone0:.2f}), "
+                f"{team:5.0f}/s by {OWNERS} owners (x{team / team0:.2f}; target >= 500); "
+                f"status reads {reads:5.0f}/s (x{reads / reads0:.2f}; target >= 2000)",
+                flush=True,
+            )
+    r.flushdb()
+
+
+def dispatch_costs(bursts: int = 5, burst: int = 400) -> None:
+    from wakeyard.api.dispatch import Dispatcher
+    from wakeyard.core.broker import make_celery
+    from wakeyard.core.settings import Settings
+
+    r = redis.Redis.from_url(REDIS_URL)
+    with tempfile.TemporaryDirectory() as tmp:
+        settings = Settings(data_dir=Path(tmp), broker_url=REDIS_URL, queue="wakeyard-bench")
+        celery = make_celery(settings)
+        celery.send_task("wakeyard.run_next", args=["warm-up"], queue=settings.queue)
+        ids = [f"{i:032x}" for i in range(burst)]
+
+        def each() -> None:
+            for job_id in ids:
+                celery.send_task("wakeyard.run_next", args=[job_id], queue=settings.queue)
+
+        def batched() -> None:
+            dispatch = Dispatcher(celery, settings.queue)
+            for job_id in ids:
+                dispatch(job_id)
+            dispatch.close()
+
+        found: dict[str, list[tuple[float, float]]] = {"each": [], "batched": []}
+        for _ in range(bursts):  # interleaved, so both see the same machine load
+            for name, send in (("each", each), ("batched", batched)):
+                r.flushdb()
+                wall, cpu = time.perf_counter(), time.process_time()
+                send()
+                found[name].append(((time.perf_counter() - wall) / burst, (time.process_time() - cpu) / burst))
+                assert r.llen(settings.queue) == burst
+    r.flushdb()
+    (w0, c0), (w1, c1) = (
+        (statistics.median(t[0] for t in v), statistics.median(t[1] for t in v)) for v in found.values()
+    )
+    print(f"wake-ups on Redis, bursts of {burst} (median of {bursts}):")
+    print(f"  one send_task each: {1e6 * w0:6.0f} us wall, {1e6 * c0:6.0f} us CPU per wake-up")
+    ratios = f"x{w1 / w0:.2f} wall, x{c1 / c0:.2f} CPU"
+    print(f"  Dispatcher batches: {1e6 * w1:6.0f} us wall, {1e6 * c1:6.0f} us CPU ({ratios})")
+
+
 def main() -> None:
+    if sys.argv[1:2] == ["dispatch"]:
+        dispatch_costs()
+        return
+    if sys.argv[1:2] == ["wrk"]:
+        wrk_main([int(n) for n in sys.argv[2:]] or [1, 2])
+        return
     r = redis.Redis.from_url(REDIS_URL)
     r.flushdb()
     try:

@@ -2,7 +2,8 @@
 most 2 s), and whether the job was handed back to the queue.
 
 Starts ``wakeyard serve --workers 1`` in a temporary data folder for each case; nothing leaves the machine.
-Run: ``python bench/stop_bench.py [--repeat N]`` (about 30 s per case on two cores).
+Run: ``python bench/stop_bench.py [--repeat N] [--api-processes N]`` (about 30 s per case on two cores); with
+``--api-processes`` the API processes must be gone too.
 """
 
 from __future__ import annotations
@@ -43,16 +44,29 @@ def _gone(pid: int) -> bool:
         return True
 
 
-def one(sig: signal.Signals, busy: bool) -> tuple[float, str]:
+def one(sig: signal.Signals, busy: bool, api_processes: int = 1) -> tuple[float, str]:
     with tempfile.TemporaryDirectory() as folder:
         port, log = _free_port(), Path(folder) / "serve.log"
         proc = subprocess.Popen(
-            [sys.executable, "-m", "wakeyard.cli", "serve", "--port", str(port), "--data", folder, "--workers", "1"],
+            [
+                sys.executable,
+                "-m",
+                "wakeyard.cli",
+                "serve",
+                "--port",
+                str(port),
+                "--data",
+                folder,
+                "--workers",
+                "1",
+                "--api-processes",
+                str(api_processes),
+            ],
             stdout=log.open("w"),
             stderr=subprocess.STDOUT,
             start_new_session=True,
         )
-        while f":{port}/" not in log.read_text():
+        while "is ready at" not in log.read_text():
             time.sleep(0.1)
         workers = [
             int(p)
@@ -79,13 +93,14 @@ def one(sig: signal.Signals, busy: bool) -> tuple[float, str]:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__)
     parser.add_argument("--repeat", type=int, default=1)
+    parser.add_argument("--api-processes", type=int, default=1)
     args = parser.parse_args()
     os.environ.setdefault("WAKEYARD_HEARTBEAT_SECONDS", "0.5")
     print(f"{'signal':8} {'job':8} {'stopped in (s)':>15}  job state after")
     for sig in (signal.SIGTERM, signal.SIGINT):
         for busy in (False, True):
             for _ in range(args.repeat):
-                took, state = one(sig, busy)
+                took, state = one(sig, busy, args.api_processes)
                 print(f"{sig.name:8} {'running' if busy else 'none':8} {took:15.2f}  {state}", flush=True)
 
 

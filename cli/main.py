@@ -23,6 +23,13 @@ def main(argv: list[str] | None = None) -> int:
     p_serve.add_argument(
         "--workers", type=int, help="worker processes (default: WAKEYARD_WORKERS or the cores; 0: only the API)"
     )
+    p_serve.add_argument(
+        "--api-processes",
+        type=int,
+        default=1,
+        metavar="N",
+        help="API processes sharing the port (default 1); the lease reaper runs in one of them",
+    )
     p_worker = sub.add_parser("worker", help="only workers (more boxes sharing the broker and database)")
     p_worker.add_argument("--data", type=Path)
     p_worker.add_argument("--workers", type=int)
@@ -69,7 +76,9 @@ def main(argv: list[str] | None = None) -> int:
 
     service.configure(getattr(args, "data", None), getattr(args, "workers", None))
     if args.command == "serve":
-        return service.serve(args.host, args.port)
+        if args.api_processes < 1:
+            parser.error("--api-processes: at least 1")
+        return service.serve(args.host, args.port, args.api_processes)
     if args.command == "migrate":
         return service.migrate()
     if args.command == "worker":

@@ -6,6 +6,7 @@ import contextlib
 import ipaddress
 import logging
 import os
+import shutil
 import signal
 import sys
 import threading
@@ -16,6 +17,9 @@ from types import FrameType
 from typing import Any
 
 import uvicorn
+from uvicorn.supervisors import Multiprocess
+
+SERVE_PID = "WAKEYARD_SERVE_PID"  # the API processes' parent, for their parent-death signal
 
 
 def configure(data: Path | None, workers: int | None) -> None:
@@ -33,8 +37,7 @@ def _loopback(host: str) -> bool:
         return host == "localhost"
 
 
-def serve(host: str, port: int) -> int:
-    from wakeyard.api.app import create_app
+def serve(host: str, port: int, api_processes: int = 1) -> int:
     from wakeyard.core.blas import one_blas_thread
     from wakeyard.core.settings import Settings
     from wakeyard.core.store import Store
@@ -69,10 +72,7 @@ def serve(host: str, port: int) -> int:
     supervisor = Supervisor(settings.workers, "warning", keep_fds=[lock.fd])
     # the supervising thread starts and stops every worker (their parent-death signal is tied to it)
     supervising = threading.Thread(target=supervisor.run, name="wakeyard-supervisor", daemon=True)
-    config = uvicorn.Config(
-        create_app(settings), host=host, port=port, log_level="warning", timeout_graceful_shutdown=1
-    )
-    server = _Server(config, on_exit=supervisor.stopping.set)
+    api = _Api(host, port, api_processes, settings, supervisor.stopping.set)
     shown = f"[{host}]" if ":" in host else host
 
     def announce() -> None:
@@ -81,14 +81,17 @@ def serve(host: str, port: int) -> int:
         def workers_up() -> bool:
             return not with_workers or store.workers_seen(within=time.monotonic() - started + 1) > 0
 
-        while not server.should_exit and not (server.started and (workers_up() or time.monotonic() - started > 60)):
+        while not supervisor.stopping.is_set() and not (
+            api.answers() and (workers_up() or time.monotonic() - started > 60)
+        ):
             time.sleep(0.1)
-        if server.started:
+        if not supervisor.stopping.is_set():
             if not workers_up():
                 print("warning: no worker has reported in yet; jobs will wait in the queue", file=sys.stderr)
+            processes = f", {api_processes} API processes" if api_processes > 1 else ""
             print(
-                f"wakeyard is ready at http://{shown}:{port}/ ({settings.workers} worker processes here, data in "
-                f"{settings.data_dir.resolve()}); Ctrl-C stops it",
+                f"wakeyard is ready at http://{shown}:{port}/ ({settings.workers} worker processes here{processes}, "
+                f"data in {settings.data_dir.resolve()}); Ctrl-C stops it",
                 flush=True,
             )
 
@@ -96,7 +99,7 @@ def serve(host: str, port: int) -> int:
         supervising.start()
     threading.Thread(target=announce, daemon=True).start()
     try:
-        server.run()
+        api.run()
     except KeyboardInterrupt:  # a second Ctrl-C
         pass
     finally:
@@ -109,6 +112,79 @@ def serve(host: str, port: int) -> int:
     sys.stdout.flush()
     sys.stderr.flush()
     os._exit(0)
+
+
+def api_process_app() -> Any:
+    """The app of one of several API processes (``serve --api-processes N``): each is a fresh interpreter that
+    reads the same WAKEYARD_* settings; the lead (``core.lead``) makes one of them the reaper."""
+    from wakeyard.api.app import create_app
+    from wakeyard.core.blas import one_blas_thread
+    from wakeyard.worker.child import die_with_parent
+
+    die_with_parent(int(os.environ[SERVE_PID]))  # a kill -9 of serve takes its API processes along, as its workers
+    _log_to_stderr()
+    one_blas_thread()
+    return create_app()
+
+
+class _Api:
+    """The API: in this process (one) or in ``processes`` children of uvicorn's process manager sharing one socket."""
+
+    def __init__(self, host: str, port: int, processes: int, settings: Any, on_exit: Callable[[], None]):
+        self.host, self.port, self.processes = host, port, processes
+        common = {"host": host, "port": port, "log_level": "warning", "timeout_graceful_shutdown": 1}
+        if processes == 1:
+            from wakeyard.api.app import create_app
+
+            self.server = _Server(uvicorn.Config(create_app(settings), **common), on_exit=on_exit)
+        else:
+            os.environ[SERVE_PID] = str(os.getpid())
+            # the API processes' request histograms, summed by every scrape (prometheus_client's multiprocess mode)
+            metrics = settings.data_dir / "api-metrics"
+            shutil.rmtree(metrics, ignore_errors=True)
+            metrics.mkdir()
+            os.environ["PROMETHEUS_MULTIPROC_DIR"] = str(metrics)
+            self.config = uvicorn.Config(
+                "wakeyard.cli.service:api_process_app", factory=True, workers=processes, **common
+            )
+            self.on_exit = on_exit
+
+    def run(self) -> None:
+        if self.processes == 1:
+            self.server.run()
+            return
+        _Processes(self.config, [self.config.bind_socket()], self.on_exit).run()
+
+    def answers(self) -> bool:
+        if self.processes == 1:
+            return self.server.started
+        import urllib.error
+        import urllib.request
+
+        address = "127.0.0.1" if self.host in ("0.0.0.0", "") else ("::1" if self.host == "::" else self.host)
+        shown = f"[{address}]" if ":" in address else address
+        try:
+            urllib.request.urlopen(f"http://{shown}:{self.port}/api/v1/caution", timeout=2).close()
+        except urllib.error.HTTPError:
+            return True  # an answer all the same
+        except OSError:
+            return False
+        return True
+
+
+class _Processes(Multiprocess):
+    """uvicorn's process manager, but a SIGINT or SIGTERM also starts stopping the workers at once (it only queues
+    the signal for its loop, which looks every half second)."""
+
+    def __init__(self, config: uvicorn.Config, sockets: list[Any], on_exit: Callable[[], None]):
+        super().__init__(config, sockets)
+
+        def stop(sig: int, _: FrameType | None) -> None:
+            on_exit()  # an Event that only the supervising thread waits on: safe in a handler
+            self.signal_queue.append(sig)
+
+        for sig in (signal.SIGINT, signal.SIGTERM):
+            signal.signal(sig, stop)
 
 
 def _first_admin(store: Any, name: str, path: Path) -> None:

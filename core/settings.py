@@ -44,6 +44,26 @@ class Settings(BaseSettings):
         description="below this much free space in the data folder health says degraded and new jobs are refused (507)",
     )
 
+    user_quota_mb: float = Field(
+        10240.0,
+        ge=0,
+        description="result files one owner may keep; at or over it their new jobs are refused (507) while running "
+        "ones finish; 0: no quota",
+    )
+    fields_retention_days: float = Field(
+        0.0,
+        ge=0,
+        description="field files, pictures and checkpoints of jobs finished longer ago are deleted (summary, forces "
+        "and spec stay); 0: kept until the job is deleted",
+    )
+    disk_sweep_seconds: float = Field(
+        30.0, gt=0, description="how often job folders are measured (disk use per user) and the retention applied"
+    )
+
+    @property
+    def user_quota_bytes(self) -> int:
+        return int(self.user_quota_mb * 2**20)
+
     @property
     def jobs_dir(self) -> Path:
         return self.data_dir / "jobs"

@@ -1,7 +1,7 @@
 """The job store (SQLAlchemy 2): the single source of truth for job state; broker messages only wake workers.
 
 One class, :class:`Store`, made of one part per concern: jobs, studies, tokens, leases (claims, heartbeats and
-the worker processes' liveness).
+the worker processes' liveness), usage (disk use per job and the retention rule's trims).
 """
 
 from __future__ import annotations
@@ -14,10 +14,11 @@ from .leases import Claimed, Leases
 from .models import Base, Job, JobTag, Study, Token, WorkerSeen
 from .studies import Studies
 from .tokens import TokenRefused, Tokens, TokenTaken, token_state
+from .usage import Usage
 from .values import finite, utcnow
 
 
-class Store(Jobs, Studies, Tokens, Leases):
+class Store(Jobs, Studies, Tokens, Leases, Usage):
     """Job-store operations used by the API, the workers and the lease reaper."""
 
     def __init__(self, url: str):

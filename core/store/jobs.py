@@ -36,7 +36,12 @@ JOBS = Job.__table__
 _READ = select(JOBS).where(JOBS.c.id == bindparam("job_id"))
 _RESULT = (
     select(JOBS)
-    .where(Job.spec_hash == bindparam("spec_hash"), Job.state == JobState.SUCCEEDED, Job.reused_from.is_(None))
+    .where(
+        Job.spec_hash == bindparam("spec_hash"),
+        Job.state == JobState.SUCCEEDED,
+        Job.reused_from.is_(None),
+        Job.trimmed_at.is_(None),  # its fields are gone: run the case again rather than hand out a partial result
+    )
     .order_by(Job.seq.desc())
     .limit(1)
 )

@@ -107,6 +107,7 @@ class Leases(Repository):
             "summary": summary,
             "error": error,
             "eta_seconds": None,
+            "disk_bytes": None,  # its folder's final size: the next disk sweep measures it
         }
         with self.session.begin() as s:
             mine = (Job.id == job_id, Job.claim == claim, Job.state == JobState.RUNNING)

@@ -5,7 +5,19 @@ from __future__ import annotations
 from datetime import UTC, datetime
 from typing import Any
 
-from sqlalchemy import JSON, Boolean, DateTime, Float, ForeignKey, Index, Integer, String, Text, TypeDecorator
+from sqlalchemy import (
+    JSON,
+    BigInteger,
+    Boolean,
+    DateTime,
+    Float,
+    ForeignKey,
+    Index,
+    Integer,
+    String,
+    Text,
+    TypeDecorator,
+)
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
 
 
@@ -58,6 +70,9 @@ class Job(Base):
     reused_from: Mapped[str | None] = mapped_column(String(32))
     study_id: Mapped[str | None] = mapped_column(ForeignKey("studies.id"), index=True)
     study_values: Mapped[dict[str, float] | None] = mapped_column(JSON)
+    # bytes of the job's folder as last measured by the disk sweep (core.usage); None: not measured since it finished
+    disk_bytes: Mapped[int | None] = mapped_column(BigInteger)
+    trimmed_at: Mapped[datetime | None] = mapped_column(UTCDateTime)  # when the retention rule removed its fields
 
 
 class Study(Base):

@@ -5,6 +5,7 @@ working and free space, and a job whose results cannot be written fails with the
 from __future__ import annotations
 
 import errno
+import hashlib
 import os
 import shutil
 import subprocess
@@ -87,6 +88,46 @@ def test_a_job_whose_results_cannot_be_written_fails_with_the_reason(
             assert "the results could not be written: the data folder's disk is full" in job["error"]
             assert client.get("/health").status_code == 503
             assert client.delete(f"/jobs/{job_id}").status_code == 204
+    finally:
+        serve.stop()
+        os.sync()
+
+
+def digests(folder: Path) -> dict[str, str]:
+    return {
+        p.relative_to(folder).as_posix(): hashlib.sha256(p.read_bytes()).hexdigest()
+        for p in folder.rglob("*")
+        if p.is_file()
+    }
+
+
+def test_below_the_free_space_threshold_running_jobs_finish_and_finished_ones_stay_intact(
+    small_disk: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Low (not yet zero) free space: new jobs get 507, the running job still finishes, earlier results are
+    untouched byte for byte; once space is back new jobs are taken again."""
+    monkeypatch.setenv("WAKEYARD_MIN_FREE_MB", "24")
+    serve = Serve(small_disk, tmp_path / "serve.log")
+    try:
+        with serve.client() as client:
+            done = client.post("/jobs", json=tiny()).json()["id"]
+            assert until(lambda: finished(j := client.get(f"/jobs/{done}").json()) and j, timeout=120)["state"] == (
+                "succeeded"
+            )
+            before = digests(small_disk / "jobs" / done)
+            running = client.post("/jobs", json=tiny(end_time=1.5)).json()["id"]
+            until(lambda: client.get(f"/jobs/{running}").json()["progress"]["step"] >= 5, timeout=120)
+            free = shutil.disk_usage(small_disk).free
+            (small_disk / "filler").write_bytes(b"\0" * (free - 16 * 2**20))  # 16 MiB left, under the 24 kept
+
+            refused = client.post("/jobs", json=tiny(end_time=0.2))
+            assert refused.status_code == 507 and "below the 24 MiB the service keeps" in refused.json()["detail"]
+            assert client.get(f"/jobs/{running}").json()["state"] == "running"  # refused while this one runs
+            job = until(lambda: finished(j := client.get(f"/jobs/{running}").json()) and j, timeout=180)
+            assert job["state"] == "succeeded", job["error"]
+            assert digests(small_disk / "jobs" / done) == before
+            (small_disk / "filler").unlink()
+            assert client.post("/jobs", json=tiny(end_time=0.2)).status_code == 202
     finally:
         serve.stop()
         os.sync()

@@ -37,7 +37,7 @@ def test_a_store_is_never_migrated_by_connecting(blank_store_url: str) -> None:
 
 def test_a_job_store_from_before_migrations_and_studies_is_upgraded(blank_store_url: str) -> None:
     """The jobs table as the first release made it (no reuse or study columns, no other tables, no version)."""
-    new = {"spec_hash", "reused_from", "study_id", "study_values"}
+    new = {"spec_hash", "reused_from", "study_id", "study_values", "disk_bytes", "trimmed_at"}
     old = sqlalchemy.MetaData()
     sqlalchemy.Table(
         "jobs",
