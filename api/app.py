@@ -21,6 +21,7 @@ from wakeyard.solver.study import StudySpec
 
 from . import routes_files, routes_jobs, routes_ops, routes_previews, routes_studies, routes_tokens
 from .dispatch import Dispatcher
+from .docs import install_docs
 from .limits import BodyLimit
 from .metrics import Timing, registry_for
 from .problems import install
@@ -56,6 +57,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         title="wakeyard",
         version=solver.__version__,
         lifespan=lifespan,
+        docs_url=None,  # served by install_docs from packaged assets
+        redoc_url=None,
         description=f"Queued 2D incompressible flow simulations. Caution: {CAUTION}",
     )
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
@@ -68,6 +71,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     for module in (routes_jobs, routes_previews, routes_files, routes_studies, routes_tokens, routes_ops):
         app.include_router(module.router)
     _document_spec(app)
+    install_docs(app)
     app.mount("/", StaticFiles(directory=str(WEB), html=True), name="web")
     return app
 
