@@ -74,20 +74,23 @@ export class CompareView {
       host = h("div", {class: "chart-host", id: "compare-chart"});
       parts.push(h("section", {class: "card chart-card", "aria-labelledby": "overlay-heading"},
         h("h3", {id: "overlay-heading"}, "Force coefficients over time"),
-        h("p", {class: "hint"}, "One colour per job; solid lines drag (cD), dashed lines lift (cL)."), host));
+        h("p", {class: "hint"}, "One colour per body of each job; solid lines drag (cD), dashed lines lift (cL)."), host));
     } else {
       parts.push(h("p", {class: "hint"}, "None of these jobs has a force history over time (steady runs have one value)."));
     }
-    parts.push(this.table(loaded));
+    parts.push(specDifferences(loaded), this.table(loaded));
     fill(this.body, parts);
     if (!host) return;
     const chart = new LineChart(host, {label: "Drag and lift coefficients of the compared jobs", yLabel: "cD, cL"});
     const series = [];
-    loaded.forEach(({job, forces}, i) => {
+    const colours = new Map(); // one colour per (job, body): cD and cL of a body share it
+    loaded.forEach(({job, forces}) => {
       if (!forces || forces.time.length < 2) return;
       for (const c of forces.columns.filter((col) => col.quantity === "cd" || col.quantity === "cl")) {
-        series.push({id: `${job.id}:${c.key}`, label: `${shortTitle(job)} · ${c.label}`, x: forces.time, y: c.values,
-          color: PALETTE[i % PALETTE.length], dash: c.quantity === "cl" ? "6 4" : ""});
+        const owner = `${job.id}:${c.owner}`;
+        if (!colours.has(owner)) colours.set(owner, PALETTE[colours.size % PALETTE.length]);
+        series.push({id: `${job.id}:${c.key}`, label: `${jobTitle(job)} (${shortId(job.id)}) · ${c.label}`, x: forces.time,
+          y: c.values, color: colours.get(owner), dash: c.quantity === "cl" ? "6 4" : ""});
       }
     });
     chart.setSeries(series);
@@ -108,7 +111,29 @@ export class CompareView {
   }
 }
 
-function shortTitle(job) {
-  const t = jobTitle(job);
-  return `${t.length > 24 ? `${t.slice(0, 23)}…` : t} (${shortId(job.id)})`;
+/** Spec fields as dotted paths (bodies.0.radius) with their values; lists of numbers stay whole (a centre). */
+function flatten(value, path = "", out = new Map()) {
+  if (Array.isArray(value) && value.every((v) => typeof v !== "object" || v === null)) out.set(path, JSON.stringify(value));
+  else if (value && typeof value === "object") {
+    for (const [k, v] of Object.entries(value)) flatten(v, path ? `${path}.${k}` : k, out);
+  } else out.set(path, JSON.stringify(value ?? null));
+  return out;
+}
+
+/** A table of the spec fields whose values differ between the jobs (a field one job lacks shows as —). */
+function specDifferences(loaded) {
+  const flat = loaded.map(({job}) => flatten(job.spec ?? {}));
+  const paths = [...new Set(flat.flatMap((f) => [...f.keys()]))].filter((p) => p !== "title").sort();
+  const differ = paths.filter((p) => new Set(flat.map((f) => f.get(p) ?? "")).size > 1);
+  const head = h("h3", {id: "diff-heading"}, "How the cases differ");
+  if (!differ.length) {
+    return h("section", {class: "card", "aria-labelledby": "diff-heading"}, head,
+      h("p", {class: "hint", id: "spec-same"}, "The cases are the same apart from their titles."));
+  }
+  return h("section", {class: "card", "aria-labelledby": "diff-heading"}, head,
+    h("div", {class: "table-wrap"}, h("table", {class: "compare-table", id: "spec-diff"},
+      h("thead", {}, h("tr", {}, h("th", {scope: "col"}, "Spec field"),
+        loaded.map(({job}) => h("th", {scope: "col", title: jobTitle(job)}, `${jobTitle(job)} (${shortId(job.id)})`)))),
+      h("tbody", {}, differ.map((p) => h("tr", {dataset: {field: p}}, h("th", {scope: "row"}, h("code", {}, p)),
+        flat.map((f) => h("td", {}, f.has(p) ? f.get(p).replace(/^"|"$/g, "") : "—"))))))));
 }

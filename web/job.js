@@ -6,7 +6,7 @@ import {LineChart, PALETTE} from "./chart.js";
 import {Poller} from "./poller.js";
 import {picked, progressCell, savePicked} from "./queue.js";
 import {caution, downloadLink, jobTitle, loadForces, showPicture, sizeText, stateBadge, summaryTable} from "./results.js";
-import {duration, fill, h, num, secondsBetween, toast, when} from "./util.js";
+import {confirmCancel, duration, fill, h, num, secondsBetween, toast, when} from "./util.js";
 
 const FIELDS = [["speed", "Speed"], ["vorticity", "Vorticity"], ["pressure", "Pressure"], ["temperature", "Temperature"]];
 const HEAT_PLOTS = [["nusselt.png", "Mean Nusselt number over time"], ["local_nusselt.png", "Local Nusselt number around each heated body"]];
@@ -266,6 +266,10 @@ export class JobView {
     ];
     const byPath = new Map(files.map((f) => [f.path, f]));
     const list = h("ul", {class: "download-list"});
+    if (files.length) {
+      // the server zips every result file of the job (with the caution) on request
+      list.append(h("li", {}, downloadLink(this.job.id, "all-files.zip", "Everything (zip of all files)", {id: "download-all"})));
+    }
     for (const [path, label] of main) {
       const f = byPath.get(path);
       if (f) list.append(h("li", {}, downloadLink(this.job.id, path, label), h("small", {}, ` ${sizeText(f.size)}`)));
@@ -277,6 +281,7 @@ export class JobView {
   }
 
   async cancel() {
+    if (!confirmCancel(jobTitle(this.job), this.job.state)) return;
     try {
       await api.cancelJob(this.job.id);
       toast("Cancel requested.");

@@ -1,0 +1,88 @@
+"""The result views as working tools: one download of everything, and compare with colours per body and spec diffs."""
+
+from __future__ import annotations
+
+import io
+import zipfile
+from pathlib import Path
+
+import pytest
+
+from wakeyard.solver.caution import CAUTION
+
+from .conftest import TINY, shot, submit, wait_state
+
+pytestmark = pytest.mark.timeout(180)
+
+expect = pytest.importorskip("playwright.sync_api", reason="pip install playwright (the test extra)").expect
+
+# two tubes one behind the other in the small test channel, with a title longer than a legend button once was
+TWIN = {
+    **TINY,
+    "title": "Two tubes one behind the other in a short channel (compare test)",
+    "bodies": [
+        {"name": "front", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05},
+        {"name": "rear", "shape": "circle", "center": [0.5, 0.2], "radius": 0.03},
+    ],
+    "analysis": {**TINY["analysis"], "output_interval": 0.3},
+}
+
+
+def test_everything_downloads_as_one_zip(page, api, pair) -> None:
+    job_id = pair[0]
+    wait_state(api, job_id, {"succeeded"}, timeout=120)
+    listed = {f["path"] for f in api.get(f"/jobs/{job_id}/files").json()["files"]} - {"fields.zip"}
+    assert {"forces.csv", "summary.json", "spec.json"} <= listed
+    page.goto(f"/#/jobs/{job_id}")
+    link = page.locator("#download-all")
+    expect(link).to_have_text("Everything (zip of all files)")
+    with page.expect_download() as got:
+        link.click()
+    download = got.value
+    archive = zipfile.ZipFile(io.BytesIO(Path(download.path()).read_bytes()))
+    assert set(archive.namelist()) == listed | {"CAUTION.txt"}
+    assert archive.read("forces.csv") == api.get(f"/jobs/{job_id}/files/forces.csv").content
+    assert " ".join(archive.read("CAUTION.txt").decode().split()) == f"Caution: {CAUTION}"
+    assert download.suggested_filename.endswith("all-files.zip")
+    # a job with no files yet has nothing to zip: a clear 404, not an empty archive
+    missing = api.get("/jobs/no-such-job/files/all-files.zip")
+    assert missing.status_code == 404 and missing.json()["detail"][0]["field"] == "job_id"
+
+
+def test_compare_colours_each_body_labels_in_full_and_lists_spec_differences(page, api, pair) -> None:
+    twin = submit(api, TWIN)
+    for job_id in (*pair, twin):
+        wait_state(api, job_id, {"succeeded"}, timeout=150)
+    ids = [*pair, twin]
+    page.goto(f"/#/compare?ids={','.join(ids)}")
+    series = page.locator("#compare-chart path.series")
+    expect(series).to_have_count(8)  # cD and cL of one body, one body, two bodies
+
+    def stroke(key: str) -> str:
+        return page.locator(f'#compare-chart path.series[data-series="{key}"]').get_attribute("stroke")
+
+    owners = [f"{pair[0]}:pipe", f"{pair[1]}:pipe", f"{twin}:front", f"{twin}:rear"]
+    colours = [stroke(f"{o}_cd") for o in owners]
+    assert len(set(colours)) == 4, colours  # one colour per body and job
+    assert [stroke(f"{o}_cl") for o in owners] == colours  # lift shares its body's colour, dashed
+    # the legend carries the whole title, and says it again as a tooltip
+    item = page.locator(f'#compare-chart .legend-item[data-series="{twin}:front_cd"]')
+    expect(item).to_contain_text(TWIN["title"])
+    expect(item).to_have_attribute("title", f"{TWIN['title']} ({twin[:8]}) · front cD: click to hide")
+    box, host = item.bounding_box(), page.locator("#compare-chart").bounding_box()
+    assert box["x"] + box["width"] <= host["x"] + host["width"] + 1  # wraps inside the chart, not cut or overflowing
+    # the spec fields that differ, one row each, one column per job
+    diff = page.locator("#spec-diff")
+    expect(diff.locator("thead th")).to_have_count(4)
+    nu = diff.locator('tr[data-field="fluid.viscosity"] td')
+    expect(nu).to_have_text(["0.001", "0.0015", "0.001"])
+    rows = diff.locator("tbody tr")
+    fields = {rows.nth(i).get_attribute("data-field") for i in range(rows.count())}
+    assert "bodies.1.radius" in fields and "bodies.0.center" not in fields and "title" not in fields
+    assert "analysis.output_interval" not in fields and "channel.length" not in fields
+    shot(page, "12-compare-bodies")
+    # two cases alike but for their titles: said so
+    clone = api.post(f"/jobs/{pair[0]}/clone", json={"title": "Same case, other title"})
+    assert clone.status_code == 202, clone.text
+    page.goto(f"/#/compare?ids={pair[0]},{clone.json()['id']}")
+    expect(page.locator("#spec-same")).to_have_text("The cases are the same apart from their titles.")
