@@ -13,7 +13,7 @@ from typing import Any
 
 import numpy as np
 
-from . import analysis, output, pictures
+from . import analysis, output, picture_choice, pictures
 from .adaptive import AdaptiveBDF2, Scales
 from .case import Case
 from .caution import CAUTION
@@ -26,7 +26,6 @@ from .steady import solve_steady
 from .transient import Stepper
 from .units import summary_units
 
-MAX_PICTURES = 12
 FIRST_STEP = 1e-3  # the adaptive scheme's first step, in convective times L/U, when none is given
 
 log = logging.getLogger(__name__)
@@ -190,7 +189,8 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
 
 
 def _pictures(case: Case, out: Path, steps: list[int]) -> None:
-    """Field pictures of up to MAX_PICTURES saved snapshots; a failure is recorded, never raised (the solve is done)."""
+    """Field pictures of the snapshots ``picture_choice`` picks; a failure is recorded, never raised (the solve is
+    done)."""
     try:
         _draw_pictures(case, out, steps)
     except Exception as err:
@@ -201,7 +201,7 @@ def _pictures(case: Case, out: Path, steps: list[int]) -> None:
 def _draw_pictures(case: Case, out: Path, steps: list[int]) -> None:
     """One colour scale for the whole run."""
     steps = sorted(set(steps))
-    pick = np.unique(np.linspace(0, len(steps) - 1, min(MAX_PICTURES, len(steps))).round().astype(int))
+    pick = picture_choice.chosen(len(steps))
     loaded = [np.load(out / "fields" / f"step_{steps[i]:06d}.npz") for i in pick]
     fields = [{k: f[k] for k in ("ux", "uy", "pressure", "vorticity")} for f in loaded]
     limits = pictures.color_limits(fields)
@@ -230,7 +230,7 @@ class _Transient:
         self.case, self.out, self.progress, self.should_stop = case, out, progress, should_stop
         self.deadline, self.resume = deadline, resume
         a = case.spec.analysis
-        self.output_interval = a.output_interval or a.end_time / 20
+        self.output_interval = picture_choice.interval(a.end_time, a.output_interval)
         self.columns = [*case.columns(), "time_step"]
         self.rows: list[list[float]] = []
         self.snapshots: list[int] = []

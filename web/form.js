@@ -207,7 +207,7 @@ export class CaseForm {
             numberField("analysis.end_time", "End time", sp, {unit: "s", placeholder: "1"})),
           h("div", {class: "row"},
             numberField("analysis.output_interval", "Picture every", sp, {unit: "s",
-              hint: "Simulated time between field snapshots."}),
+              hint: "Simulated time between field snapshots: one picture of each field per snapshot, up to the service's cap (see “Field pictures” below)."}),
             numberField("analysis.checkpoint_interval", "Checkpoint every", sp, {unit: "steps", placeholder: "200"})),
           checkboxToggle("analysis.until_periodic", "Stop early once the lift repeats itself", sp, {cycles: 3, tolerance: 0.01},
             (on) => this.set("analysis.until_periodic", on ? {cycles: 3, tolerance: 0.01} : undefined, true)),
@@ -489,6 +489,12 @@ export class CaseForm {
           warnings.push({message: "The CFL number is above 1 with explicit convection: the solver will split the steps. Use a smaller time step or error-controlled steps."});
         }
       }
+    }
+    if (e?.pictures) {
+      const {snapshots, drawn, every, cap} = e.pictures;
+      items.push(["Field pictures", `${integer(drawn)} of each field`, every > 1
+        ? `every ${ordinal(every)} of ${integer(snapshots)} snapshots: at most ${cap} per field, evenly spread`
+        : `one per snapshot (at most ${cap} per field)`]);
     }
     if (calibration.rate && e?.dofs && (!transient || e.steps)) {
       const work = e.dofs * (transient ? e.steps : 15);
@@ -801,4 +807,9 @@ export function readable(path) {
 
 function slug(text) {
   return String(text ?? "").toLowerCase().replace(/[^a-z0-9]+/g, "-").replace(/^-|-$/g, "").slice(0, 60);
+}
+
+function ordinal(n) {
+  const tail = n % 100 >= 11 && n % 100 <= 13 ? "th" : {1: "st", 2: "nd", 3: "rd"}[n % 10] ?? "th";
+  return `${n}${tail}`;
 }

@@ -3,12 +3,16 @@
 from __future__ import annotations
 
 import io
+import json
+import re
 import zipfile
 from pathlib import Path
 
 import pytest
 
+from wakeyard.solver import load, picture_choice
 from wakeyard.solver.caution import CAUTION
+from wakeyard.solver.picture_choice import MAX_PICTURES
 
 from .conftest import TINY, shot, submit, wait_state
 
@@ -86,3 +90,24 @@ def test_compare_colours_each_body_labels_in_full_and_lists_spec_differences(pag
     assert clone.status_code == 202, clone.text
     page.goto(f"/#/compare?ids={pair[0]},{clone.json()['id']}")
     expect(page.locator("#spec-same")).to_have_text("The cases are the same apart from their titles.")
+
+
+def test_the_form_says_how_many_pictures_a_run_draws(page) -> None:
+    page.goto("/#/new")
+    figure = page.locator('dd[data-figure="Field pictures"]')
+    kinds = []
+    for interval in (0.05, 1000.0):  # many snapshots of the form's case, then just its start and end
+        page.locator("#f-analysis-output_interval").fill(str(interval))
+        page.locator("#f-analysis-output_interval").blur()
+        expect(page.locator("#spec-json")).to_have_value(re.compile(rf'"output_interval": {interval:g}\b'))
+        plan = picture_choice.plan(load(json.loads(page.locator("#spec-json").input_value())))
+        expect(figure).to_contain_text(f"{plan['drawn']} of each field")
+        kinds.append(plan["every"] > 1)
+        if plan["every"] > 1:
+            expect(figure).to_contain_text(
+                f"of {plan['snapshots']:,} snapshots: at most {MAX_PICTURES} per field, evenly"
+            )
+        else:
+            expect(figure).to_contain_text(f"one per snapshot (at most {MAX_PICTURES} per field)")
+    assert kinds == [True, False]
+    expect(page.locator("#hint-f-analysis-output_interval")).to_contain_text("one picture of each field per snapshot")
