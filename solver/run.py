@@ -234,6 +234,7 @@ class _Transient:
         self.columns = [*case.columns(), "time_step"]
         self.rows: list[list[float]] = []
         self.snapshots: list[int] = []
+        self.rows_written: int | None = None  # rows of forces.csv on disk this attempt (None: not written yet)
         self.fingerprint = hashlib.sha256(case.spec.model_dump_json().encode()).hexdigest()
         self.resumed_from_step: int | None = None
         self.heat: HeatRun | None = None
@@ -281,9 +282,11 @@ class _Transient:
                         self.snapshots.append(stepper.n)
                     break
                 now = time.perf_counter()
-                if self.progress and now - last_report > 0.5:
+                if now - last_report > 0.5:
                     last_report = now
-                    self.progress(Progress(stepper.n, 0, stepper.t, a.end_time))
+                    self._forces_so_far()
+                    if self.progress:
+                        self.progress(Progress(stepper.n, 0, stepper.t, a.end_time))
         finally:
             if self.rows:
                 output.write_forces(self.out / "forces.csv", self.columns, self.rows)
@@ -366,6 +369,16 @@ class _Transient:
         tmp.replace(self.out / "checkpoint.npz")
         stepper.renew_factorisation()
         output.write_forces(self.out / "forces.csv", self.columns, self.rows)
+        self.rows_written = len(self.rows)
+
+    def _forces_so_far(self) -> None:
+        """forces.csv grows while the run goes, for the page's live chart: the whole file first (a resumed run
+        starts from its checkpoint's rows), then only the new rows."""
+        if self.rows_written is None:
+            output.write_forces(self.out / "forces.csv", self.columns, self.rows)
+        else:
+            output.append_forces(self.out / "forces.csv", self.rows[self.rows_written :])
+        self.rows_written = len(self.rows)
 
     def _blown_up(self, x: np.ndarray) -> bool:
         ux, uy, _ = self.case.th.split(x)
