@@ -3,6 +3,7 @@
 
 import {ACTIVE, api} from "./api.js";
 import {LineChart, PALETTE} from "./chart.js";
+import {LiveForces} from "./live_forces.js";
 import {Poller} from "./poller.js";
 import {picked, progressCell, savePicked} from "./queue.js";
 import {caution, downloadLink, jobTitle, loadForces, showPicture, sizeText, stateBadge, summaryTable} from "./results.js";
@@ -27,7 +28,11 @@ export class JobView {
     this.head = h("div", {class: "job-head"});
     this.status = h("section", {class: "card job-status", "aria-labelledby": "status-heading"});
     this.results = h("div", {class: "job-results"});
-    fill(this.root, h("p", {class: "back"}, h("a", {href: "#/queue"}, "← Queue")), this.head, this.status, this.results);
+    this.live = h("section", {class: "card chart-card", id: "live-card", "aria-labelledby": "live-heading", hidden: true});
+    this.liveForces = new LiveForces(id);
+    this.liveChart = null;
+    fill(this.root, h("p", {class: "back"}, h("a", {href: "#/queue"}, "← Queue")), this.head, this.status, this.live,
+      this.results);
     this.poller.kick();
   }
 
@@ -56,7 +61,34 @@ export class JobView {
         this.renderResults();
       }
     }
+    if (job.state === "running") await this.updateLive();
+    else this.live.hidden = true; // finished: the results show the whole history
     return {active: ACTIVE.has(job.state), changed: before !== after};
+  }
+
+  /** Extend the live chart of drag and lift with the rows the run added since the last poll. */
+  async updateLive() {
+    let forces;
+    try {
+      forces = await this.liveForces.update();
+    } catch {
+      return; // the next poll tries again
+    }
+    if (!forces || forces.time.length < 2) return;
+    if (!this.liveChart) {
+      const host = h("div", {class: "chart-host", id: "live-chart"});
+      fill(this.live, h("h3", {id: "live-heading"}, "Force history so far"),
+        h("p", {class: "hint"}, "Drag (solid) and lift (dashed) coefficients, extended while the job runs."), host);
+      this.liveChart = new LineChart(host, {label: "Force coefficients of the running job", yLabel: "cD, cL"});
+    }
+    this.live.hidden = false;
+    const hidden = new Set(this.liveChart.series?.filter((sr) => !sr.visible).map((sr) => sr.id)); // keep legend choices
+    const owners = [...new Set(forces.columns.map((c) => c.owner))];
+    this.liveChart.setSeries(forces.columns.filter((c) => c.quantity === "cd" || c.quantity === "cl").map((c) => ({
+      id: c.key, label: c.label, x: forces.time, y: c.values, visible: !hidden.has(c.key),
+      color: PALETTE[owners.indexOf(c.owner) % PALETTE.length], dash: c.quantity === "cl" ? "6 4" : "",
+    })));
+    this.live.dataset.rows = String(forces.time.length);
   }
 
   renderHead() {
