@@ -19,7 +19,15 @@ from wakeyard.core.store import Store
 from wakeyard.solver.caution import CAUTION
 from wakeyard.solver.study import StudySpec
 
-from . import routes_files, routes_jobs, routes_ops, routes_previews, routes_studies, routes_tokens
+from . import (
+    routes_files,
+    routes_jobs,
+    routes_ops,
+    routes_previews,
+    routes_spectrum,
+    routes_studies,
+    routes_tokens,
+)
 from .dispatch import Dispatcher
 from .docs import install_docs
 from .limits import BodyLimit
@@ -68,7 +76,15 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes, max_seconds=settings.max_body_seconds)
     app.add_middleware(RefuseNul)
     app.add_middleware(Timing, latency=latency)  # outermost of ours: refusals are timed too
-    for module in (routes_jobs, routes_previews, routes_files, routes_studies, routes_tokens, routes_ops):
+    for module in (
+        routes_jobs,
+        routes_previews,
+        routes_files,
+        routes_spectrum,
+        routes_studies,
+        routes_tokens,
+        routes_ops,
+    ):
         app.include_router(module.router)
     _document_spec(app)
     install_docs(app)

@@ -131,6 +131,7 @@ export const api = {
       {headers: headers({Range: `bytes=${offset}-`}), cache: "no-store"});
     return {status: response.status, text: response.ok ? await response.text() : ""};
   },
+  spectrum: (id) => request("GET", `/jobs/${encodeURIComponent(id)}/spectrum`),
   fileBlob: (id, path) => request("GET", `/jobs/${encodeURIComponent(id)}/files/${path}`, {raw: true}).then((r) => r.blob()),
   listStudies: () => request("GET", "/studies"),
   getStudy: (id, signal) => request("GET", `/studies/${encodeURIComponent(id)}`, {signal}),

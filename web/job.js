@@ -6,6 +6,7 @@ import {LineChart, PALETTE} from "./chart.js";
 import {LiveForces} from "./live_forces.js";
 import {Poller} from "./poller.js";
 import {picked, progressCell, savePicked} from "./queue.js";
+import {spectrumCard} from "./spectrum.js";
 import {caution, downloadLink, jobTitle, loadForces, showPicture, sizeText, stateBadge, summaryTable} from "./results.js";
 import {confirmCancel, duration, fill, h, num, secondsBetween, toast, when} from "./util.js";
 
@@ -205,6 +206,7 @@ export class JobView {
     card.append(h("div", {class: "field inline"}, h("label", {for: "force-quantity"}, "Show"), choose), host);
     show();
     this.chart = chart;
+    if (forces.columns.some((c) => c.quantity === "cl")) (card.closest(".results-grid") ?? card).after(await spectrumCard(this.job.id));
   }
 
   renderPictures(card, files) {

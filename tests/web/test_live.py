@@ -1,8 +1,13 @@
-"""A running job's page draws its force history as the solver writes it."""
+"""A running job's page draws its force history as the solver writes it; a finished one shows its lift spectrum."""
 
 from __future__ import annotations
 
+import numpy as np
 import pytest
+
+from wakeyard.solver import load
+from wakeyard.solver.caution import CAUTION
+from wakeyard.solver.spectrum import lift_spectrum
 
 from .conftest import TINY, shot, submit, wait_state
 from .test_page import chart_points, pixel, read_csv
@@ -45,3 +50,31 @@ def test_force_history_grows_while_the_job_runs(page, api) -> None:
     wait_state(api, job_id, {"cancelled"}, timeout=60)
     expect(page.locator("#live-card")).to_be_hidden(timeout=20_000)  # finished: the results show the history
     expect(page.locator("#force-chart")).to_be_visible()
+
+
+def test_lift_spectrum_is_the_services(page, api) -> None:
+    spec = {**TINY, "title": "Spectrum of a short run", "analysis": {**TINY["analysis"], "end_time": 1.0}}
+    job_id = submit(api, spec)
+    wait_state(api, job_id, {"succeeded"}, timeout=150)
+    answer = api.get(f"/jobs/{job_id}/spectrum").json()
+    # the service's figures are the solver's function applied to the job's own forces.csv
+    columns, rows = read_csv(api.get(f"/jobs/{job_id}/files/forces.csv").text)
+    data = np.array(rows)
+    job = load(api.get(f"/jobs/{job_id}").json()["spec"])
+    own = lift_spectrum(
+        data[:, 0], data[:, columns.index("pipe_cl")], job.reference_length(0), job.reference_velocity()
+    )
+    served = answer["bodies"][0]["spectrum"]
+    assert served["peak"] == own["peak"] and served["amplitude"] == pytest.approx(own["amplitude"])
+    assert answer["caution"] == CAUTION
+    page.goto(f"/#/jobs/{job_id}")
+    peak = page.locator('#spectrum-card li[data-body="pipe"]')
+    # a Re-20 wake does not shed: no peak is claimed, and the page says so
+    assert served["peak"] is None and served["from_cycles"]["strouhal_number"] is None
+    expect(peak).to_contain_text("pipe: no shedding peak")
+    drawn = chart_points(page, "#spectrum-chart", "pipe")
+    df_px, da_px = pixel(page, "#spectrum-chart")
+    assert [f for f, _ in drawn] == pytest.approx(served["frequency"], abs=0.006 * df_px)
+    assert [a for _, a in drawn] == pytest.approx(served["amplitude"], abs=0.006 * da_px)
+    shot(page, "14-spectrum")
+    assert api.get("/jobs/nope/spectrum").status_code == 404
