@@ -29,7 +29,13 @@ def spectrum(store: StoreDep, settings: SettingsDep, job_id: str, _: UserDep) ->
     spec = solver.load(job.spec)
     bodies = []
     for i, body in enumerate(spec.bodies):
-        lift = data[:, columns.index(f"{body.name}_cl")]
-        found = lift_spectrum(data[:, 0], lift, spec.reference_length(i), spec.reference_velocity())
+        column = f"{body.name}_cl"
+        found = (
+            lift_spectrum(
+                data[:, 0], data[:, columns.index(column)], spec.reference_length(i), spec.reference_velocity()
+            )
+            if column in columns
+            else None
+        )
         bodies.append({"name": body.name, "spectrum": found})
     return {"bodies": bodies, "caution": CAUTION}

@@ -21,6 +21,8 @@ def lift_spectrum(t: np.ndarray, lift: np.ndarray, length: float, velocity: floa
     The peak's Strouhal number is only as fine as one frequency bin (``resolution``); the one from whole cycles
     (``analysis.strouhal``) is the finer figure and is returned beside it.
     """
+    if len(t) < MIN_SAMPLES:
+        return None
     keep = t >= t[0] + (t[-1] - t[0]) / 2
     tt, y = t[keep], lift[keep]
     if len(tt) < MIN_SAMPLES or tt[-1] <= tt[0]:

@@ -31,3 +31,4 @@ def test_a_drift_is_no_shedding_peak() -> None:
 def test_a_short_record_has_no_spectrum() -> None:
     t = np.linspace(0, 1, 20)
     assert lift_spectrum(t, np.sin(t), 1.0, 1.0) is None
+    assert lift_spectrum(np.array([]), np.array([]), 1.0, 1.0) is None  # a forces.csv with its header only
