@@ -173,7 +173,7 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
     assert x0 < zx0 < zx1 < x1
     inside = [r for r in rows if zx0 <= r[0] <= zx1]
     assert len(inside) + 0 <= len(chart_points(page, "#force-chart", "pipe_cd")) <= len(inside) + 2
-    page.get_by_role("button", name="Show all").click()
+    page.locator("#force-chart").get_by_role("button", name="Show all").click()
     assert float(svg.get_attribute("data-x0")) == pytest.approx(x0)
 
     # toggle a series off and on
