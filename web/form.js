@@ -455,10 +455,10 @@ export class CaseForm {
       this.previewAbort = abort;
       try {
         const preview = await api.preview(spec, abort.signal);
-        this.preview = {spec: JSON.stringify(spec), ...preview};
+        this.preview = {...preview, asked: JSON.stringify(spec)}; // preview.spec is the normalised spec
       } catch (err) {
         if (err.name === "AbortError") return;
-        this.preview = {spec: JSON.stringify(spec), failed: err.message};
+        this.preview = {asked: JSON.stringify(spec), failed: err.message};
       }
       this.showFigures(this.currentSpec());
     }, PREVIEW_DELAY);
@@ -468,7 +468,8 @@ export class CaseForm {
   showFigures(spec) {
     const warnings = [...(this.localWarnings ?? [])];
     const p = this.preview;
-    const stale = !p || p.spec !== JSON.stringify(spec);
+    const stale = !p || p.asked !== JSON.stringify(spec);
+    if (!stale && p.spec) this.showDefaults(p.spec);
     const e = p?.estimate;
     const transient = (spec.analysis?.mode ?? "steady") === "transient";
     const items = [
@@ -509,6 +510,15 @@ export class CaseForm {
     fill(this.figures, items.map(([k, v, note]) => h("div", {class: "figure"},
       h("dt", {}, k), h("dd", {dataset: {figure: k}}, v, note ? h("small", {}, note) : null))));
     fill(this.warnings, warnings.map((w) => h("li", {}, w.message)));
+  }
+
+  /** A blank field shows, as its placeholder, the value the service will use for it: the preview's normalised spec
+   * (so what the form shows and what is submitted agree; the page guesses no default of its own). */
+  showDefaults(normal) {
+    for (const input of this.root.querySelectorAll('input[data-kind="number"]')) {
+      const value = getPath(normal, input.dataset.path);
+      if (input.value.trim() === "" && typeof value === "number") input.placeholder = String(value);
+    }
   }
 
   applyJson(text = this.json.value) {

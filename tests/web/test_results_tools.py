@@ -111,3 +111,31 @@ def test_the_form_says_how_many_pictures_a_run_draws(page) -> None:
             expect(figure).to_contain_text(f"one per snapshot (at most {MAX_PICTURES} per field)")
     assert kinds == [True, False]
     expect(page.locator("#hint-f-analysis-output_interval")).to_contain_text("one picture of each field per snapshot")
+
+
+def test_blank_fields_show_the_services_values_and_the_figures_settle(page, api) -> None:
+    """What a blank field will become is the service's normalised spec, shown as the field's placeholder."""
+    page.goto("/#/new")
+    for path in ("channel.length", "analysis.end_time", "fluid.density"):
+        page.locator(f"#f-{path.replace('.', '-')}").fill("")
+    page.locator("#f-channel-height").focus()
+    figures = page.locator("dl.figures")
+    expect(figures).to_have_attribute("aria-busy", "false")  # the preview of this very spec has arrived
+    sent = json.loads(page.locator("#spec-json").input_value())
+    assert "length" not in sent.get("channel", {})  # blank: left to the service
+    normal = api.post("/previews", json=sent).json()["spec"]
+    blanks = page.locator('input[data-kind="number"]')
+    checked = 0
+    for i in range(blanks.count()):
+        field = blanks.nth(i)
+        if field.input_value().strip():
+            continue
+        value = normal
+        for part in field.get_attribute("data-path").split("."):
+            value = value.get(part) if isinstance(value, dict) else None
+        if isinstance(value, int | float) and not isinstance(value, bool):
+            assert float(field.get_attribute("placeholder")) == value, field.get_attribute("data-path")
+            checked += 1
+    assert checked >= 3
+    length = float(page.locator("#f-channel-length").get_attribute("placeholder"))
+    assert length == normal["channel"]["length"]
