@@ -19,6 +19,7 @@ from .case import Case
 from .caution import CAUTION
 from .errors import Cancelled, Diverged, InternalError, RunFailed, WallTimeExceeded
 from .heat_output import HeatRun
+from .mesh_picture import mesh_picture
 from .recirculation import recirculation_length
 from .spec import ADAPTIVE, JobSpec, load
 from .stages import failed_stage
@@ -208,6 +209,8 @@ def _draw_pictures(case: Case, out: Path, steps: list[int]) -> None:
     tri = pictures.triangulation(case.th.velocity.doflocs, case.th.velocity.element_dofs)
     folder = out / "pictures"
     folder.mkdir(exist_ok=True)
+    velocity = case.th.velocity
+    mesh_picture(folder / "mesh.png", case.spec, velocity.doflocs, velocity.element_dofs[:3])
     transient = case.spec.analysis.mode == "transient"
     for i, f, raw in zip(pick, fields, loaded):
         t = float(raw["time"]) if transient else None

@@ -161,6 +161,7 @@ export class JobView {
     if (paths.has("forces.csv")) this.renderForces(chartCard);
     else chartCard.append(h("p", {class: "hint"}, "No force history was written."));
     this.renderPictures(pictureCard, files);
+    if (paths.has("pictures/mesh.png")) this.renderMesh(pictureCard);
     this.renderHeat(pictureCard, paths);
     this.renderDownloads(downloads, files);
   }
@@ -276,6 +277,15 @@ export class JobView {
       h("div", {class: "field slider"}, h("label", {for: "snapshot"}, "Snapshot"), slider, play)),
     h("figure", {}, img, caption));
     update();
+  }
+
+  /** The mesh the run used: the whole channel and a close-up of each body. */
+  renderMesh(pictureCard) {
+    const label = "Mesh: the whole channel and a close-up of each body";
+    const img = h("img", {class: "field-picture", id: "mesh-picture", alt: label, decoding: "async", dataset: {path: "pictures/mesh.png"}});
+    pictureCard.after(h("section", {class: "card pictures", "aria-labelledby": "mesh-heading"},
+      h("h3", {id: "mesh-heading"}, "Mesh"), h("figure", {}, img, h("figcaption", {}, label))));
+    showPicture(img, this.job.id, "pictures/mesh.png").catch((err) => toast(err.message, "error"));
   }
 
   /** The heat-transfer plots (runs that solved for the temperature), after the field pictures. */

@@ -64,6 +64,7 @@ def test_transient_outputs(full_run):
     ]
     assert len(list((out / "pictures").glob("vorticity_*.png"))) == 4
     assert (out / "forces.png").stat().st_size > 1000
+    assert (out / "pictures" / "mesh.png").read_bytes()[:4] == b"\x89PNG"  # the mesh, with a close-up of the body
     assert not (out / "checkpoint.npz").exists()
 
 

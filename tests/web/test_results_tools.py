@@ -48,6 +48,10 @@ def test_everything_downloads_as_one_zip(page, api, pair) -> None:
     assert archive.read("forces.csv") == api.get(f"/jobs/{job_id}/files/forces.csv").content
     assert " ".join(archive.read("CAUTION.txt").decode().split()) == f"Caution: {CAUTION}"
     assert download.suggested_filename.endswith("all-files.zip")
+    # the mesh picture is shown with the results
+    mesh = page.locator("#mesh-picture")
+    expect(mesh).to_have_attribute("alt", re.compile("close-up of each body"))
+    page.wait_for_function("document.querySelector('#mesh-picture').naturalWidth > 300")
     # a job with no files yet has nothing to zip: a clear 404, not an empty archive
     missing = api.get("/jobs/no-such-job/files/all-files.zip")
     assert missing.status_code == 404 and missing.json()["detail"][0]["field"] == "job_id"
