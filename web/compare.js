@@ -78,34 +78,37 @@ export class CompareView {
     } else {
       parts.push(h("p", {class: "hint"}, "None of these jobs has a force history over time (steady runs have one value)."));
     }
-    parts.push(specDifferences(loaded), this.table(loaded));
+    const colours = new Map(); // one colour per (job, body): cD and cL of a body share it, so do the table's swatches
+    for (const {job, forces} of withForces) {
+      for (const c of forces.columns.filter((col) => col.quantity === "cd")) {
+        colours.set(`${job.id}:${c.owner}`, PALETTE[colours.size % PALETTE.length]);
+      }
+    }
+    parts.push(specDifferences(loaded), this.table(loaded, colours));
     fill(this.body, parts);
     if (!host) return;
     const chart = new LineChart(host, {label: "Drag and lift coefficients of the compared jobs", yLabel: "cD, cL"});
     const series = [];
-    const colours = new Map(); // one colour per (job, body): cD and cL of a body share it
-    loaded.forEach(({job, forces}) => {
-      if (!forces || forces.time.length < 2) return;
+    for (const {job, forces} of withForces) {
       for (const c of forces.columns.filter((col) => col.quantity === "cd" || col.quantity === "cl")) {
-        const owner = `${job.id}:${c.owner}`;
-        if (!colours.has(owner)) colours.set(owner, PALETTE[colours.size % PALETTE.length]);
         series.push({id: `${job.id}:${c.key}`, label: `${jobTitle(job)} (${shortId(job.id)}) · ${c.label}`, x: forces.time,
-          y: c.values, color: colours.get(owner), dash: c.quantity === "cl" ? "6 4" : ""});
+          y: c.values, color: colours.get(`${job.id}:${c.owner}`), dash: c.quantity === "cl" ? "6 4" : ""});
       }
-    });
+    }
     chart.setSeries(series);
     this.chart = chart;
   }
 
-  table(loaded) {
+  table(loaded, colours) {
     const rowsOf = loaded.map(({job}) => new Map(summaryRows(job).map(([k, v]) => [k, v])));
     const labels = [];
     for (const rows of rowsOf) for (const k of rows.keys()) if (!labels.includes(k)) labels.push(k);
     return h("section", {class: "card", "aria-labelledby": "side-heading"},
       h("h3", {id: "side-heading"}, "Summaries side by side"),
       h("div", {class: "table-wrap"}, h("table", {class: "compare-table", id: "compare-table"},
-        h("thead", {}, h("tr", {}, h("th", {scope: "col"}, "Quantity"), loaded.map(({job}, i) => h("th", {scope: "col", dataset: {id: job.id}},
-          h("span", {class: "swatch", style: `background:${PALETTE[i % PALETTE.length]}`}),
+        h("thead", {}, h("tr", {}, h("th", {scope: "col"}, "Quantity"), loaded.map(({job}) => h("th", {scope: "col", dataset: {id: job.id}},
+          [...colours].filter(([owner]) => owner.startsWith(`${job.id}:`)).map(([owner, colour]) => h("span",
+            {class: "swatch", style: `background:${colour}`, title: owner.slice(job.id.length + 1)})),
           h("a", {href: `#/jobs/${job.id}`}, jobTitle(job)), " ", stateBadge(job.state))))),
         h("tbody", {}, labels.map((k) => h("tr", {}, h("th", {scope: "row"}, k), rowsOf.map((rows) => h("td", {}, rows.get(k) ?? "—"))))))));
   }

@@ -73,6 +73,11 @@ def test_compare_colours_each_body_labels_in_full_and_lists_spec_differences(pag
     colours = [stroke(f"{o}_cd") for o in owners]
     assert len(set(colours)) == 4, colours  # one colour per body and job
     assert [stroke(f"{o}_cl") for o in owners] == colours  # lift shares its body's colour, dashed
+    # the summary table's header shows the same colours, one swatch per body
+    twin_head = page.locator(f'#compare-table thead th[data-id="{twin}"] .swatch')
+    expect(twin_head).to_have_count(2)
+    swatches = [twin_head.nth(i).evaluate("e => getComputedStyle(e).backgroundColor") for i in range(2)]
+    assert swatches == [rgb(c) for c in colours[2:]]
     # the legend carries the whole title, and says it again as a tooltip
     item = page.locator(f'#compare-chart .legend-item[data-series="{twin}:front_cd"]')
     expect(item).to_contain_text(TWIN["title"])
@@ -143,3 +148,9 @@ def test_blank_fields_show_the_services_values_and_the_figures_settle(page, api)
     assert checked >= 3
     length = float(page.locator("#f-channel-length").get_attribute("placeholder"))
     assert length == normal["channel"]["length"]
+
+
+def rgb(hex_colour: str) -> str:
+    """#1f6f8b as the browser's computed style writes it: rgb(31, 111, 139)."""
+    r, g, b = (int(hex_colour[i : i + 2], 16) for i in (1, 3, 5))
+    return f"rgb({r}, {g}, {b})"
