@@ -506,6 +506,13 @@ export class CaseForm {
     }
     if (p?.failed) warnings.push({message: `No preview: ${p.failed}`});
     for (const problem of p?.problems ?? []) warnings.push({message: `${readable(problem.field)}: ${problem.message}`});
+    // the bodies the service finds fault with (overlaps, walls) are marked on the drawing too
+    const faulty = new Set((this.localWarnings ?? []).map((w) => w.index));
+    if (!stale) for (const problem of p.problems ?? []) {
+      const m = /^bodies\.(\d+)/.exec(problem.field);
+      if (m) faulty.add(Number(m[1]));
+    }
+    if ([...faulty].some((i) => !this.drawing.warned.has(i)) || faulty.size !== this.drawing.warned.size) this.drawing.draw(spec, faulty);
     this.figures.setAttribute("aria-busy", String(stale));
     fill(this.figures, items.map(([k, v, note]) => h("div", {class: "figure"},
       h("dt", {}, k), h("dd", {dataset: {figure: k}}, v, note ? h("small", {}, note) : null))));

@@ -380,6 +380,7 @@ def test_live_figures_come_from_the_services_preview(page) -> None:
     fill(page, "bodies.1.center.0", spec["bodies"][0]["center"][0])
     fill(page, "bodies.1.center.1", spec["bodies"][0]["center"][1])
     expect(page.locator("ul.warnings")).to_contain_text("overlaps")
+    expect(page.locator(".case-svg .body-warn")).not_to_have_count(0)  # the drawing marks the body in fault
     expect(mesh).to_contain_text("—")
 
 
