@@ -62,6 +62,11 @@ export class JobView {
         this.renderResults();
       }
     }
+    if (job.attempts !== this.liveAttempt) {
+      // a retried run starts forces.csv again from its checkpoint: read it from the top
+      this.liveAttempt = job.attempts;
+      this.liveForces = new LiveForces(job.id);
+    }
     if (job.state === "running") await this.updateLive();
     else this.live.hidden = true; // finished: the results show the whole history
     return {active: ACTIVE.has(job.state), changed: before !== after};
