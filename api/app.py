@@ -19,8 +19,18 @@ from wakeyard.core.store import Store
 from wakeyard.solver.caution import CAUTION
 from wakeyard.solver.study import StudySpec
 
-from . import routes_files, routes_jobs, routes_ops, routes_previews, routes_studies, routes_tokens, routes_usage
+from . import (
+    routes_files,
+    routes_jobs,
+    routes_ops,
+    routes_previews,
+    routes_spectrum,
+    routes_studies,
+    routes_tokens,
+    routes_usage,
+)
 from .dispatch import Dispatcher
+from .docs import install_docs
 from .limits import BodyLimit
 from .metrics import Timing, registry_for
 from .problems import install
@@ -57,6 +67,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         title="wakeyard",
         version=solver.__version__,
         lifespan=lifespan,
+        docs_url=None,  # served by install_docs from packaged assets
+        redoc_url=None,
         description=f"Queued 2D incompressible flow simulations. Caution: {CAUTION}",
     )
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
@@ -70,6 +82,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         routes_jobs,
         routes_previews,
         routes_files,
+        routes_spectrum,
         routes_studies,
         routes_tokens,
         routes_usage,
@@ -77,6 +90,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     ):
         app.include_router(module.router)
     _document_spec(app)
+    install_docs(app)
     app.mount("/", StaticFiles(directory=str(WEB), html=True), name="web")
     return app
 

@@ -21,6 +21,7 @@ from .problems import NotFound
 
 router = APIRouter(prefix="/api/v1/jobs", tags=["files"])
 ARCHIVE = "fields.zip"
+EVERYTHING = "all-files.zip"  # every result file of the job in one download (not listed: it holds the list)
 ARCHIVE_NOTE = "CAUTION.txt"  # the caution travels inside the archive with the fields
 HIDDEN = {"checkpoint.npz"}  # the solver's restart state, not a result
 TYPES = {
@@ -91,11 +92,22 @@ def list_files(store: StoreDep, settings: SettingsDep, job_id: str, _: UserDep) 
     return {"files": files, "caution": CAUTION}
 
 
-@router.get("/{job_id}/files/{path:path}", summary="Download one result file (fields.zip: all VTU/PVD files)")
+@router.get(
+    "/{job_id}/files/{path:path}",
+    summary="Download one result file (fields.zip: all VTU/PVD files; all-files.zip: every file of the job)",
+)
 def get_file(store: StoreDep, settings: SettingsDep, job_id: str, path: str, _: UserDep) -> Any:
     folder = _folder(store, settings, job_id)
     if path == ARCHIVE:
-        return _archive(folder, job_id)
+        files = _field_files(folder)
+        if not files:
+            raise NotFound("path", f"job {job_id} has no VTU files (yet)")
+        return _archive(folder / "fields", files, f"{job_id}-fields.zip")
+    if path == EVERYTHING:
+        files = _visible(folder)
+        if not files:
+            raise NotFound("path", f"job {job_id} has no result files (yet)")
+        return _archive(folder, files, f"{job_id}-{EVERYTHING}")
     try:
         target = (folder / path).resolve()
     except BAD_PATH:
@@ -107,21 +119,19 @@ def get_file(store: StoreDep, settings: SettingsDep, job_id: str, path: str, _: 
     return FileResponse(target, media_type=_content_type(target.name))
 
 
-def _archive(folder: Path, job_id: str) -> StreamingResponse:
-    """Zip the VTU/PVD files into a spooled temporary file (memory first, disk when large) and stream it."""
-    files = _field_files(folder)
-    if not files:
-        raise NotFound("path", f"job {job_id} has no VTU files (yet)")
+def _archive(root: Path, files: list[Path], name: str) -> StreamingResponse:
+    """Zip ``files`` (named relative to ``root``) with the caution into a spooled temporary file (memory first, disk
+    when large) and stream it."""
     spool = tempfile.SpooledTemporaryFile(max_size=32 * 2**20)  # noqa: SIM115 - closed by _chunks
     with zipfile.ZipFile(spool, "w", zipfile.ZIP_DEFLATED) as zf:
         zf.writestr(ARCHIVE_NOTE, "\n".join(caution_lines(100)) + "\n")
         for p in files:
-            zf.write(p, p.relative_to(folder / "fields").as_posix())
+            zf.write(p, p.relative_to(root).as_posix())
     spool.seek(0)
     return StreamingResponse(
         _chunks(spool),
         media_type="application/zip",
-        headers={"Content-Disposition": f'attachment; filename="{job_id}-fields.zip"'},
+        headers={"Content-Disposition": f'attachment; filename="{name}"'},
     )
 
 

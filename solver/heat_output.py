@@ -15,7 +15,7 @@ from typing import Any
 
 import numpy as np
 
-from . import analysis, heat_pictures, output, pictures
+from . import analysis, heat_pictures, output, picture_choice, pictures
 from .case import Case
 from .errors import Diverged
 from .heat_transfer import HeatTransfer
@@ -154,7 +154,7 @@ class HeatRun:
         try:
             case = self.case
             pick = sorted(set(steps))
-            pick = [pick[i] for i in np.unique(np.linspace(0, len(pick) - 1, min(12, len(pick))).round().astype(int))]
+            pick = [pick[i] for i in picture_choice.chosen(len(pick))]
             loaded = [np.load(self.out / "fields" / f"step_{k:06d}.npz") for k in pick]
             values = np.concatenate([f["temperature"] for f in loaded])
             limits = (

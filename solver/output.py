@@ -49,12 +49,24 @@ def force_columns(body_names: list[str], pressure_drop: bool, velocity_probes: l
     return cols
 
 
-def write_forces(path: Path, columns: list[str], rows: list[list[float]]) -> None:
+def _force_lines(rows: list[list[float]], columns: list[str] | None = None) -> str:
     buf = io.StringIO()
     writer = csv.writer(buf, lineterminator="\n")
-    writer.writerow(columns)
+    if columns is not None:
+        writer.writerow(columns)
     writer.writerows([[f"{v:.12g}" for v in row] for row in rows])
-    write_atomic(path, buf.getvalue())
+    return buf.getvalue()
+
+
+def write_forces(path: Path, columns: list[str], rows: list[list[float]]) -> None:
+    write_atomic(path, _force_lines(rows, columns))
+
+
+def append_forces(path: Path, rows: list[list[float]]) -> None:
+    """Add whole lines to forces.csv in one write, so a reader of the growing file sees the rows so far (it
+    keeps to lines that end in a newline); the text is the same ``write_forces`` would write."""
+    with open(path, "a") as f:
+        f.write(_force_lines(rows))
 
 
 def read_forces(path: Path) -> tuple[list[str], np.ndarray]:

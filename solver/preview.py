@@ -19,7 +19,7 @@ from typing import Any
 
 from pydantic import ValidationError
 
-from . import meshing
+from . import meshing, picture_choice
 from .errors import SpecError
 from .limits import Limits, check_limits
 from .spec import ADAPTIVE, JobSpec, _check_geometry, _check_scales, _message, _path
@@ -180,6 +180,7 @@ def estimate(spec: JobSpec) -> dict[str, Any]:
         "seconds": None,
         "method": method,
         "body_cell_size": size.body / 2**size.extra_splits if spec.bodies else None,
+        "pictures": picture_choice.plan(spec),
         "note": note,
     }
 

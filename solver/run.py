@@ -13,12 +13,13 @@ from typing import Any
 
 import numpy as np
 
-from . import analysis, output, pictures
+from . import analysis, output, picture_choice, pictures
 from .adaptive import AdaptiveBDF2, Scales
 from .case import Case
 from .caution import CAUTION
 from .errors import Cancelled, Diverged, InternalError, RunFailed, WallTimeExceeded
 from .heat_output import HeatRun
+from .mesh_picture import mesh_picture
 from .recirculation import recirculation_length
 from .spec import ADAPTIVE, JobSpec, load
 from .stages import failed_stage
@@ -26,7 +27,6 @@ from .steady import solve_steady
 from .transient import Stepper
 from .units import summary_units
 
-MAX_PICTURES = 12
 FIRST_STEP = 1e-3  # the adaptive scheme's first step, in convective times L/U, when none is given
 
 log = logging.getLogger(__name__)
@@ -190,7 +190,8 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
 
 
 def _pictures(case: Case, out: Path, steps: list[int]) -> None:
-    """Field pictures of up to MAX_PICTURES saved snapshots; a failure is recorded, never raised (the solve is done)."""
+    """Field pictures of the snapshots ``picture_choice`` picks; a failure is recorded, never raised (the solve is
+    done)."""
     try:
         _draw_pictures(case, out, steps)
     except Exception as err:
@@ -201,13 +202,15 @@ def _pictures(case: Case, out: Path, steps: list[int]) -> None:
 def _draw_pictures(case: Case, out: Path, steps: list[int]) -> None:
     """One colour scale for the whole run."""
     steps = sorted(set(steps))
-    pick = np.unique(np.linspace(0, len(steps) - 1, min(MAX_PICTURES, len(steps))).round().astype(int))
+    pick = picture_choice.chosen(len(steps))
     loaded = [np.load(out / "fields" / f"step_{steps[i]:06d}.npz") for i in pick]
     fields = [{k: f[k] for k in ("ux", "uy", "pressure", "vorticity")} for f in loaded]
     limits = pictures.color_limits(fields)
     tri = pictures.triangulation(case.th.velocity.doflocs, case.th.velocity.element_dofs)
     folder = out / "pictures"
     folder.mkdir(exist_ok=True)
+    velocity = case.th.velocity
+    mesh_picture(folder / "mesh.png", case.spec, velocity.doflocs, velocity.element_dofs[:3])
     transient = case.spec.analysis.mode == "transient"
     for i, f, raw in zip(pick, fields, loaded):
         t = float(raw["time"]) if transient else None
@@ -230,10 +233,11 @@ class _Transient:
         self.case, self.out, self.progress, self.should_stop = case, out, progress, should_stop
         self.deadline, self.resume = deadline, resume
         a = case.spec.analysis
-        self.output_interval = a.output_interval or a.end_time / 20
+        self.output_interval = picture_choice.interval(a.end_time, a.output_interval)
         self.columns = [*case.columns(), "time_step"]
         self.rows: list[list[float]] = []
         self.snapshots: list[int] = []
+        self.rows_written: int | None = None  # rows of forces.csv on disk this attempt (None: not written yet)
         self.fingerprint = hashlib.sha256(case.spec.model_dump_json().encode()).hexdigest()
         self.resumed_from_step: int | None = None
         self.heat: HeatRun | None = None
@@ -281,9 +285,11 @@ class _Transient:
                         self.snapshots.append(stepper.n)
                     break
                 now = time.perf_counter()
-                if self.progress and now - last_report > 0.5:
+                if now - last_report > 0.5:
                     last_report = now
-                    self.progress(Progress(stepper.n, 0, stepper.t, a.end_time))
+                    self._forces_so_far()
+                    if self.progress:
+                        self.progress(Progress(stepper.n, 0, stepper.t, a.end_time))
         finally:
             if self.rows:
                 output.write_forces(self.out / "forces.csv", self.columns, self.rows)
@@ -366,6 +372,16 @@ class _Transient:
         tmp.replace(self.out / "checkpoint.npz")
         stepper.renew_factorisation()
         output.write_forces(self.out / "forces.csv", self.columns, self.rows)
+        self.rows_written = len(self.rows)
+
+    def _forces_so_far(self) -> None:
+        """forces.csv grows while the run goes, for the page's live chart: the whole file first (a resumed run
+        starts from its checkpoint's rows), then only the new rows."""
+        if self.rows_written is None:
+            output.write_forces(self.out / "forces.csv", self.columns, self.rows)
+        else:
+            output.append_forces(self.out / "forces.csv", self.rows[self.rows_written :])
+        self.rows_written = len(self.rows)
 
     def _blown_up(self, x: np.ndarray) -> bool:
         ux, uy, _ = self.case.th.split(x)

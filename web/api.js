@@ -125,6 +125,13 @@ export const api = {
   },
   fileUrl: (id, path) => `${PREFIX}/jobs/${encodeURIComponent(id)}/files/${path.split("/").map(encodeURIComponent).join("/")}`,
   fileText: (id, path) => request("GET", `/jobs/${encodeURIComponent(id)}/files/${path}`, {raw: true}).then((r) => r.text()),
+  /** The part of a result file from byte ``offset`` on: {status: 206 (that part), 200 (whole file), 416, 404, text}. */
+  fileFrom: async (id, path, offset) => {
+    const response = await fetch(`${PREFIX}/jobs/${encodeURIComponent(id)}/files/${path}`,
+      {headers: headers({Range: `bytes=${offset}-`}), cache: "no-store"});
+    return {status: response.status, text: response.ok ? await response.text() : ""};
+  },
+  spectrum: (id) => request("GET", `/jobs/${encodeURIComponent(id)}/spectrum`),
   fileBlob: (id, path) => request("GET", `/jobs/${encodeURIComponent(id)}/files/${path}`, {raw: true}).then((r) => r.blob()),
   listStudies: () => request("GET", "/studies"),
   getStudy: (id, signal) => request("GET", `/studies/${encodeURIComponent(id)}`, {signal}),

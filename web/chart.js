@@ -209,11 +209,11 @@ export class LineChart {
   renderLegend() {
     this.legend.replaceChildren(...this.series.map((sr) => h("button", {
       type: "button", class: "legend-item", "aria-pressed": String(sr.visible), dataset: {series: sr.id},
-      title: sr.visible ? "Hide this series" : "Show this series",
+      title: `${sr.label}: ${sr.visible ? "click to hide" : "click to show"}`,
       onclick: (e) => {
         sr.visible = !sr.visible;
         e.currentTarget.setAttribute("aria-pressed", String(sr.visible));
-        e.currentTarget.title = sr.visible ? "Hide this series" : "Show this series";
+        e.currentTarget.title = `${sr.label}: ${sr.visible ? "click to hide" : "click to show"}`;
         this.render();
       }},
     s("svg", {width: "22", height: "10", "aria-hidden": "true"},

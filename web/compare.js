@@ -74,41 +74,69 @@ export class CompareView {
       host = h("div", {class: "chart-host", id: "compare-chart"});
       parts.push(h("section", {class: "card chart-card", "aria-labelledby": "overlay-heading"},
         h("h3", {id: "overlay-heading"}, "Force coefficients over time"),
-        h("p", {class: "hint"}, "One colour per job; solid lines drag (cD), dashed lines lift (cL)."), host));
+        h("p", {class: "hint"}, "One colour per body of each job; solid lines drag (cD), dashed lines lift (cL)."), host));
     } else {
       parts.push(h("p", {class: "hint"}, "None of these jobs has a force history over time (steady runs have one value)."));
     }
-    parts.push(this.table(loaded));
+    const colours = new Map(); // one colour per (job, body): cD and cL of a body share it, so do the table's swatches
+    for (const {job, forces} of withForces) {
+      for (const c of forces.columns.filter((col) => col.quantity === "cd")) {
+        colours.set(`${job.id}:${c.owner}`, PALETTE[colours.size % PALETTE.length]);
+      }
+    }
+    parts.push(specDifferences(loaded), this.table(loaded, colours));
     fill(this.body, parts);
     if (!host) return;
     const chart = new LineChart(host, {label: "Drag and lift coefficients of the compared jobs", yLabel: "cD, cL"});
     const series = [];
-    loaded.forEach(({job, forces}, i) => {
-      if (!forces || forces.time.length < 2) return;
+    for (const {job, forces} of withForces) {
       for (const c of forces.columns.filter((col) => col.quantity === "cd" || col.quantity === "cl")) {
-        series.push({id: `${job.id}:${c.key}`, label: `${shortTitle(job)} · ${c.label}`, x: forces.time, y: c.values,
-          color: PALETTE[i % PALETTE.length], dash: c.quantity === "cl" ? "6 4" : ""});
+        series.push({id: `${job.id}:${c.key}`, label: `${jobTitle(job)} (${shortId(job.id)}) · ${c.label}`, x: forces.time,
+          y: c.values, color: colours.get(`${job.id}:${c.owner}`), dash: c.quantity === "cl" ? "6 4" : ""});
       }
-    });
+    }
     chart.setSeries(series);
     this.chart = chart;
   }
 
-  table(loaded) {
+  table(loaded, colours) {
     const rowsOf = loaded.map(({job}) => new Map(summaryRows(job).map(([k, v]) => [k, v])));
     const labels = [];
     for (const rows of rowsOf) for (const k of rows.keys()) if (!labels.includes(k)) labels.push(k);
     return h("section", {class: "card", "aria-labelledby": "side-heading"},
       h("h3", {id: "side-heading"}, "Summaries side by side"),
       h("div", {class: "table-wrap"}, h("table", {class: "compare-table", id: "compare-table"},
-        h("thead", {}, h("tr", {}, h("th", {scope: "col"}, "Quantity"), loaded.map(({job}, i) => h("th", {scope: "col", dataset: {id: job.id}},
-          h("span", {class: "swatch", style: `background:${PALETTE[i % PALETTE.length]}`}),
+        h("thead", {}, h("tr", {}, h("th", {scope: "col"}, "Quantity"), loaded.map(({job}) => h("th", {scope: "col", dataset: {id: job.id}},
+          [...colours].filter(([owner]) => owner.startsWith(`${job.id}:`)).map(([owner, colour]) => h("span",
+            {class: "swatch", style: `background:${colour}`, title: owner.slice(job.id.length + 1)})),
           h("a", {href: `#/jobs/${job.id}`}, jobTitle(job)), " ", stateBadge(job.state))))),
         h("tbody", {}, labels.map((k) => h("tr", {}, h("th", {scope: "row"}, k), rowsOf.map((rows) => h("td", {}, rows.get(k) ?? "—"))))))));
   }
 }
 
-function shortTitle(job) {
-  const t = jobTitle(job);
-  return `${t.length > 24 ? `${t.slice(0, 23)}…` : t} (${shortId(job.id)})`;
+/** Spec fields as dotted paths (bodies.0.radius) with their values; lists of numbers stay whole (a centre). */
+function flatten(value, path = "", out = new Map()) {
+  if (Array.isArray(value) && value.every((v) => typeof v !== "object" || v === null)) out.set(path, JSON.stringify(value));
+  else if (value && typeof value === "object") {
+    for (const [k, v] of Object.entries(value)) flatten(v, path ? `${path}.${k}` : k, out);
+  } else out.set(path, JSON.stringify(value ?? null));
+  return out;
+}
+
+/** A table of the spec fields whose values differ between the jobs (a field one job lacks shows as —). */
+function specDifferences(loaded) {
+  const flat = loaded.map(({job}) => flatten(job.spec ?? {}));
+  const paths = [...new Set(flat.flatMap((f) => [...f.keys()]))].filter((p) => p !== "title").sort();
+  const differ = paths.filter((p) => new Set(flat.map((f) => f.get(p) ?? "")).size > 1);
+  const head = h("h3", {id: "diff-heading"}, "How the cases differ");
+  if (!differ.length) {
+    return h("section", {class: "card", "aria-labelledby": "diff-heading"}, head,
+      h("p", {class: "hint", id: "spec-same"}, "The cases are the same apart from their titles."));
+  }
+  return h("section", {class: "card", "aria-labelledby": "diff-heading"}, head,
+    h("div", {class: "table-wrap"}, h("table", {class: "compare-table", id: "spec-diff"},
+      h("thead", {}, h("tr", {}, h("th", {scope: "col"}, "Spec field"),
+        loaded.map(({job}) => h("th", {scope: "col", title: jobTitle(job)}, `${jobTitle(job)} (${shortId(job.id)})`)))),
+      h("tbody", {}, differ.map((p) => h("tr", {dataset: {field: p}}, h("th", {scope: "row"}, h("code", {}, p)),
+        flat.map((f) => h("td", {}, f.has(p) ? f.get(p).replace(/^"|"$/g, "") : "—"))))))));
 }

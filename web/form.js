@@ -207,7 +207,7 @@ export class CaseForm {
             numberField("analysis.end_time", "End time", sp, {unit: "s", placeholder: "1"})),
           h("div", {class: "row"},
             numberField("analysis.output_interval", "Picture every", sp, {unit: "s",
-              hint: "Simulated time between field snapshots."}),
+              hint: "Simulated time between field snapshots: one picture of each field per snapshot, up to the service's cap (see “Field pictures” below)."}),
             numberField("analysis.checkpoint_interval", "Checkpoint every", sp, {unit: "steps", placeholder: "200"})),
           checkboxToggle("analysis.until_periodic", "Stop early once the lift repeats itself", sp, {cycles: 3, tolerance: 0.01},
             (on) => this.set("analysis.until_periodic", on ? {cycles: 3, tolerance: 0.01} : undefined, true)),
@@ -455,10 +455,10 @@ export class CaseForm {
       this.previewAbort = abort;
       try {
         const preview = await api.preview(spec, abort.signal);
-        this.preview = {spec: JSON.stringify(spec), ...preview};
+        this.preview = {...preview, asked: JSON.stringify(spec)}; // preview.spec is the normalised spec
       } catch (err) {
         if (err.name === "AbortError") return;
-        this.preview = {spec: JSON.stringify(spec), failed: err.message};
+        this.preview = {asked: JSON.stringify(spec), failed: err.message};
       }
       this.showFigures(this.currentSpec());
     }, PREVIEW_DELAY);
@@ -468,7 +468,8 @@ export class CaseForm {
   showFigures(spec) {
     const warnings = [...(this.localWarnings ?? [])];
     const p = this.preview;
-    const stale = !p || p.spec !== JSON.stringify(spec);
+    const stale = !p || p.asked !== JSON.stringify(spec);
+    if (!stale && p.spec) this.showDefaults(p.spec);
     const e = p?.estimate;
     const transient = (spec.analysis?.mode ?? "steady") === "transient";
     const items = [
@@ -490,6 +491,12 @@ export class CaseForm {
         }
       }
     }
+    if (e?.pictures) {
+      const {snapshots, drawn, every, cap} = e.pictures;
+      items.push(["Field pictures", `${integer(drawn)} of each field`, every > 1
+        ? `every ${ordinal(every)} of ${integer(snapshots)} snapshots: at most ${cap} per field, evenly spread`
+        : `one per snapshot (at most ${cap} per field)`]);
+    }
     if (calibration.rate && e?.dofs && (!transient || e.steps)) {
       const work = e.dofs * (transient ? e.steps : 15);
       items.push(["Run time, roughly", duration(work * calibration.rate), `from ${calibration.jobs} succeeded job(s) on this server`]);
@@ -499,10 +506,26 @@ export class CaseForm {
     }
     if (p?.failed) warnings.push({message: `No preview: ${p.failed}`});
     for (const problem of p?.problems ?? []) warnings.push({message: `${readable(problem.field)}: ${problem.message}`});
+    // the bodies the service finds fault with (overlaps, walls) are marked on the drawing too
+    const faulty = new Set((this.localWarnings ?? []).map((w) => w.index));
+    if (!stale) for (const problem of p.problems ?? []) {
+      const m = /^bodies\.(\d+)/.exec(problem.field);
+      if (m) faulty.add(Number(m[1]));
+    }
+    if ([...faulty].some((i) => !this.drawing.warned.has(i)) || faulty.size !== this.drawing.warned.size) this.drawing.draw(spec, faulty);
     this.figures.setAttribute("aria-busy", String(stale));
     fill(this.figures, items.map(([k, v, note]) => h("div", {class: "figure"},
       h("dt", {}, k), h("dd", {dataset: {figure: k}}, v, note ? h("small", {}, note) : null))));
     fill(this.warnings, warnings.map((w) => h("li", {}, w.message)));
+  }
+
+  /** A blank field shows, as its placeholder, the value the service will use for it: the preview's normalised spec
+   * (so what the form shows and what is submitted agree; the page guesses no default of its own). */
+  showDefaults(normal) {
+    for (const input of this.root.querySelectorAll('input[data-kind="number"]')) {
+      const value = getPath(normal, input.dataset.path);
+      if (input.value.trim() === "" && typeof value === "number") input.placeholder = String(value);
+    }
   }
 
   applyJson(text = this.json.value) {
@@ -801,4 +824,9 @@ export function readable(path) {
 
 function slug(text) {
   return String(text ?? "").toLowerCase().replace(/[^a-z0-9]+/g, "-").replace(/^-|-$/g, "").slice(0, 60);
+}
+
+function ordinal(n) {
+  const tail = n % 100 >= 11 && n % 100 <= 13 ? "th" : {1: "st", 2: "nd", 3: "rd"}[n % 10] ?? "th";
+  return `${n}${tail}`;
 }

@@ -3,10 +3,12 @@
 
 import {ACTIVE, api} from "./api.js";
 import {LineChart, PALETTE} from "./chart.js";
+import {LiveForces} from "./live_forces.js";
 import {Poller} from "./poller.js";
 import {picked, progressCell, savePicked} from "./queue.js";
+import {spectrumCard} from "./spectrum.js";
 import {caution, downloadLink, jobTitle, loadForces, showPicture, sizeText, stateBadge, summaryTable} from "./results.js";
-import {duration, fill, h, num, secondsBetween, toast, when} from "./util.js";
+import {confirmCancel, duration, fill, h, num, secondsBetween, toast, when} from "./util.js";
 
 const FIELDS = [["speed", "Speed"], ["vorticity", "Vorticity"], ["pressure", "Pressure"], ["temperature", "Temperature"]];
 const HEAT_PLOTS = [["nusselt.png", "Mean Nusselt number over time"], ["local_nusselt.png", "Local Nusselt number around each heated body"]];
@@ -27,7 +29,11 @@ export class JobView {
     this.head = h("div", {class: "job-head"});
     this.status = h("section", {class: "card job-status", "aria-labelledby": "status-heading"});
     this.results = h("div", {class: "job-results"});
-    fill(this.root, h("p", {class: "back"}, h("a", {href: "#/queue"}, "← Queue")), this.head, this.status, this.results);
+    this.live = h("section", {class: "card chart-card", id: "live-card", "aria-labelledby": "live-heading", hidden: true});
+    this.liveForces = new LiveForces(id);
+    this.liveChart = null;
+    fill(this.root, h("p", {class: "back"}, h("a", {href: "#/queue"}, "← Queue")), this.head, this.status, this.live,
+      this.results);
     this.poller.kick();
   }
 
@@ -56,7 +62,39 @@ export class JobView {
         this.renderResults();
       }
     }
+    if (job.attempts !== this.liveAttempt) {
+      // a retried run starts forces.csv again from its checkpoint: read it from the top
+      this.liveAttempt = job.attempts;
+      this.liveForces = new LiveForces(job.id);
+    }
+    if (job.state === "running") await this.updateLive();
+    else this.live.hidden = true; // finished: the results show the whole history
     return {active: ACTIVE.has(job.state), changed: before !== after};
+  }
+
+  /** Extend the live chart of drag and lift with the rows the run added since the last poll. */
+  async updateLive() {
+    let forces;
+    try {
+      forces = await this.liveForces.update();
+    } catch {
+      return; // the next poll tries again
+    }
+    if (!forces || forces.time.length < 2) return;
+    if (!this.liveChart) {
+      const host = h("div", {class: "chart-host", id: "live-chart"});
+      fill(this.live, h("h3", {id: "live-heading"}, "Force history so far"),
+        h("p", {class: "hint"}, "Drag (solid) and lift (dashed) coefficients, extended while the job runs."), host);
+      this.liveChart = new LineChart(host, {label: "Force coefficients of the running job", yLabel: "cD, cL"});
+    }
+    this.live.hidden = false;
+    const hidden = new Set(this.liveChart.series?.filter((sr) => !sr.visible).map((sr) => sr.id)); // keep legend choices
+    const owners = [...new Set(forces.columns.map((c) => c.owner))];
+    this.liveChart.setSeries(forces.columns.filter((c) => c.quantity === "cd" || c.quantity === "cl").map((c) => ({
+      id: c.key, label: c.label, x: forces.time, y: c.values, visible: !hidden.has(c.key),
+      color: PALETTE[owners.indexOf(c.owner) % PALETTE.length], dash: c.quantity === "cl" ? "6 4" : "",
+    })));
+    this.live.dataset.rows = String(forces.time.length);
   }
 
   renderHead() {
@@ -128,6 +166,7 @@ export class JobView {
     if (paths.has("forces.csv")) this.renderForces(chartCard);
     else chartCard.append(h("p", {class: "hint"}, "No force history was written."));
     this.renderPictures(pictureCard, files);
+    if (paths.has("pictures/mesh.png")) this.renderMesh(pictureCard);
     this.renderHeat(pictureCard, paths);
     this.renderDownloads(downloads, files);
   }
@@ -173,6 +212,7 @@ export class JobView {
     card.append(h("div", {class: "field inline"}, h("label", {for: "force-quantity"}, "Show"), choose), host);
     show();
     this.chart = chart;
+    if (forces.columns.some((c) => c.quantity === "cl")) (card.closest(".results-grid") ?? card).after(await spectrumCard(this.job.id));
   }
 
   renderPictures(card, files) {
@@ -244,6 +284,15 @@ export class JobView {
     update();
   }
 
+  /** The mesh the run used: the whole channel and a close-up of each body. */
+  renderMesh(pictureCard) {
+    const label = "Mesh: the whole channel and a close-up of each body";
+    const img = h("img", {class: "field-picture", id: "mesh-picture", alt: label, decoding: "async", dataset: {path: "pictures/mesh.png"}});
+    pictureCard.after(h("section", {class: "card pictures", "aria-labelledby": "mesh-heading"},
+      h("h3", {id: "mesh-heading"}, "Mesh"), h("figure", {}, img, h("figcaption", {}, label))));
+    showPicture(img, this.job.id, "pictures/mesh.png").catch((err) => toast(err.message, "error"));
+  }
+
   /** The heat-transfer plots (runs that solved for the temperature), after the field pictures. */
   renderHeat(pictureCard, paths) {
     const plots = HEAT_PLOTS.filter(([path]) => paths.has(path));
@@ -266,6 +315,10 @@ export class JobView {
     ];
     const byPath = new Map(files.map((f) => [f.path, f]));
     const list = h("ul", {class: "download-list"});
+    if (files.length) {
+      // the server zips every result file of the job (with the caution) on request
+      list.append(h("li", {}, downloadLink(this.job.id, "all-files.zip", "Everything (zip of all files)", {id: "download-all"})));
+    }
     for (const [path, label] of main) {
       const f = byPath.get(path);
       if (f) list.append(h("li", {}, downloadLink(this.job.id, path, label), h("small", {}, ` ${sizeText(f.size)}`)));
@@ -277,6 +330,7 @@ export class JobView {
   }
 
   async cancel() {
+    if (!confirmCancel(jobTitle(this.job), this.job.state)) return;
     try {
       await api.cancelJob(this.job.id);
       toast("Cancel requested.");

@@ -4,7 +4,7 @@ import {ACTIVE, STATES, api} from "./api.js";
 import {calibration} from "./form.js";
 import {Poller} from "./poller.js";
 import {jobTitle, stateBadge} from "./results.js";
-import {duration, fill, h, num, secondsBetween, shortId, toast, when} from "./util.js";
+import {confirmCancel, duration, fill, h, num, secondsBetween, shortId, toast, when} from "./util.js";
 
 /** Jobs picked for comparison (kept for the browser tab). */
 export const picked = new Set(JSON.parse(sessionStorage.getItem("wakeyard.compare") || "[]"));
@@ -206,6 +206,7 @@ export class QueueView {
   }
 
   async cancel(job) {
+    if (!confirmCancel(jobTitle(job), job.state)) return;
     try {
       await api.cancelJob(job.id);
       toast(`Cancel requested for ${jobTitle(job)}.`);

@@ -80,6 +80,7 @@ export class StudiesView {
     const cancel = h("button", {type: "button", class: "btn-danger"}, "Cancel study");
     cancel.hidden = !ACTIVE.has(study.state);
     cancel.addEventListener("click", async () => {
+      if (!window.confirm(`Cancel the study “${study.title || shortId(id)}”? Its queued points will not run.`)) return;
       try {
         await api.cancelStudy(id);
         this.show(id);

@@ -129,3 +129,11 @@ export function toast(message, kind = "info") {
   box.append(item);
   setTimeout(() => item.remove(), kind === "error" ? 8000 : 4000);
 }
+
+/** Ask before cancelling: a running job stops at its next step (what it wrote so far stays), a queued one never runs. */
+export function confirmCancel(title, state) {
+  const what = state === "running"
+    ? `Stop “${title}”? It stops at its next step; the results written so far are kept.`
+    : `Cancel “${title}”? It will not run.`;
+  return window.confirm(what);
+}

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import io
 import json
+import zipfile
 from concurrent.futures import ThreadPoolExecutor
 from typing import Any
 
@@ -131,6 +133,13 @@ def test_files_stay_inside_the_job_folder(offline: TestClient) -> None:
         assert r.status_code == 404, path
         assert b"SQLite" not in r.content
     assert [f["path"] for f in offline.get(base).json()["files"]] == ["forces.csv"]
+    # the zip of everything holds what the list shows (and the caution), never the hidden or linked-out files
+    everything = offline.get(f"{base}/all-files.zip")
+    assert everything.status_code == 200 and everything.headers["content-type"] == "application/zip"
+    assert sorted(zipfile.ZipFile(io.BytesIO(everything.content)).namelist()) == ["CAUTION.txt", "forces.csv"]
+    empty = offline.post("/api/v1/jobs", json=tiny()).json()["id"]
+    r = offline.get(f"/api/v1/jobs/{empty}/files/all-files.zip")
+    assert r.status_code == 404 and fields(r) == ["path"]
 
 
 def test_tokens_owner_and_admin(offline: TestClient) -> None:

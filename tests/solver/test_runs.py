@@ -3,6 +3,7 @@
 import json
 import subprocess
 import sys
+import time
 
 import numpy as np
 import pytest
@@ -63,6 +64,7 @@ def test_transient_outputs(full_run):
     ]
     assert len(list((out / "pictures").glob("vorticity_*.png"))) == 4
     assert (out / "forces.png").stat().st_size > 1000
+    assert (out / "pictures" / "mesh.png").read_bytes()[:4] == b"\x89PNG"  # the mesh, with a close-up of the body
     assert not (out / "checkpoint.npz").exists()
 
 
@@ -153,3 +155,22 @@ def test_a_steady_run_solves_for_the_inflow_after_the_start_up_ramp(tmp_path):
     plain = run({**steady, "inflow": {"peak_velocity": 0.3}}, tmp_path / "plain")
     cd = ramped["bodies"][0]["drag_coefficient"]
     assert cd > 1.0 and cd == pytest.approx(plain["bodies"][0]["drag_coefficient"], rel=1e-9)
+
+
+def test_forces_csv_grows_while_the_run_goes(tmp_path):
+    """The page draws the force history of a running job from the growing forces.csv."""
+    spec = {**SMALL, "analysis": {**SMALL["analysis"], "checkpoint_interval": 10**6}}  # no checkpoint rewrites
+    seen: list[str] = []
+
+    def look_then_go_on():
+        path = tmp_path / "forces.csv"
+        if path.exists():
+            seen.append(path.read_text())
+        time.sleep(0.05)  # a slow step: the file is brought up to date twice a second of wall time
+        return False
+
+    run(spec, tmp_path, should_stop=look_then_go_on)
+    final = (tmp_path / "forces.csv").read_text()
+    growing = sorted({text.count("\n") - 1 for text in seen})
+    assert len(growing) >= 3 and growing[-1] < 60, growing  # several partial histories before the last of 60 rows
+    assert all(final.startswith(text) for text in seen)  # each one the start of the final file, whole lines

@@ -173,7 +173,7 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
     assert x0 < zx0 < zx1 < x1
     inside = [r for r in rows if zx0 <= r[0] <= zx1]
     assert len(inside) + 0 <= len(chart_points(page, "#force-chart", "pipe_cd")) <= len(inside) + 2
-    page.get_by_role("button", name="Show all").click()
+    page.locator("#force-chart").get_by_role("button", name="Show all").click()
     assert float(svg.get_attribute("data-x0")) == pytest.approx(x0)
 
     # toggle a series off and on
@@ -253,15 +253,25 @@ def test_cancel_running_and_queued_jobs(page, api) -> None:
     expect(row).to_have_attribute("data-state", "queued")
     expect(page.locator(f'tr[data-id="{running}"]')).to_have_attribute("data-state", "running")
     expect(page.locator("#live-state")).to_have_attribute("data-state", "live")
+    # cancel asks first: dismissed, the job stays queued
+    asked: list[str] = []
+    page.once("dialog", lambda d: (asked.append(d.message), d.dismiss()))
+    row.get_by_role("button", name="Cancel").click()
+    expect(row.get_by_role("button", name="Cancel")).to_be_enabled()
+    assert asked and "Queued run to cancel" in asked[0] and "will not run" in asked[0]
+    assert api.get(f"/jobs/{waiting}").json()["cancel_requested"] is False
+    page.once("dialog", lambda d: d.accept())
     row.get_by_role("button", name="Cancel").click()
     expect(row).to_have_attribute("data-state", "cancelled", timeout=20_000)
     # the running one from its own page: it stops within a few seconds
     page.goto(f"/#/jobs/{running}")
     expect(page.locator("#job-heading .badge")).to_have_attribute("data-state", "running")
+    page.once("dialog", lambda d: (asked.append(d.message), d.accept()))
     page.locator("#job-cancel").click()
     expect(page.locator("#job-heading .badge")).to_have_attribute("data-state", "cancelled", timeout=30_000)
     expect(page.locator("#job-cancel")).to_have_count(0)
     assert api.get(f"/jobs/{running}").json()["state"] == "cancelled"
+    assert "Long run to cancel" in asked[-1] and "results written so far are kept" in asked[-1]
     # nothing runs now: the queue stops polling
     page.goto("/#/queue")
     expect(page.locator("#live-state")).to_have_attribute("data-state", "idle", timeout=20_000)
@@ -370,6 +380,7 @@ def test_live_figures_come_from_the_services_preview(page) -> None:
     fill(page, "bodies.1.center.0", spec["bodies"][0]["center"][0])
     fill(page, "bodies.1.center.1", spec["bodies"][0]["center"][1])
     expect(page.locator("ul.warnings")).to_contain_text("overlaps")
+    expect(page.locator(".case-svg .body-warn")).not_to_have_count(0)  # the drawing marks the body in fault
     expect(mesh).to_contain_text("—")
 
 
