@@ -34,6 +34,11 @@ def overlap(a: np.ndarray, b: np.ndarray, gap: float = 0.0) -> bool:
     return bool(first.distance(second) <= gap)
 
 
+def gap(a: np.ndarray, b: np.ndarray) -> float:
+    """Distance between the areas of two closed polygons (zero when they intersect)."""
+    return float(ShapelyPolygon(a).distance(ShapelyPolygon(b)))
+
+
 def is_simple(polygon: np.ndarray) -> bool:
     """True when no two edges of the closed polygon cross or touch, except neighbours at their common corner.
 

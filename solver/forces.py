@@ -24,13 +24,19 @@ class BodyForces:
     """Evaluate ``(Fx, Fy)`` on every body from a solution and its time derivative."""
 
     def __init__(self, ns: NavierStokes, body_dofs: dict[str, np.ndarray], density: float):
-        th = ns.th
-        n = th.nu
         self.density = density
         self.ns = ns
         self.names = list(body_dofs)
+        self.body_dofs = body_dofs
+        self._build()
+
+    def _build(self) -> None:
+        """The test functions' products with the current matrices (again whenever the mesh has moved)."""
+        ns, th = self.ns, self.ns.th
+        n = th.nu
+        self.version = ns.geometry_version
         self.tests = []
-        for dofs in body_dofs.values():
+        for dofs in self.body_dofs.values():
             psi = np.zeros(n)
             psi[dofs] = 1.0
             wx, wy = np.zeros(th.ndofs), np.zeros(th.ndofs)
@@ -54,6 +60,8 @@ class BodyForces:
         this step; ``dudt`` the scheme's discrete time derivative (full length,
         or ``None`` for a steady state).
         """
+        if self.version != self.ns.geometry_version:
+            self._build()
         th = self.ns.th
         out = {}
         for name, w in zip(self.names, self.tests):
