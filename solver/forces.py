@@ -11,6 +11,10 @@ solved in. On a body in rigid motion the pseudo-traction and the true stress
 give the same total force, and adding the transposed-gradient term explicitly
 was measured to leave a mesh-independent error of about 1e-5 in cD on the
 2D-1 benchmark, so it is left out.
+
+On a moving mesh (:mod:`solver.ale`) the residual is that of the ALE form: the nodal time derivative and
+convection by the velocity relative to the mesh add up to the same material derivative, so the same test gives
+the force; the products with the matrices are renewed whenever the mesh has moved.
 """
 
 from __future__ import annotations
