@@ -213,10 +213,14 @@ def _draw_pictures(case: Case, out: Path, steps: list[int]) -> None:
     transient = case.spec.analysis.mode == "transient"
     for i, f, raw in zip(pick, fields, loaded):
         t = float(raw["time"]) if transient else None
-        if "points" in raw.files:  # a moving mesh: drawn where it was
+        shifts = None
+        if "points" in raw.files and case.motion is not None:  # a moving mesh: drawn where it was
             tri = pictures.triangulation(raw["points"], dofs)
+            moved = case.motion.bodies
+            shifts = {b.name: case.motion.displacement(k, float(raw["time"])) for k, b in enumerate(moved)}
         for name in pictures.FIELDS:
-            pictures.field_picture(folder / f"{name}_{steps[i]:06d}.png", case.spec, tri, f, name, limits[name], t)
+            path = folder / f"{name}_{steps[i]:06d}.png"
+            pictures.field_picture(path, case.spec, tri, f, name, limits[name], t, shifts)
 
 
 class _Transient:
