@@ -35,8 +35,12 @@ def overlap(a: np.ndarray, b: np.ndarray, gap: float = 0.0) -> bool:
 
 
 def gap(a: np.ndarray, b: np.ndarray) -> float:
-    """Distance between the areas of two closed polygons (zero when they intersect)."""
-    return float(ShapelyPolygon(a).distance(ShapelyPolygon(b)))
+    """Distance between the areas of two closed polygons (zero when they intersect); by their edges when one
+    crosses itself (reported on its own)."""
+    first, second = ShapelyPolygon(a), ShapelyPolygon(b)
+    if not (first.is_valid and second.is_valid):
+        first, second = LinearRing(a), LinearRing(b)
+    return float(first.distance(second))
 
 
 def is_simple(polygon: np.ndarray) -> bool:
