@@ -82,11 +82,11 @@ def stokes_wang(beta):
 
 @pytest.mark.slow
 def test_a_circle_oscillating_in_still_fluid_has_the_stokes_wang_added_mass_and_damping(tmp_path):
-    """Small amplitude (A = 0.02 D, so the convective terms the linear theory drops are about 2 % of the force's
-    size at most) in a box 20 D wide (the walls add about 0.5 % to the potential-flow added mass, from the
+    """Small amplitude (A = 0.02 D: the convective terms the linear theory drops are of the order of A / D against
+    the others) in a box 20 D wide (the walls add about 0.5 % to the potential-flow added mass, from the
     concentric-cylinder value (b^2 + a^2) / (b^2 - a^2), common practice). The Stokes layer is sqrt(nu / (pi f)) =
-    0.08 D thick at beta = 50; the coarse mesh puts about one P2 cell across it and the steps are loose (accuracy 1e-2),
-    so the coefficients are asked to within 2 % (k) and 3 % (k'); measured here: +0.3 % and -0.4 % (with D / 20 and
+    0.08 D thick at beta = 50; the cells at the body are D / 12 (P2) and the steps loose (accuracy 1e-2), so the
+    coefficients are asked to within 2 % (k) and 3 % (k'); measured here: +0.3 % and -0.4 % (with D / 20 and
     accuracy 1e-3: +0.6 % and +0.2 %)."""
     amplitude, box = 0.02 * D, 20 * D
     spec = {
