@@ -129,7 +129,10 @@ class Case:
         return [next(values) if ok else None for ok in self.velocity_found]
 
     def cfl(self, x: np.ndarray, dt: float) -> float:
-        """Largest |u| dt / h over the cells, h the cell's shortest edge divided by the velocity degree."""
+        """Largest |u - w| dt / h over the cells, h the cell's shortest edge (as meshed) divided by the velocity
+        degree, w the mesh velocity (zero unless bodies move: the flow is carried across the cells by u - w)."""
+        if isinstance(self.ns, MovingNavierStokes):
+            x = x - self.ns.mesh_velocity
         ux, uy, _ = self.th.split(x)
         speed = np.hypot(ux, uy)[self.th.velocity.element_dofs].max(axis=0)
         return float((speed * self._inverse_cell_size).max() * dt)
