@@ -34,6 +34,15 @@ def overlap(a: np.ndarray, b: np.ndarray, gap: float = 0.0) -> bool:
     return bool(first.distance(second) <= gap)
 
 
+def gap(a: np.ndarray, b: np.ndarray) -> float:
+    """Distance between the areas of two closed polygons (zero when they intersect); by their edges when one
+    crosses itself (reported on its own)."""
+    first, second = ShapelyPolygon(a), ShapelyPolygon(b)
+    if not (first.is_valid and second.is_valid):
+        first, second = LinearRing(a), LinearRing(b)
+    return float(first.distance(second))
+
+
 def is_simple(polygon: np.ndarray) -> bool:
     """True when no two edges of the closed polygon cross or touch, except neighbours at their common corner.
 

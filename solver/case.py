@@ -10,6 +10,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from . import meshing
+from .ale import MeshMotion, MovingBody, MovingNavierStokes
 from .boundary import body_dofs, channel_conditions
 from .forces import BodyForces
 from .navier_stokes import NavierStokes
@@ -39,9 +40,15 @@ class Case:
         cm = meshing.build(spec)
         t1 = time.perf_counter()
         th = TaylorHood(cm.mesh, spec.elements)
-        ns = NavierStokes(th, spec.viscosity(), channel_conditions(th, cm, spec))
+        surfaces = body_dofs(th, cm, spec)
+        conditions = channel_conditions(th, cm, spec)
+        moving = [MovingBody(b.name, surfaces[b.name], b.mount) for b in spec.bodies if b.mount is not None]
+        if moving:
+            ns: NavierStokes = MovingNavierStokes(th, spec.viscosity(), conditions, MeshMotion(th, moving))
+        else:
+            ns = NavierStokes(th, spec.viscosity(), conditions)
         rho, U = spec.fluid.density, spec.reference_velocity()
-        forces = BodyForces(ns, body_dofs(th, cm, spec), rho)
+        forces = BodyForces(ns, surfaces, rho)
         scale = {b.name: 2.0 / (rho * U**2 * spec.reference_length(i)) for i, b in enumerate(spec.bodies)}
         unavailable: dict[str, str] = {}
         pressure = None
@@ -100,6 +107,21 @@ class Case:
             [k + 1 for k in np.nonzero(self.velocity_found)[0]],
         )
 
+    @property
+    def motion(self) -> MeshMotion | None:
+        """How the mesh moves, or None when every body is fixed."""
+        return self.ns.motion if isinstance(self.ns, MovingNavierStokes) else None
+
+    def motion_columns(self) -> list[str]:
+        """forces.csv's displacement columns (m), two per moving body, after all the others."""
+        motion = self.motion
+        return [f"{b.name}_{axis}" for b in (motion.bodies if motion else []) for axis in ("dx", "dy")]
+
+    def motion_row(self, t: float) -> list[float]:
+        """The moving bodies' displacements at time ``t``, in the order of :meth:`motion_columns`."""
+        motion = self.motion
+        return [float(v) for k in range(len(motion.bodies) if motion else 0) for v in motion.displacement(k, t)]
+
     def velocity_probe_values(self, row: list[float]) -> list[list[float] | None]:
         """Probe velocities ``[ux, uy]`` from a forces row, ``None`` for a point outside the fluid."""
         found = int(self.velocity_found.sum())
@@ -107,7 +129,10 @@ class Case:
         return [next(values) if ok else None for ok in self.velocity_found]
 
     def cfl(self, x: np.ndarray, dt: float) -> float:
-        """Largest |u| dt / h over the cells, h the cell's shortest edge divided by the velocity degree."""
+        """Largest |u - w| dt / h over the cells, h the cell's shortest edge (as meshed) divided by the velocity
+        degree, w the mesh velocity (zero unless bodies move: the flow is carried across the cells by u - w)."""
+        if isinstance(self.ns, MovingNavierStokes):
+            x = x - self.ns.mesh_velocity
         ux, uy, _ = self.th.split(x)
         speed = np.hypot(ux, uy)[self.th.velocity.element_dofs].max(axis=0)
         return float((speed * self._inverse_cell_size).max() * dt)

@@ -34,6 +34,15 @@ class NavierStokes:
         self.dirichlet = dirichlet
         self.free = np.setdiff1d(np.arange(th.ndofs), dirichlet.dofs)
         self.stokes_matrix = th.saddle_point(viscosity * th.stiffness)
+        self.geometry_version = 0  # counts mesh moves, so precomputed functionals know when to refresh
+
+    @property
+    def moves(self) -> bool:
+        """Whether the mesh moves (then :meth:`move_to` must be called before each stage)."""
+        return False
+
+    def move_to(self, t: float) -> None:
+        """Put the mesh where it is at time ``t``: a fixed mesh stays."""
 
     def stokes(self, t: float = 0.0) -> np.ndarray:
         """The Stokes solution with the boundary data at time ``t`` (the usual start)."""

@@ -83,13 +83,12 @@ class Snapshots:
         self.dir = out / "fields"
         self.dir.mkdir(parents=True, exist_ok=True)
         self.th = th
-        basis = th.velocity
-        self.points = np.c_[basis.doflocs.T, np.zeros(th.nu)]
-        dofs = basis.element_dofs
+        dofs = th.velocity.element_dofs
         self.cells = [("triangle6", dofs[:6].T)] if th.elements == "P2P1" else [("triangle", dofs[:3].T)]
         self.pressure_to_velocity = density * on_velocity_nodes(th, th.pressure)
         # more fields on the velocity nodes (the temperature), set by whoever solves for them
         self.extra_fields: Callable[[], dict[str, np.ndarray]] | None = None
+        self.moving = False  # a moving mesh: the npz files keep the node positions too (for the pictures)
         # a resumed run keeps the snapshots written before its checkpoint
         self.index = sorted((float(np.load(f)["time"]), f.stem) for f in self.dir.glob("step_*.npz"))
 
@@ -100,9 +99,11 @@ class Snapshots:
         extra = self.extra_fields() if self.extra_fields else {}
         fields.update(extra)
         stem = f"step_{k:06d}"
-        np.savez_compressed(self.dir / f"{stem}.npz", time=t, **fields)
+        nodes = th.velocity.doflocs  # where they are now: a moving mesh's snapshot shows its bodies where they were
+        moved = {"points": nodes} if self.moving else {}
+        np.savez_compressed(self.dir / f"{stem}.npz", time=t, **moved, **fields)
         mesh = meshio.Mesh(
-            self.points,
+            np.c_[nodes.T, np.zeros(th.nu)],
             self.cells,
             point_data={
                 "velocity": np.c_[ux, uy, np.zeros_like(ux)],

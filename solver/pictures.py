@@ -55,7 +55,9 @@ def field_picture(
     name: str,
     limits: tuple[float, float],
     time: float | None,
+    shifts: dict[str, np.ndarray] | None = None,
 ) -> None:
+    """One field over the channel; ``shifts`` moves a body's outline by its displacement (m) at ``time``."""
     label, cmap = {**FIELDS, **HEAT_FIELDS}[name]
     values = np.hypot(fields["ux"], fields["uy"]) if name == "speed" else fields[name]
     L, H = spec.channel.length, spec.channel.height
@@ -65,7 +67,8 @@ def field_picture(
     fig.subplots_adjust(left=0.07, right=0.98, bottom=0.62 / height, top=1 - 0.38 / height)
     art = ax.tripcolor(tri, values, shading="gouraud", cmap=cmap, vmin=limits[0], vmax=limits[1])
     for body in spec.bodies:
-        ax.fill(*body.outline().T, facecolor="#d9d9d9", edgecolor="#333333", linewidth=0.6)
+        outline = body.outline() + (shifts or {}).get(body.name, 0.0)
+        ax.fill(*outline.T, facecolor="#d9d9d9", edgecolor="#333333", linewidth=0.6)
     ax.set_aspect("equal")
     ax.set_xlim(0, L)
     ax.set_ylim(0, H)

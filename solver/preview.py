@@ -186,8 +186,8 @@ def estimate(spec: JobSpec) -> dict[str, Any]:
 
 
 def _mesh_key(spec: JobSpec) -> str:
-    """The part of the spec that shapes the mesh (no names, temperatures or spins), as canonical JSON."""
-    bodies = [b.model_dump(mode="json", exclude={"name", "thermal", "spin"}) for b in spec.bodies]
+    """The part of the spec that shapes the mesh (no names, temperatures, spins or mounts), as canonical JSON."""
+    bodies = [b.model_dump(mode="json", exclude={"name", "thermal", "spin", "mount"}) for b in spec.bodies]
     channel = {"length": spec.channel.length, "height": spec.channel.height}
     mesh = spec.mesh.model_dump(mode="json")
     return json.dumps([channel, bodies, mesh], sort_keys=True)

@@ -20,6 +20,7 @@ from .caution import CAUTION
 from .errors import Cancelled, Diverged, InternalError, RunFailed, WallTimeExceeded
 from .heat_output import HeatRun
 from .mesh_picture import mesh_picture
+from .motion import motion_summary
 from .recirculation import recirculation_length
 from .spec import ADAPTIVE, JobSpec, load
 from .stages import failed_stage
@@ -206,7 +207,8 @@ def _draw_pictures(case: Case, out: Path, steps: list[int]) -> None:
     loaded = [np.load(out / "fields" / f"step_{steps[i]:06d}.npz") for i in pick]
     fields = [{k: f[k] for k in ("ux", "uy", "pressure", "vorticity")} for f in loaded]
     limits = pictures.color_limits(fields)
-    tri = pictures.triangulation(case.th.velocity.doflocs, case.th.velocity.element_dofs)
+    dofs = case.th.velocity.element_dofs
+    tri = pictures.triangulation(case.th.velocity.doflocs, dofs)
     folder = out / "pictures"
     folder.mkdir(exist_ok=True)
     velocity = case.th.velocity
@@ -214,8 +216,14 @@ def _draw_pictures(case: Case, out: Path, steps: list[int]) -> None:
     transient = case.spec.analysis.mode == "transient"
     for i, f, raw in zip(pick, fields, loaded):
         t = float(raw["time"]) if transient else None
+        shifts = None
+        if "points" in raw.files and case.motion is not None:  # a moving mesh: drawn where it was
+            tri = pictures.triangulation(raw["points"], dofs)
+            moved = case.motion.bodies
+            shifts = {b.name: case.motion.displacement(k, float(raw["time"])) for k, b in enumerate(moved)}
         for name in pictures.FIELDS:
-            pictures.field_picture(folder / f"{name}_{steps[i]:06d}.png", case.spec, tri, f, name, limits[name], t)
+            path = folder / f"{name}_{steps[i]:06d}.png"
+            pictures.field_picture(path, case.spec, tri, f, name, limits[name], t, shifts)
 
 
 class _Transient:
@@ -234,7 +242,7 @@ class _Transient:
         self.deadline, self.resume = deadline, resume
         a = case.spec.analysis
         self.output_interval = picture_choice.interval(a.end_time, a.output_interval)
-        self.columns = [*case.columns(), "time_step"]
+        self.columns = [*case.columns(), "time_step", *case.motion_columns()]
         self.rows: list[list[float]] = []
         self.snapshots: list[int] = []
         self.rows_written: int | None = None  # rows of forces.csv on disk this attempt (None: not written yet)
@@ -249,6 +257,7 @@ class _Transient:
         heat = self._start_heat(stepper.n)
         snaps = output.Snapshots(self.out, case.th, case.spec.fluid.density)
         snaps.extra_fields = heat.fields if heat else None
+        snaps.moving = case.motion is not None
         if stepper.n == 0:
             snaps.save(0, 0.0, stepper.x)
             self.snapshots = [0]
@@ -266,7 +275,11 @@ class _Transient:
                 t_before = stepper.t
                 result = stepper.step(a.end_time)
                 dt = stepper.t - t_before
-                row = [*case.force_row(stepper.t, result.x, result.convection, result.dudt), dt]
+                row = [
+                    *case.force_row(stepper.t, result.x, result.convection, result.dudt),
+                    dt,
+                    *case.motion_row(stepper.t),
+                ]
                 if not np.all(np.isfinite(row)) or not np.isfinite(result.x).all() or self._blown_up(result.x):
                     self._diverged(stepper, *healthy)
                 if heat:  # heat hook: follow every accepted flow step
@@ -299,11 +312,13 @@ class _Transient:
         t_out = time.perf_counter()
         data = np.array(self.rows)
         names = [b.name for b in case.spec.bodies]
-        pictures.force_plot(self.out / "forces.png", self.columns[:-1], data[:, :-1], names)
+        nf = len(case.columns())  # the forces, without the step and the displacements
+        pictures.force_plot(self.out / "forces.png", self.columns[:nf], data[:, :nf], names)
         _pictures(case, self.out, self.snapshots)
         summary = _common_summary(case)
         whole = a.until_periodic.cycles if ended_by == "periodic" else 5  # the cycles found to repeat
         summary.update(self._statistics(data, whole))
+        self._motion(summary, data)
         summary.update(
             {
                 "ended_by": ended_by,
@@ -385,7 +400,9 @@ class _Transient:
 
     def _blown_up(self, x: np.ndarray) -> bool:
         ux, uy, _ = self.case.th.split(x)
-        limit = 100 * max(self.case.spec.inflow.peak() * self.case.spec.inflow.time_law.nominal(), 1e-12)
+        spec = self.case.spec
+        moving = [2 * math.pi * b.mount.amplitude * b.mount.frequency for b in spec.bodies if b.mount]
+        limit = 100 * max(spec.inflow.peak() * spec.inflow.time_law.nominal(), *moving, 1e-12)
         return bool(np.abs(ux).max() > limit or np.abs(uy).max() > limit)
 
     def _diverged(self, stepper: Stepper | AdaptiveBDF2, x: np.ndarray, t: float, n: int) -> None:
@@ -410,6 +427,21 @@ class _Transient:
             return False
         data = np.array(self.rows)
         return analysis.is_periodic(data[:, 0], data[:, 4], up.cycles, up.tolerance)
+
+    def _motion(self, summary: dict[str, Any], data: np.ndarray) -> None:
+        """Each moving body's ``motion`` (:func:`solver.motion.motion_summary`) over the forces' window."""
+        motion = self.case.motion
+        if motion is None:
+            return
+        spec, t = self.case.spec, data[:, 0]
+        window = (t >= summary["window"]["start"]) & (t <= summary["window"]["end"])
+        index = {b.name: i for i, b in enumerate(spec.bodies)}
+        first = len(self.case.columns()) + 1  # after the forces and the step
+        for k, body in enumerate(motion.bodies):
+            i = index[body.name]
+            dx, dy = data[:, first + 2 * k], data[:, first + 2 * k + 1]
+            length = spec.reference_length(i)
+            summary["bodies"][i]["motion"] = motion_summary(t, dx, dy, window, length, body.mount.frequency)
 
     def _statistics(self, data: np.ndarray, whole_cycles: int) -> dict[str, Any]:
         spec = self.case.spec

@@ -12,6 +12,7 @@ from typing import Annotated, Literal
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, field_validator
 
+from .motion import Mount
 from .thermal import Thermal
 
 # Geometry is in metres; the bounds keep arithmetic on untrusted input finite.
@@ -24,6 +25,7 @@ class _Body(BaseModel):
 
     name: str = Field("", max_length=40, pattern=r"^[A-Za-z0-9_\-]*$")
     thermal: Thermal | None = Field(None, description="surface temperature, heat flux or insulated (needs heat)")
+    mount: Mount | None = Field(None, description="how the body moves (a driven harmonic translation); none: fixed")
 
     def outline(self, n: int = 256) -> np.ndarray:
         """Return ``(n, 2)`` boundary points, counter-clockwise, not closed."""

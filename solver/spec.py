@@ -171,6 +171,7 @@ class UntilPeriodic(_Model):
 
 
 ADAPTIVE = "bdf2-adaptive"
+KEEP_CLEARANCE = 0.5  # share of a moving body's gaps at rest that must remain at its extreme positions
 
 
 class Analysis(_Model):
@@ -279,6 +280,7 @@ def _check_geometry(spec: JobSpec) -> list[tuple[str, str]]:
         for j in range(i):
             if _polygons.overlap(outlines[j], pts, gap=1e-3 * H):
                 problems.append((where, f"{body.name} overlaps or touches {spec.bodies[j].name}"))
+    problems += _check_motion(spec, outlines)
     names = [b.name for b in spec.bodies]
     for i, name in enumerate(names):
         if name in names[:i]:
@@ -301,6 +303,71 @@ def _check_geometry(spec: JobSpec) -> list[tuple[str, str]]:
         problems.append(("analysis.end_time", f"end time {a.end_time:g} is shorter than one time step {a.time_step:g}"))
     if spec.fluid.reynolds is not None and not spec.bodies and spec.fluid.reference.length is None:
         problems.append(("fluid.reference.length", "a Reynolds number without bodies needs a reference length"))
+    return problems
+
+
+def _check_motion(spec: JobSpec, outlines: list[np.ndarray]) -> list[tuple[str, str]]:
+    """Moving bodies: what the moving mesh supports, and room to move.
+
+    At both extreme positions a moving body must keep at least :data:`KEEP_CLEARANCE` of the gap it has at rest
+    to the channel's sides and to every other body (both at their own extremes): the mesh in between is squeezed
+    by about that factor, and a harmonic mesh motion keeps such cells the right way round.
+    """
+    moving = [i for i, b in enumerate(spec.bodies) if b.mount is not None]
+    if not moving:
+        return []
+    problems: list[tuple[str, str]] = []
+    a = spec.analysis
+    if a.mode != "transient":
+        problems.append(("analysis.mode", "moving bodies (a mount) need a transient analysis"))
+    if a.scheme != ADAPTIVE:
+        problems.append(("analysis.scheme", f"moving bodies (a mount) need the scheme {ADAPTIVE}"))
+    if spec.elements != "P2P1":
+        problems.append(("elements", "moving bodies (a mount) need the P2P1 elements"))
+    if spec.heat is not None:
+        problems.append(("heat", "heat transfer is not yet available with moving bodies (a mount)"))
+    L, H = spec.channel.length, spec.channel.height
+
+    def extremes(i: int) -> list[np.ndarray]:
+        mount = spec.bodies[i].mount
+        if mount is None:
+            return [outlines[i]]
+        shift = mount.amplitude * mount.unit()
+        return [outlines[i] - shift, outlines[i] + shift]
+
+    def wall_gaps(pts: np.ndarray) -> np.ndarray:
+        """Gaps to the inlet, the lower wall, the outlet and the upper wall."""
+        return np.array([pts[:, 0].min(), pts[:, 1].min(), L - pts[:, 0].max(), H - pts[:, 1].max()])
+
+    sides = ("the inlet", "the lower wall", "the outlet", "the upper wall")
+    for i in moving:
+        field = f"bodies.{i}.mount.amplitude"
+        name, amplitude = spec.bodies[i].name, spec.bodies[i].mount.amplitude  # type: ignore[union-attr]
+        rest = wall_gaps(outlines[i])
+        moved = np.min([wall_gaps(p) for p in extremes(i)], axis=0)
+        for k in np.nonzero(moved < KEEP_CLEARANCE * rest)[0]:
+            problems.append(
+                (
+                    field,
+                    f"at amplitude {amplitude:g} m {name} would come within {max(moved[k], 0):.3g} m of "
+                    f"{sides[k]}; it must keep at least {KEEP_CLEARANCE:g} of its {rest[k]:.3g} m gap at rest "
+                    f"(amplitude up to {amplitude - (KEEP_CLEARANCE * rest[k] - moved[k]):.3g} m)",
+                )
+            )
+        for j in range(len(spec.bodies)):
+            if j == i:
+                continue
+            gap_rest = _polygons.gap(outlines[i], outlines[j])
+            gap_moved = min(_polygons.gap(p, q) for p in extremes(i) for q in extremes(j))
+            if gap_moved < KEEP_CLEARANCE * gap_rest:
+                problems.append(
+                    (
+                        field,
+                        f"at amplitude {amplitude:g} m {name} would come within {gap_moved:.3g} m of "
+                        f"{spec.bodies[j].name}; it must keep at least {KEEP_CLEARANCE:g} of the {gap_rest:.3g} m "
+                        "gap at rest",
+                    )
+                )
     return problems
 
 

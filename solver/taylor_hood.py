@@ -110,10 +110,21 @@ class TaylorHood:
     """
 
     def __init__(self, mesh: Mesh, elements: str = "P2P1"):
-        velocity_element, pressure_element = ELEMENTS[elements]
-        degree = 2 if elements == "P2P1" else 3
-        self.mesh = mesh
         self.elements = elements
+        self._assemble(mesh)
+
+    def move(self, mesh: Mesh) -> None:
+        """Rebuild everything on ``mesh``, the same cells with moved nodes (a moving-mesh step).
+
+        In place, so whoever holds this object (forces, snapshots) sees the moved geometry.
+        """
+        self.__dict__.pop("_projector", None)
+        self._assemble(mesh)
+
+    def _assemble(self, mesh: Mesh) -> None:
+        velocity_element, pressure_element = ELEMENTS[self.elements]
+        degree = 2 if self.elements == "P2P1" else 3
+        self.mesh = mesh
         self.velocity = Basis(mesh, velocity_element(), intorder=2 * degree + 1)
         self.pressure = self.velocity.with_element(pressure_element())
         self.nu = int(self.velocity.N)
