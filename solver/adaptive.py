@@ -5,16 +5,16 @@ two previous levels (a linear system, stable at large steps). An explicit predic
 the last three levels, differs from the solution by a multiple of the local error; that difference (Milne's
 device, e.g. Hairer, Norsett & Wanner, "Solving ODEs I", 1993, section III.5; for incompressible flow with
 variable steps, Kay, Gresho, Griffiths & Silvester 2010, SIAM J. Sci. Comput. 32:111) measures the error,
-and :class:`~solver.stepsize.PIController` picks the next step. On a moving mesh (:mod:`solver.ale`) every
-attempt first moves the mesh to its new time, so each stage sits on the prescribed motion exactly. The step also keeps its CFL number at most
-:data:`MAX_CFL`. The estimate measures the error of the flow that is there; it cannot see a mode that is not yet
-there, such as the asymmetric seed from which shedding grows in a symmetric start, and long steps damp that seed and
-shift when shedding sets in. Measured on 2D-3 (medium mesh, default accuracy), lift maximum against the reference:
-+0.2 % with the cap at 2, +0.9 % at 4, +3.3 % at 8 (the drag maximum within 0.003 % in all three). On 2D-2 the cap
-hardly binds beyond 2 (5043 steps at 4, 4909 at 8, 8757 at 2). A step whose error is too large, or whose
-linear solve fails, is retried smaller. Where the boundary data's time derivatives jump (the breakpoints of a
-table time law, the end of a ramp) a step ends exactly and the scheme starts afresh, as from rest: stepping
-across a kink would drive the error estimate, and the step, to nothing.
+and :class:`~solver.stepsize.PIController` picks the next step. On a moving mesh (:mod:`solver.ale`) every attempt
+first moves the mesh to its new time, so each stage sits on the prescribed motion exactly. The step also keeps its
+CFL number at most :data:`MAX_CFL`. The estimate measures the error of the flow that is there; it cannot see a mode
+that is not yet there, such as the asymmetric seed from which shedding grows in a symmetric start, and long steps
+damp that seed and shift when shedding sets in. Measured on 2D-3 (medium mesh, default accuracy), lift maximum
+against the reference: +0.2 % with the cap at 2, +0.9 % at 4, +3.3 % at 8 (the drag maximum within 0.003 % in all
+three). On 2D-2 the cap hardly binds beyond 2 (5043 steps at 4, 4909 at 8, 8757 at 2). A step whose error is too
+large, or whose linear solve fails, is retried smaller. Where the boundary data's time derivatives jump (the
+breakpoints of a table time law, the end of a ramp) a step ends exactly and the scheme starts afresh, as from rest:
+stepping across a kink would drive the error estimate, and the step, to nothing.
 
 The linear system changes every step but slowly. A factorisation of an earlier step's matrix corrects
 the predictor (preconditioned defect correction: a residual, a solve with stored factors, a residual) until
