@@ -19,6 +19,8 @@ from wakeyard.solver.caution import CAUTION
 
 from .deps import ReserveDep, SettingsDep, StoreDep, User, UserDep
 from .problems import Conflict, Forbidden, NotFound, SpecProblems
+from .schemas import Job as JobView
+from .schemas import JobPage
 from .submission import Submission, SubmissionDep
 from .text_checks import NUL_MESSAGE, nul_fields
 
@@ -161,7 +163,7 @@ def create_job(
     return _submit(submission, user, _validated(data, submission.settings), _check_tags(tags or []), fresh)
 
 
-@router.get("", summary="List jobs, newest first")
+@router.get("", summary="List jobs, newest first", response_model=JobPage, response_model_exclude_unset=True)
 def list_jobs(
     store: StoreDep,
     _: UserDep,
@@ -181,7 +183,7 @@ def list_jobs(
     return {"jobs": [view(j) for j in jobs], "next_cursor": nxt}
 
 
-@router.get("/{job_id}", summary="Read one job")
+@router.get("/{job_id}", summary="Read one job", response_model=JobView)
 def read_job(store: StoreDep, job_id: str, _: UserDep) -> JSONResponse:
     """In the thread pool like every database call: a read can wait on a lock (a PostgreSQL table lock, a busy
     SQLite file), and on the event loop that wait would stall every other request."""
@@ -191,7 +193,12 @@ def read_job(store: StoreDep, job_id: str, _: UserDep) -> JSONResponse:
     return JSONResponse(view(job))  # already JSON types: skip FastAPI's re-validation (status reads are hot)
 
 
-@router.post("/{job_id}/cancel", summary="Cancel a queued or running job")
+@router.post(
+    "/{job_id}/cancel",
+    summary="Cancel a queued or running job",
+    response_model=JobView,
+    response_model_exclude_unset=True,
+)
 def cancel_job(store: StoreDep, reserve: ReserveDep, job_id: str, user: UserDep) -> dict[str, Any]:
     job = owned(store, job_id, user)
     if job.state not in ACTIVE:
