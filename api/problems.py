@@ -91,7 +91,7 @@ async def _spec_problems(_: Request, exc: Exception) -> JSONResponse:
 async def _http(_: Request, exc: Exception) -> JSONResponse:
     """Starlette's and FastAPI's own refusals (an unknown path, a method not allowed) in the same shape."""
     assert isinstance(exc, StarletteHTTPException)
-    return respond([("(request)", str(exc.detail))], exc.status_code, exc.headers)
+    return respond([("(request)", str(exc.detail))], exc.status_code, dict(exc.headers or {}) or None)
 
 
 def _field(loc: tuple[object, ...]) -> str:

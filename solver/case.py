@@ -97,7 +97,7 @@ class Case:
         return force_columns(
             [b.name for b in self.spec.bodies],
             self.pressure_probes is not None,
-            [k + 1 for k in np.nonzero(self.velocity_found)[0]],
+            [int(k) + 1 for k in np.nonzero(self.velocity_found)[0]],
         )
 
     def velocity_probe_values(self, row: list[float]) -> list[list[float] | None]:

@@ -13,10 +13,11 @@ Reynolds numbers of 1e5 to 1e7 and turbulent flow, which this solver does not mo
 from __future__ import annotations
 
 import math
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any, Final, Literal
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic_core import ErrorDetails
 
 from . import _polygons
 from .errors import SpecError
@@ -170,7 +171,7 @@ class UntilPeriodic(_Model):
     tolerance: float = Field(0.01, gt=0, le=0.5)
 
 
-ADAPTIVE = "bdf2-adaptive"
+ADAPTIVE: Final = "bdf2-adaptive"
 
 
 class Analysis(_Model):
@@ -371,7 +372,7 @@ def _path(loc: tuple[Any, ...]) -> str:
     return ".".join(parts) or "(spec)"
 
 
-def _message(error: dict[str, Any]) -> str:
+def _message(error: ErrorDetails) -> str:
     msg = str(error["msg"]).removeprefix("Value error, ")
     if "input" in error and error["type"] not in ("missing", "extra_forbidden"):
         shown = repr(error["input"])
