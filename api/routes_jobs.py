@@ -95,11 +95,10 @@ def limits(settings: Settings) -> solver.Limits:
     return solver.Limits(max_dofs=settings.max_dofs, max_steps=settings.max_steps)
 
 
-def _validated(data: Any, settings: Settings) -> dict[str, Any]:
-    """The solver's checks plus the service's size limits; returns the normalised spec."""
-    if not isinstance(data, dict):
-        raise SpecProblems([("(body)", f"must be a JSON object (the job spec), got {type(data).__name__}")])
-    if nul := nul_fields(data):
+def _validated(data: dict[str, Any] | solver.JobSpec, settings: Settings) -> dict[str, Any]:
+    """The solver's checks (the geometry's too, for a spec the request body already validated) plus the service's
+    size limits; returns the normalised spec."""
+    if nul := nul_fields(data.model_dump(mode="json") if isinstance(data, solver.JobSpec) else data):
         raise SpecProblems([(field, NUL_MESSAGE) for field in nul])
     try:
         spec = solver.load(data)
@@ -152,15 +151,15 @@ def merge(base: dict[str, Any], edits: dict[str, Any]) -> dict[str, Any]:
     return out
 
 
-@router.post("", status_code=202, openapi_extra=SPEC_BODY, summary="Queue a job")
+@router.post("", status_code=202, summary="Queue a job")
 def create_job(
     submission: SubmissionDep,
     user: UserDep,
-    data: Annotated[Any, Body()],
+    spec: solver.JobSpec,
     tags: Tags = None,
     fresh: Fresh = False,
 ) -> JSONResponse:
-    return _submit(submission, user, _validated(data, submission.settings), _check_tags(tags or []), fresh)
+    return _submit(submission, user, _validated(spec, submission.settings), _check_tags(tags or []), fresh)
 
 
 @router.get("", summary="List jobs, newest first", response_model=JobPage, response_model_exclude_unset=True)

@@ -39,7 +39,7 @@ class Stats(_Result):
     rms: float
 
 
-class Reference(_Result):
+class ReferenceScales(_Result):
     """The velocity and the per-body lengths the coefficients and the Reynolds number are made with."""
 
     velocity: float
@@ -124,7 +124,7 @@ class _Summary(_Result):
     mode: str
     elements: str
     reynolds_number: float
-    reference: Reference
+    reference: ReferenceScales
     mesh: MeshSize
     timings: dict[str, float] = Field(description="seconds per stage")
 

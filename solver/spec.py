@@ -13,6 +13,7 @@ Reynolds numbers of 1e5 to 1e7 and turbulent flow, which this solver does not mo
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable
 from typing import Annotated, Any, Final, Literal
 
 import numpy as np
@@ -355,7 +356,7 @@ def load(data: dict[str, Any] | JobSpec) -> JobSpec:
     try:
         spec = data if isinstance(data, JobSpec) else JobSpec.model_validate(data)
     except ValidationError as err:
-        raise SpecError([(_path(e["loc"]), _message(e)) for e in err.errors()]) from None
+        raise SpecError(problems_of(err.errors())) from None
     problems = (
         _check_geometry(spec)
         or _check_scales(spec)
@@ -364,6 +365,13 @@ def load(data: dict[str, Any] | JobSpec) -> JobSpec:
     if problems:
         raise SpecError(problems)
     return spec
+
+
+def problems_of(errors: Iterable[ErrorDetails], skip: int = 0) -> list[tuple[str, str]]:
+    """``(field path, message)`` of each of pydantic's errors in a spec, as :class:`SpecError` carries them, the
+    first ``skip`` parts of each location left out (the API reports a request body that fails the spec model
+    with the same paths and messages; FastAPI's locations start with ``body``)."""
+    return [(_path(e["loc"][skip:]), _message(e)) for e in errors]
 
 
 def _path(loc: tuple[Any, ...]) -> str:

@@ -22,7 +22,7 @@ from tests.cli.test_cli import WAKEYARD, _free_port
 from tests.helpers import finished, wait_for
 from wakeyard.api.studies import fluid_area
 from wakeyard.solver.caution import CAUTION
-from wakeyard.solver.results import MeshSize, Reference, SteadyBody, SteadySummary, dump
+from wakeyard.solver.results import MeshSize, ReferenceScales, SteadyBody, SteadySummary, dump
 
 # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a channel shortened to 1.0 (Re 20 at peak 0.3)
 STEADY: dict[str, Any] = {
@@ -41,7 +41,7 @@ def written(cells: int, pipe: dict[str, Any]) -> dict[str, Any]:
         mode="steady",
         elements="P2P1",
         reynolds_number=20.0,
-        reference=Reference(velocity=0.2, lengths={"pipe": 0.1}),
+        reference=ReferenceScales(velocity=0.2, lengths={"pipe": 0.1}),
         mesh=MeshSize(cells=cells, dofs=5 * cells),
         timings={},
         bodies=[SteadyBody(fx=0.0, fy=0.0, recirculation_length=None, **pipe)],
