@@ -3,7 +3,9 @@
 One model serves the solver (which fills it and writes it), the study tables (which read it) and the API (whose
 OpenAPI document shows it). summary.json holds the fields a run set: an optional block (``heat``, a body's
 ``nusselt_number``) is written only when the run filled it, so a new block is one more optional field with the
-default ``None`` (see :func:`dump`), and summaries written before it existed still validate.
+default ``None`` (see :func:`dump`), and summaries written before it existed still validate. A per-body block goes
+on both :class:`SteadyBody` and :class:`TransientBody`. The models refuse unknown keys: a key the solver writes
+must be declared here (tests/solver/test_results.py round-trips real runs).
 """
 
 from __future__ import annotations
