@@ -5,7 +5,6 @@ from __future__ import annotations
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 from importlib import resources
-from typing import Any
 
 from fastapi import FastAPI
 from fastapi.staticfiles import StaticFiles
@@ -17,7 +16,6 @@ from wakeyard.core.migrate import head, revision
 from wakeyard.core.settings import Settings
 from wakeyard.core.store import Store
 from wakeyard.solver.caution import CAUTION
-from wakeyard.solver.study import StudySpec
 
 from . import (
     routes_files,
@@ -33,7 +31,7 @@ from .dispatch import Dispatcher
 from .docs import install_docs
 from .limits import BodyLimit
 from .metrics import Timing, registry_for
-from .problems import install
+from .problems import RESPONSES, install
 from .quota import Quota
 from .reaper import Reaper
 from .text_checks import RefuseNul
@@ -70,6 +68,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         docs_url=None,  # served by install_docs from packaged assets
         redoc_url=None,
         description=f"Queued 2D incompressible flow simulations. Caution: {CAUTION}",
+        responses=RESPONSES,
     )
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
     app.state.reaper, app.state.reserve, app.state.quota = reaper, reserve, Quota(settings, store)
@@ -89,24 +88,6 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         routes_ops,
     ):
         app.include_router(module.router)
-    _document_spec(app)
     install_docs(app)
     app.mount("/", StaticFiles(directory=str(WEB), html=True), name="web")
     return app
-
-
-def _document_spec(app: FastAPI) -> None:
-    """Put the solver's JobSpec and StudySpec schemas (and their sub-models) into the OpenAPI components."""
-    base = app.openapi
-
-    def openapi() -> dict[str, Any]:
-        if app.openapi_schema is None:
-            schema = base()
-            components = schema.setdefault("components", {}).setdefault("schemas", {})
-            for name, model in (("JobSpec", solver.JobSpec), ("StudySpec", StudySpec)):
-                spec = model.model_json_schema(ref_template="#/components/schemas/{model}")
-                components.update(spec.pop("$defs", {}))
-                components[name] = spec
-        return schema if app.openapi_schema is None else app.openapi_schema
-
-    app.openapi = openapi  # type: ignore[method-assign]

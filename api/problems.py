@@ -13,10 +13,14 @@ from typing import Any
 from fastapi import FastAPI, HTTPException, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
+from pydantic import BaseModel, Field
 from sqlalchemy.exc import SQLAlchemyError
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from wakeyard.core.disk import disk_full
+from wakeyard.solver.spec import problems_of
+
+from .text_checks import NUL_MESSAGE, nul_fields
 
 Problems = list[tuple[str, str]]
 
@@ -74,6 +78,21 @@ class SpecProblems(HTTPException):
         super().__init__(status, "; ".join(f"{f}: {m}" for f, m in problems))
 
 
+class Problem4xx(BaseModel):
+    field: str = Field(description="the input at fault: a spec path, a parameter, Authorization, (body), (request)")
+    message: str
+
+
+class Refused(BaseModel):
+    """The one shape of every refused request (4xx): every problem found, each naming the input at fault."""
+
+    detail: list[Problem4xx]
+
+
+# what OpenAPI shows for every 4xx of every route (in place of FastAPI's own validation-error shape)
+RESPONSES: dict[int | str, dict[str, Any]] = {"4XX": {"model": Refused, "description": "refused, with every problem"}}
+
+
 def body(problems: Problems) -> dict[str, Any]:
     return {"detail": [{"field": f, "message": m} for f, m in problems]}
 
@@ -97,25 +116,37 @@ async def _spec_problems(_: Request, exc: Exception) -> JSONResponse:
 async def _http(_: Request, exc: Exception) -> JSONResponse:
     """Starlette's and FastAPI's own refusals (an unknown path, a method not allowed) in the same shape."""
     assert isinstance(exc, StarletteHTTPException)
-    return respond([("(request)", str(exc.detail))], exc.status_code, exc.headers)
+    return respond([("(request)", str(exc.detail))], exc.status_code, dict(exc.headers or {}) or None)
 
 
 def _field(loc: tuple[object, ...]) -> str:
-    parts = [str(p) for p in loc]
-    if parts and parts[0] == "body":
-        parts = parts[1:]
-    return ".".join(parts) or "(body)"
+    """A parameter's place and name, e.g. ``query.state``."""
+    return ".".join(str(p) for p in loc) or "(request)"
+
+
+# pydantic's error types for a body that is not a JSON object at all, or no body
+_NOT_AN_OBJECT = ("model_attributes_type", "model_type", "dict_type", "missing")
 
 
 async def _validation(_: Request, exc: Exception) -> JSONResponse:
+    """Every problem FastAPI found at once: a request body typed as a spec model (JobSpec, StudySpec) is reported
+    as the solver reports a spec (the same paths and messages), a parameter by where it is and its name."""
     assert isinstance(exc, RequestValidationError)
-    found = []
+    found: Problems = []
     for e in exc.errors():
-        field, msg = _field(tuple(e.get("loc", ()))), str(e.get("msg", "invalid"))
+        loc, msg = tuple(e.get("loc", ())), str(e.get("msg", "invalid"))
         if e.get("type") == "json_invalid":
-            field = "(body)"
-            msg = f"not valid JSON at character {e['loc'][-1]}: {e.get('ctx', {}).get('error', msg)}"
-        found.append((field, msg))
+            found.append(("(body)", f"not valid JSON at character {loc[-1]}: {e.get('ctx', {}).get('error', msg)}"))
+        elif loc == ("body",) and e.get("type") in _NOT_AN_OBJECT:
+            got = "nothing" if e.get("type") == "missing" else type(e.get("input")).__name__
+            found.append(("(body)", f"must be a JSON object, got {got}"))
+        elif loc[:1] == ("body",):
+            found += problems_of([e], skip=1)
+        else:
+            found.append((_field(loc), msg))
+    if isinstance(exc.body, dict):  # the store could not keep a NUL character either: say so at once too
+        named = {field for field, _ in found}
+        found += [(field, NUL_MESSAGE) for field in nul_fields(exc.body) if field not in named]
     return respond(found, 422)
 
 

@@ -83,8 +83,7 @@ class Reaper:
         ):  # idle with work waiting: wake-ups were lost
             for job_id in self.store.queued_ids()[: self.wake_ups()]:
                 self.dispatch(job_id)
-        if self.broker_db is not None:
-            self._prune()
+        self._prune()
 
     def wake_ups(self) -> int:
         """How many lost wake-ups to re-send: one per worker process, this host's (``workers``) or any seen within
@@ -95,6 +94,8 @@ class Reaper:
 
     def _prune(self) -> None:
         """The SQLAlchemy transport keeps delivered messages forever; drop those older than an hour."""
+        if self.broker_db is None:
+            return
         cutoff = datetime.now() - timedelta(hours=1)  # the transport stores local naive times
         try:
             with self.broker_db.begin() as conn:

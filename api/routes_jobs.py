@@ -19,6 +19,8 @@ from wakeyard.solver.caution import CAUTION
 
 from .deps import ReserveDep, SettingsDep, StoreDep, User, UserDep
 from .problems import Conflict, Forbidden, NotFound, SpecProblems
+from .schemas import Job as JobView
+from .schemas import JobPage
 from .submission import Submission, SubmissionDep
 from .text_checks import NUL_MESSAGE, nul_fields
 
@@ -94,11 +96,10 @@ def limits(settings: Settings) -> solver.Limits:
     return solver.Limits(max_dofs=settings.max_dofs, max_steps=settings.max_steps)
 
 
-def _validated(data: Any, settings: Settings) -> dict[str, Any]:
-    """The solver's checks plus the service's size limits; returns the normalised spec."""
-    if not isinstance(data, dict):
-        raise SpecProblems([("(body)", f"must be a JSON object (the job spec), got {type(data).__name__}")])
-    if nul := nul_fields(data):
+def _validated(data: dict[str, Any] | solver.JobSpec, settings: Settings) -> dict[str, Any]:
+    """The solver's checks (the geometry's too, for a spec the request body already validated) plus the service's
+    size limits; returns the normalised spec."""
+    if nul := nul_fields(data.model_dump(mode="json") if isinstance(data, solver.JobSpec) else data):
         raise SpecProblems([(field, NUL_MESSAGE) for field in nul])
     try:
         spec = solver.load(data)
@@ -151,18 +152,18 @@ def merge(base: dict[str, Any], edits: dict[str, Any]) -> dict[str, Any]:
     return out
 
 
-@router.post("", status_code=202, openapi_extra=SPEC_BODY, summary="Queue a job")
+@router.post("", status_code=202, summary="Queue a job")
 def create_job(
     submission: SubmissionDep,
     user: UserDep,
-    data: Annotated[Any, Body()],
+    spec: solver.JobSpec,
     tags: Tags = None,
     fresh: Fresh = False,
 ) -> JSONResponse:
-    return _submit(submission, user, _validated(data, submission.settings), _check_tags(tags or []), fresh)
+    return _submit(submission, user, _validated(spec, submission.settings), _check_tags(tags or []), fresh)
 
 
-@router.get("", summary="List jobs, newest first")
+@router.get("", summary="List jobs, newest first", response_model=JobPage, response_model_exclude_unset=True)
 def list_jobs(
     store: StoreDep,
     _: UserDep,
@@ -182,7 +183,7 @@ def list_jobs(
     return {"jobs": [view(j) for j in jobs], "next_cursor": nxt}
 
 
-@router.get("/{job_id}", summary="Read one job")
+@router.get("/{job_id}", summary="Read one job", response_model=JobView)
 def read_job(store: StoreDep, job_id: str, _: UserDep) -> JSONResponse:
     """In the thread pool like every database call: a read can wait on a lock (a PostgreSQL table lock, a busy
     SQLite file), and on the event loop that wait would stall every other request."""
@@ -192,7 +193,12 @@ def read_job(store: StoreDep, job_id: str, _: UserDep) -> JSONResponse:
     return JSONResponse(view(job))  # already JSON types: skip FastAPI's re-validation (status reads are hot)
 
 
-@router.post("/{job_id}/cancel", summary="Cancel a queued or running job")
+@router.post(
+    "/{job_id}/cancel",
+    summary="Cancel a queued or running job",
+    response_model=JobView,
+    response_model_exclude_unset=True,
+)
 def cancel_job(store: StoreDep, reserve: ReserveDep, job_id: str, user: UserDep) -> dict[str, Any]:
     job = owned(store, job_id, user)
     if job.state not in ACTIVE:

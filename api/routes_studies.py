@@ -6,7 +6,7 @@ from __future__ import annotations
 import time
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Body, Query
+from fastapi import APIRouter, Query
 from fastapi.responses import JSONResponse, Response
 
 from wakeyard import solver
@@ -24,12 +24,6 @@ from .submission import Submission, SubmissionDep
 from .text_checks import NUL_MESSAGE, nul_fields
 
 router = APIRouter(prefix="/api/v1/studies", tags=["studies"])
-STUDY_BODY = {
-    "requestBody": {
-        "required": True,
-        "content": {"application/json": {"schema": {"$ref": "#/components/schemas/StudySpec"}}},
-    }
-}
 
 
 def links(study_id: str) -> dict[str, str]:
@@ -37,21 +31,18 @@ def links(study_id: str) -> dict[str, str]:
     return {"self": base, "table": f"{base}/table.csv", "plot": f"{base}/plot.png", "cancel": f"{base}/cancel"}
 
 
-def _expanded(
-    data: Any, submission: Submission, owner: str
-) -> tuple[StudySpec, list[tuple[dict[str, float], dict[str, Any]]]]:
-    """The solver's checks of the study and of every point, plus the service's size limits for each point.
+def _expanded(study: StudySpec, submission: Submission, owner: str) -> list[tuple[dict[str, float], dict[str, Any]]]:
+    """The solver's checks of every point of the study (the request body validated the study itself), plus the
+    service's size limits for each point.
 
     The per-user cap is checked first, on the number of points (each counts, even one that will reuse a result),
     and the checks stop at a time bound: a refused study costs little."""
-    if not isinstance(data, dict):
-        raise SpecProblems([("(body)", f"must be a JSON object (the study), got {type(data).__name__}")])
-    if nul := nul_fields(data):
+    if nul := nul_fields(study.model_dump(mode="json")):
         raise SpecProblems([(field, NUL_MESSAGE) for field in nul])
     settings = submission.settings
     deadline = time.monotonic() + settings.max_validation_seconds
     try:
-        points = expand(data, counted=lambda n: submission.check_room(owner, n), deadline=deadline)
+        points = expand(study, counted=lambda n: submission.check_room(owner, n), deadline=deadline)
     except solver.SpecError as err:
         raise SpecProblems(err.problems) from None
     problems = []
@@ -62,19 +53,17 @@ def _expanded(
             problems += [(f"points.{k}.{f}", f"{m} (at {values})") for f, m in err.problems]
     if problems:
         raise SpecProblems(problems)
-    return StudySpec.model_validate(data), [(v, s.model_dump(mode="json")) for v, s in points]
+    return [(v, s.model_dump(mode="json")) for v, s in points]
 
 
 def _point_title(title: str, values: dict[str, float]) -> str:
     return f"{title}: " + ", ".join(f"{p} = {v:g}" for p, v in values.items())
 
 
-@router.post("", status_code=202, openapi_extra=STUDY_BODY, summary="Queue a parameter study")
-def create_study(
-    submission: SubmissionDep, user: UserDep, data: Annotated[Any, Body()], fresh: Fresh = False
-) -> JSONResponse:
+@router.post("", status_code=202, summary="Queue a parameter study")
+def create_study(submission: SubmissionDep, user: UserDep, spec: StudySpec, fresh: Fresh = False) -> JSONResponse:
     submission.check_space(user.name)
-    spec, points = _expanded(data, submission, user.name)
+    points = _expanded(spec, submission, user.name)
     title = spec.title or str(points[0][1].get("title", "")) or spec.kind
     planned = [submission.plan(case, fresh, _point_title(title, v), values=v) for v, case in points]
     study = submission.store.create_study(user.name, spec.kind, title, spec.model_dump(mode="json"))

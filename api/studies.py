@@ -12,6 +12,7 @@ from wakeyard import solver
 from wakeyard.core.states import ACTIVE, JobState
 from wakeyard.core.store import Job, Study, finite
 from wakeyard.solver.caution import CAUTION
+from wakeyard.solver.results import parse
 from wakeyard.solver.study import convergence, summary_values
 from wakeyard.solver.units import labelled, spec_unit, value_unit
 
@@ -35,9 +36,9 @@ def progress(jobs: list[Job]) -> float:
     return sum(j.progress_fraction for j in jobs) / len(jobs) if jobs else 0.0
 
 
-def values_of(job: Job) -> dict[str, float | None]:
+def values_of(job: Job) -> dict[str, float]:
     """The point's flat summary values (drag and lift coefficients, Strouhal number...); empty until it succeeds."""
-    return summary_values(job.summary) if job.state == JobState.SUCCEEDED and job.summary else {}
+    return summary_values(parse(job.summary)) if job.state == JobState.SUCCEEDED and job.summary else {}
 
 
 def fluid_area(base: dict[str, Any]) -> float:
@@ -53,7 +54,7 @@ def fluid_area(base: dict[str, Any]) -> float:
 
 def grid_convergence(study: Study, jobs: list[Job]) -> dict[str, Any]:
     """Observed order, extrapolated value and GCI of every summary value, from the three finest succeeded meshes."""
-    done = [j.summary for j in jobs if j.state == JobState.SUCCEEDED and j.summary]
+    done = [parse(j.summary) for j in jobs if j.state == JobState.SUCCEEDED and j.summary]
     return finite(convergence(done, fluid_area(study.spec["base"]))) if len(done) >= 3 else {}
 
 

@@ -132,7 +132,7 @@ class _Api:
 
     def __init__(self, host: str, port: int, processes: int, settings: Any, on_exit: Callable[[], None]):
         self.host, self.port, self.processes = host, port, processes
-        common = {"host": host, "port": port, "log_level": "warning", "timeout_graceful_shutdown": 1}
+        common: dict[str, Any] = {"host": host, "port": port, "log_level": "warning", "timeout_graceful_shutdown": 1}
         if processes == 1:
             from wakeyard.api.app import create_app
 

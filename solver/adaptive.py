@@ -214,7 +214,7 @@ class AdaptiveBDF2:
                 x[free] += delta
                 self.stats.solves += 1
                 r_new, conv = residual(x)
-                contraction = np.linalg.norm(r_new) / max(np.linalg.norm(r), 1e-300)
+                contraction = float(np.linalg.norm(r_new)) / max(float(np.linalg.norm(r)), 1e-300)
                 if not np.isfinite(contraction) or contraction > 0.5:
                     break
                 if k:

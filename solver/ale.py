@@ -110,7 +110,7 @@ class MovingDirichlet(Dirichlet):
 
 def moving_conditions(th: TaylorHood, fixed: Dirichlet, bodies: list[MovingBody]) -> MovingDirichlet:
     """``fixed`` with each moving body's surface velocity added along its direction."""
-    motions = []
+    motions: list[tuple[np.ndarray, Callable[[float], float]]] = []
     for body in bodies:
         pattern = np.zeros(th.ndofs)
         ex, ey = body.mount.unit()

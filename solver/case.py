@@ -104,7 +104,7 @@ class Case:
         return force_columns(
             [b.name for b in self.spec.bodies],
             self.pressure_probes is not None,
-            [k + 1 for k in np.nonzero(self.velocity_found)[0]],
+            [int(k) + 1 for k in np.nonzero(self.velocity_found)[0]],
         )
 
     @property
@@ -120,7 +120,9 @@ class Case:
     def motion_row(self, t: float) -> list[float]:
         """The moving bodies' displacements at time ``t``, in the order of :meth:`motion_columns`."""
         motion = self.motion
-        return [float(v) for k in range(len(motion.bodies) if motion else 0) for v in motion.displacement(k, t)]
+        if motion is None:
+            return []
+        return [float(v) for k in range(len(motion.bodies)) for v in motion.displacement(k, t)]
 
     def velocity_probe_values(self, row: list[float]) -> list[list[float] | None]:
         """Probe velocities ``[ux, uy]`` from a forces row, ``None`` for a point outside the fluid."""

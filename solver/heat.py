@@ -199,7 +199,7 @@ class AdvectionDiffusion:
         ``ratio = dt / dt_previous``; ``None`` (or no ``T_old``) takes a backward-Euler step.
         """
         a0, a1, a2 = bdf2_weights(None if T_old is None else ratio)
-        history = (a1 * T + (a2 * T_old if a2 else 0.0)) / dt
+        history = (a1 * T + (a2 * T_old if a2 and T_old is not None else 0.0)) / dt
         op = self.operator(ux, uy)
         A = (a0 / dt) * op.mass + op.stiffness
         if self._repeated is None:

@@ -19,6 +19,7 @@ from . import analysis, heat_pictures, output, picture_choice, pictures
 from .case import Case
 from .errors import Diverged
 from .heat_transfer import HeatTransfer
+from .results import ForceHistory, HeatNumbers, Stats, SteadySummary, TransientSummary
 
 log = logging.getLogger(__name__)
 
@@ -37,7 +38,7 @@ class HeatRun:
         """The temperature on the velocity nodes, for the field snapshots."""
         return {"temperature": self.nodal @ self.heat.T}
 
-    def steady(self, x: np.ndarray, summary: dict[str, Any]) -> None:
+    def steady(self, x: np.ndarray, summary: SteadySummary) -> None:
         """Solve for the temperature in the stationary flow ``x``; add the Nusselt numbers to ``summary``."""
         self.heat.steady(x)
         self.rows = [self._row(0.0, x)]
@@ -94,49 +95,51 @@ class HeatRun:
         writer.writerows([[f"{v:.12g}" for v in row] for row in self.rows])
         output.write_atomic(self.out / "heat.csv", buf.getvalue())
 
-    def finish(self, summary: dict[str, Any], x: np.ndarray) -> None:
+    def finish(self, summary: SteadySummary | TransientSummary, x: np.ndarray) -> None:
         """heat.csv, local_nusselt.csv and the plots; per body ``nusselt_number``, ``outlet_temperature``."""
         h = self.heat
         self.write()
         (self.out / "heat_checkpoint.npz").unlink(missing_ok=True)
-        data = np.array(self.rows).reshape(-1, len(self.columns))
-        transient = self.case.spec.analysis.mode == "transient"
-        window = np.ones(len(data), dtype=bool)
-        if transient and "window" in summary:
-            window = (data[:, 0] >= summary["window"]["start"]) & (data[:, 0] <= summary["window"]["end"])
-        by_name = {b["name"]: b for b in summary.get("bodies", [])}
-        for k, s in enumerate(h.surfaces):
-            values = data[window, 1 + k]
-            entry = by_name.setdefault(s.name, {"name": s.name})
-            entry["nusselt_number"] = analysis.window_stats(data[window, 0], values) if transient else float(values[-1])
-            entry["surface_temperature"] = h.surface_temperature(s)
+        history = ForceHistory.of_rows(self.columns, self.rows)
+        t = history.time
+        window = np.ones(len(t), dtype=bool)
+        if isinstance(summary, TransientSummary) and summary.window is not None:
+            window = (t >= summary.window.start) & (t <= summary.window.end)
+
+        def value(column: str) -> Any:
+            """Over the analysis window (transient: :class:`Stats`) or the one stationary value; the field that
+            takes it is of that kind."""
+            if isinstance(summary, TransientSummary):
+                return Stats(**analysis.window_stats(t[window], history[column][window]))
+            return history.last(column)
+
+        by_name = {b.name: b for b in summary.bodies}
+        for s in h.surfaces:
+            if (entry := by_name.get(s.name)) is not None:
+                entry.nusselt_number = value(f"{s.name}_nu")
+                entry.surface_temperature = h.surface_temperature(s)
         heated = {s.name for s in h.surfaces}
         for i, body in enumerate(self.case.spec.bodies):
             if body.thermal is not None and body.thermal.kind != "insulated" and body.name not in heated:
-                by_name[body.name]["nusselt_number"] = None
+                by_name[body.name].nusselt_number = None
                 self.case.unavailable[f"bodies.{i}.nusselt_number"] = (
                     f"{body.name} neither gains nor gives heat (surface at the inflow temperature or zero heat flux)"
                 )
-        outlet = data[window, -1]
-        if np.isfinite(outlet).all():
-            summary["outlet_temperature"] = (
-                analysis.window_stats(data[window, 0], outlet) if transient else float(outlet[-1])
-            )
+        if np.isfinite(history["outlet_temperature"][window]).all():
+            summary.outlet_temperature = value("outlet_temperature")
         else:
-            summary["outlet_temperature"] = None
+            summary.outlet_temperature = None
             self.case.unavailable["outlet_temperature"] = "no net outflow at the outlet: no mixed-mean temperature"
         prandtl = self.case.spec.viscosity() / h.kappa
-        summary["heat"] = {
-            "prandtl_number": prandtl,
-            "peclet_number": self.case.spec.reynolds() * prandtl,
-            "diffusivity": h.kappa,
-        }
+        summary.heat = HeatNumbers(
+            prandtl_number=prandtl, peclet_number=self.case.spec.reynolds() * prandtl, diffusivity=h.kappa
+        )
         local = {s.name: h.local_nusselt(s) for s in h.surfaces}
         self._write_local(local)
         try:
             heat_pictures.local_nusselt_plot(self.out / "local_nusselt.png", local)
-            if transient:
-                heat_pictures.nusselt_history(self.out / "nusselt.png", self.columns, data)
+            if isinstance(summary, TransientSummary):
+                heat_pictures.nusselt_history(self.out / "nusselt.png", self.columns, history.data)
         except Exception as err:  # a plot never fails a finished solve
             self.case.unavailable["heat.pictures"] = f"the heat plots could not be drawn: {type(err).__name__}: {err}"
             log.warning("%s: %s", self.out, self.case.unavailable["heat.pictures"])

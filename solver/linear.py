@@ -19,7 +19,7 @@ from pathlib import Path
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.sparse.linalg import splu
+from scipy.sparse.linalg import SuperLU, splu
 
 try:
     import pypardiso
@@ -86,7 +86,7 @@ class RepeatedSolver:
         self.free = free
         self.pattern: tuple[np.ndarray, np.ndarray] | None = None
         self.matrix: sp.csr_matrix | None = None
-        self.lu = None
+        self.lu: SuperLU | None = None
         self.pardiso = _pardiso() if pypardiso is not None else None
 
     def factor(self, A: sp.spmatrix) -> None:
@@ -117,6 +117,7 @@ class RepeatedSolver:
 
     def solve_free(self, rhs_free: np.ndarray) -> np.ndarray:
         if self.pardiso is None:
+            assert self.lu is not None, "factor() comes first"
             return self.lu.solve(rhs_free)
         self.pardiso.set_phase(33)
         return self.pardiso._call_pardiso(self.matrix, np.ascontiguousarray(rhs_free))

@@ -144,9 +144,9 @@ def on_velocity_nodes(th: TaylorHood, pb: Basis) -> sp.csr_matrix:
             rows.append(vb.element_dofs[j])
             cols.append(pb.element_dofs[k])
             vals.append(np.full(vb.element_dofs.shape[1], phi[j]))
-    rows, cols, vals = map(np.concatenate, (rows, cols, vals))
-    keep = np.abs(vals) > 1e-14
-    m = sp.coo_matrix((vals[keep], (rows[keep], cols[keep])), shape=(vb.N, pb.N)).tocsr()
+    r, c, v = (np.concatenate(parts) for parts in (rows, cols, vals))
+    keep = np.abs(v) > 1e-14
+    m = sp.coo_matrix((v[keep], (r[keep], c[keep])), shape=(vb.N, pb.N)).tocsr()
     # shared nodes were summed once per cell: divide by the number of cells that wrote each node
     counts = np.bincount(vb.element_dofs.ravel(), minlength=vb.N)
     return sp.diags(1.0 / counts) @ m

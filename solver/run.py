@@ -13,7 +13,7 @@ from typing import Any
 
 import numpy as np
 
-from . import analysis, output, picture_choice, pictures
+from . import analysis, output, picture_choice, pictures, results
 from .adaptive import AdaptiveBDF2, Scales
 from .case import Case
 from .caution import CAUTION
@@ -22,6 +22,7 @@ from .heat_output import HeatRun
 from .mesh_picture import mesh_picture
 from .motion import motion_summary
 from .recirculation import recirculation_length
+from .results import ForceHistory, Motion, Stats, SteadyBody, SteadySummary, TransientBody, TransientSummary
 from .spec import ADAPTIVE, JobSpec, load
 from .stages import failed_stage
 from .steady import solve_steady
@@ -67,7 +68,8 @@ def run(
     ``should_stop`` is polled between steps (cancellation); a transient run
     checkpoints every ``analysis.checkpoint_interval`` steps and, with
     ``resume``, continues from the last checkpoint in ``out``. status.json
-    always tells how the run ended. Returns the summary.
+    always tells how the run ended. Returns summary.json's content (a
+    :mod:`solver.results` summary model, dumped).
 
     A derived quantity that cannot be computed (a recirculation length that
     runs into another body, a probe point outside the fluid, the pictures) is
@@ -91,16 +93,19 @@ def run(
     output.write_atomic(out / "spec.json", spec.model_dump_json(indent=2))
     try:
         case = Case.build(spec)
+        summary: SteadySummary | TransientSummary
         if spec.analysis.mode == "steady":
             summary = _steady(case, out, progress)
         else:
             summary = _Transient(case, out, progress, should_stop, deadline, resume).run()
-        summary["unavailable"] = dict(case.unavailable)
-        summary["wall_time_seconds"] = time.perf_counter() - started
-        summary.update(caution=CAUTION, units=summary_units(summary))
-        output.write_json(out / "summary.json", summary)
+        summary.unavailable = dict(case.unavailable)
+        summary.wall_time_seconds = time.perf_counter() - started
+        summary.caution = CAUTION
+        summary.units = summary_units(results.dump(summary))
+        content = results.dump(summary)
+        output.write_json(out / "summary.json", content)
         output.write_json(out / "status.json", {"state": "succeeded"})
-        return summary
+        return content
     except Cancelled as err:
         output.write_json(out / "status.json", {"state": "cancelled", "message": str(err)})
         raise
@@ -114,6 +119,7 @@ def run(
 
 
 def _common_summary(case: Case) -> dict[str, Any]:
+    """The fields both summary models start with."""
     spec = case.spec
     return {
         "title": spec.title,
@@ -129,7 +135,7 @@ def _common_summary(case: Case) -> dict[str, Any]:
     }
 
 
-def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[str, Any]:
+def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> SteadySummary:
     spec = case.spec
     t0 = time.perf_counter()
 
@@ -151,31 +157,34 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
     solve = time.perf_counter() - t0
     row = case.force_row(0.0, x, case.ns.convection(x), None)
     output.write_forces(out / "forces.csv", case.columns(), [row])
-    summary = _common_summary(case)
-    summary["bodies"] = []
+    forces = ForceHistory.of_rows(case.columns(), [row])
+    bodies = []
     for i, b in enumerate(spec.bodies):
         length, reason = recirculation_length(case, x, i)
         if reason:
             case.unavailable[f"bodies.{i}.recirculation_length"] = reason
-        summary["bodies"].append(
-            {
-                "name": b.name,
-                "fx": row[1 + 4 * i],
-                "fy": row[2 + 4 * i],
-                "drag_coefficient": row[3 + 4 * i],
-                "lift_coefficient": row[4 + 4 * i],
-                "recirculation_length": length,
-            }
+        bodies.append(
+            SteadyBody(
+                name=b.name,
+                fx=forces.last(results.body_column(b.name, "fx")),
+                fy=forces.last(results.body_column(b.name, "fy")),
+                drag_coefficient=forces.last(results.body_column(b.name, "cd")),
+                lift_coefficient=forces.last(results.body_column(b.name, "cl")),
+                recirculation_length=length,
+            )
         )
-    nb = 1 + 4 * len(spec.bodies)
-    summary["pressure_drop"] = row[nb] if case.pressure_probes is not None else None
+    summary = SteadySummary.model_validate(
+        {
+            **_common_summary(case),
+            "bodies": bodies,
+            "pressure_drop": forces.last("pressure_drop") if "pressure_drop" in forces else None,
+        }
+    )
     if spec.probes.velocity:
-        summary["velocity_probes"] = case.velocity_probe_values(row)
-    summary["newton"] = {
-        "iterations": newton.iterations,
-        "residual": newton.residual,
-        "continuation": newton.continuation_steps,
-    }
+        summary.velocity_probes = case.velocity_probe_values(row)
+    summary.newton = results.Newton(
+        iterations=newton.iterations, residual=newton.residual, continuation=newton.continuation_steps
+    )
     heat = HeatRun(case, out) if spec.heat else None  # heat hook: the temperature in the stationary flow
     if heat:
         heat.steady(x, summary)
@@ -186,7 +195,7 @@ def _steady(case: Case, out: Path, progress: ProgressCallback | None) -> dict[st
     _pictures(case, out, [0])
     if heat:
         heat.pictures([0])
-    summary["timings"].update({"solve": solve, "output": time.perf_counter() - t1})
+    summary.timings.update({"solve": solve, "output": time.perf_counter() - t1})
     return summary
 
 
@@ -250,7 +259,7 @@ class _Transient:
         self.resumed_from_step: int | None = None
         self.heat: HeatRun | None = None
 
-    def run(self) -> dict[str, Any]:
+    def run(self) -> TransientSummary:
         case, a = self.case, self.case.spec.analysis
         t_solve = time.perf_counter()
         stepper = self._start()
@@ -310,17 +319,18 @@ class _Transient:
                 heat.write()
         solve = time.perf_counter() - t_solve
         t_out = time.perf_counter()
-        data = np.array(self.rows)
+        history = ForceHistory.of_rows(self.columns, self.rows)
         names = [b.name for b in case.spec.bodies]
         nf = len(case.columns())  # the forces, without the step and the displacements
-        pictures.force_plot(self.out / "forces.png", self.columns[:nf], data[:, :nf], names)
+        pictures.force_plot(self.out / "forces.png", self.columns[:nf], history.data[:, :nf], names)
         _pictures(case, self.out, self.snapshots)
-        summary = _common_summary(case)
-        whole = a.until_periodic.cycles if ended_by == "periodic" else 5  # the cycles found to repeat
-        summary.update(self._statistics(data, whole))
-        self._motion(summary, data)
-        summary.update(
+        whole = a.until_periodic.cycles if a.until_periodic and ended_by == "periodic" else 5  # cycles that repeat
+        statistics = self._statistics(history, whole)
+        self._motion(statistics, history)
+        summary = TransientSummary.model_validate(
             {
+                **_common_summary(case),
+                **statistics,
                 "ended_by": ended_by,
                 "steps": stepper.n,
                 "scheme": a.scheme,
@@ -334,7 +344,7 @@ class _Transient:
         if heat:  # heat hook: Nusselt statistics over the forces' window, temperature pictures
             heat.finish(summary, stepper.x)
             heat.pictures(self.snapshots)
-        summary["timings"].update(
+        summary.timings.update(
             {"solve": solve, "seconds_per_step": solve / max(stepper.n, 1), "output": time.perf_counter() - t_out}
         )
         (self.out / "checkpoint.npz").unlink(missing_ok=True)
@@ -351,6 +361,7 @@ class _Transient:
             return AdaptiveBDF2(
                 case.ns, x0, a.accuracy, scales, first_step=first, breakpoints=breakpoints, cfl=case.cfl
             )
+        assert a.time_step is not None  # the spec requires one for the fixed-step schemes
         return Stepper(case.ns, a.scheme, a.time_step, x0, cfl=case.cfl)
 
     def _start(self) -> Stepper | AdaptiveBDF2:
@@ -376,14 +387,14 @@ class _Transient:
         if self.heat:
             self.heat.checkpoint(stepper.n)
         tmp = self.out / ".checkpoint.npz"
+        arrays: dict[str, Any] = {
+            **stepper.state(),
+            "rows": np.array(self.rows),
+            "snapshots": np.array(self.snapshots, dtype=int),
+            "fingerprint": self.fingerprint,
+        }
         with open(tmp, "wb") as f:
-            np.savez(
-                f,
-                **stepper.state(),
-                rows=np.array(self.rows),
-                snapshots=np.array(self.snapshots, dtype=int),
-                fingerprint=self.fingerprint,
-            )
+            np.savez(f, **arrays)
         tmp.replace(self.out / "checkpoint.npz")
         stepper.renew_factorisation()
         output.write_forces(self.out / "forces.csv", self.columns, self.rows)
@@ -425,48 +436,51 @@ class _Transient:
         up = self.case.spec.analysis.until_periodic
         if not self.case.spec.bodies or up is None:
             return False
-        data = np.array(self.rows)
-        return analysis.is_periodic(data[:, 0], data[:, 4], up.cycles, up.tolerance)
+        history = ForceHistory.of_rows(self.columns, self.rows)
+        lift = history.body(self.case.spec.bodies[0].name, "cl")
+        return analysis.is_periodic(history.time, lift, up.cycles, up.tolerance)
 
-    def _motion(self, summary: dict[str, Any], data: np.ndarray) -> None:
+    def _motion(self, statistics: dict[str, Any], history: ForceHistory) -> None:
         """Each moving body's ``motion`` (:func:`solver.motion.motion_summary`) over the forces' window."""
         motion = self.case.motion
         if motion is None:
             return
-        spec, t = self.case.spec, data[:, 0]
-        window = (t >= summary["window"]["start"]) & (t <= summary["window"]["end"])
+        spec, t = self.case.spec, history.time
+        window = (t >= statistics["window"]["start"]) & (t <= statistics["window"]["end"])
         index = {b.name: i for i, b in enumerate(spec.bodies)}
-        first = len(self.case.columns()) + 1  # after the forces and the step
-        for k, body in enumerate(motion.bodies):
+        for body in motion.bodies:
             i = index[body.name]
-            dx, dy = data[:, first + 2 * k], data[:, first + 2 * k + 1]
-            length = spec.reference_length(i)
-            summary["bodies"][i]["motion"] = motion_summary(t, dx, dy, window, length, body.mount.frequency)
+            dx, dy = history[f"{body.name}_dx"], history[f"{body.name}_dy"]
+            summary = motion_summary(t, dx, dy, window, spec.reference_length(i), body.mount.frequency)
+            statistics["bodies"][i].motion = Motion.model_validate(summary)
 
-    def _statistics(self, data: np.ndarray, whole_cycles: int) -> dict[str, Any]:
+    def _statistics(self, history: ForceHistory, whole_cycles: int) -> dict[str, Any]:
+        """The transient summary's statistics: per body and shedding, over the analysis window."""
         spec = self.case.spec
-        t = data[:, 0]
-        lift_ref = data[:, 4] if spec.bodies else t * 0
+        t = history.time
+        lift_ref = history.body(spec.bodies[0].name, "cl") if spec.bodies else t * 0
         cycles = analysis.find_cycles(t, lift_ref)
         window = analysis.analysis_window(t, cycles, whole_cycles)
         bodies = []
         for i, b in enumerate(spec.bodies):
-            st = analysis.strouhal(t, data[:, 4 + 4 * i], spec.reference_length(i), spec.reference_velocity())
+            cd, cl = history.body(b.name, "cd"), history.body(b.name, "cl")
+            st = analysis.strouhal(t, cl, spec.reference_length(i), spec.reference_velocity())
             bodies.append(
-                {
-                    "name": b.name,
-                    "drag_coefficient": analysis.window_stats(t[window], data[window, 3 + 4 * i]),
-                    "lift_coefficient": analysis.window_stats(t[window], data[window, 4 + 4 * i]),
-                    "strouhal_number": st["strouhal_number"],
-                }
+                TransientBody(
+                    name=b.name,
+                    drag_coefficient=Stats(**analysis.window_stats(t[window], cd[window])),
+                    lift_coefficient=Stats(**analysis.window_stats(t[window], cl[window])),
+                    strouhal_number=st["strouhal_number"],
+                )
             )
         shedding = (
             analysis.strouhal(t, lift_ref, spec.reference_length(0), spec.reference_velocity())
             if spec.bodies
             else {"strouhal_number": None}
         )
-        nb = 1 + 4 * len(spec.bodies)
-        pdrop = analysis.window_stats(t[window], data[window, nb]) if self.case.pressure_probes is not None else None
+        pdrop = (
+            analysis.window_stats(t[window], history["pressure_drop"][window]) if "pressure_drop" in history else None
+        )
         return {
             "bodies": bodies,
             "strouhal_number": shedding["strouhal_number"],

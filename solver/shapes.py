@@ -42,7 +42,7 @@ class _Body(BaseModel):
 
     def reference_point(self) -> Point:
         """A point inside the body (used to draw labels and to sort)."""
-        return tuple(self.outline().mean(axis=0))  # type: ignore[return-value]
+        return tuple(self.outline().mean(axis=0))
 
 
 def _rotate(points: np.ndarray, angle_deg: float, about: Point) -> np.ndarray:

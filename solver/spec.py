@@ -13,10 +13,12 @@ Reynolds numbers of 1e5 to 1e7 and turbulent flow, which this solver does not mo
 from __future__ import annotations
 
 import math
-from typing import Annotated, Any, Literal
+from collections.abc import Iterable
+from typing import Annotated, Any, Final, Literal
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic_core import ErrorDetails
 
 from . import _polygons
 from .errors import SpecError
@@ -170,7 +172,7 @@ class UntilPeriodic(_Model):
     tolerance: float = Field(0.01, gt=0, le=0.5)
 
 
-ADAPTIVE = "bdf2-adaptive"
+ADAPTIVE: Final = "bdf2-adaptive"
 KEEP_CLEARANCE = 0.5  # share of a moving body's gaps at rest that must remain at its extreme positions
 
 
@@ -421,7 +423,7 @@ def load(data: dict[str, Any] | JobSpec) -> JobSpec:
     try:
         spec = data if isinstance(data, JobSpec) else JobSpec.model_validate(data)
     except ValidationError as err:
-        raise SpecError([(_path(e["loc"]), _message(e)) for e in err.errors()]) from None
+        raise SpecError(problems_of(err.errors())) from None
     problems = (
         _check_geometry(spec)
         or _check_scales(spec)
@@ -432,13 +434,20 @@ def load(data: dict[str, Any] | JobSpec) -> JobSpec:
     return spec
 
 
+def problems_of(errors: Iterable[ErrorDetails], skip: int = 0) -> list[tuple[str, str]]:
+    """``(field path, message)`` of each of pydantic's errors in a spec, as :class:`SpecError` carries them, the
+    first ``skip`` parts of each location left out (the API reports a request body that fails the spec model
+    with the same paths and messages; FastAPI's locations start with ``body``)."""
+    return [(_path(e["loc"][skip:]), _message(e)) for e in errors]
+
+
 def _path(loc: tuple[Any, ...]) -> str:
     # drop the discriminator tags pydantic inserts for tagged unions ("bodies.0.circle.radius")
     parts = [str(p) for p in loc if p not in ("circle", "rectangle", "ellipse", "naca4", "polygon")]
     return ".".join(parts) or "(spec)"
 
 
-def _message(error: dict[str, Any]) -> str:
+def _message(error: ErrorDetails) -> str:
     msg = str(error["msg"]).removeprefix("Value error, ")
     if "input" in error and error["type"] not in ("missing", "extra_forbidden"):
         shown = repr(error["input"])

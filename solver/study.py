@@ -17,6 +17,7 @@ import numpy as np
 from pydantic import Field, ValidationError, model_validator
 
 from .errors import SpecError
+from .results import Stats, SteadySummary, TransientSummary
 from .spec import JobSpec, _message, _Model, _path, load
 from .verification import grid_convergence
 
@@ -108,6 +109,7 @@ def expand(
     except SpecError as err:
         raise SpecError([(f"base.{f}", m) for f, m in err.problems]) from None
     data = base.model_dump(mode="json")
+    axes: list[tuple[str, list[float]]]
     if study.kind == "mesh-convergence":
         axes = [("mesh.refinements", [base.mesh.refinements + k for k in range(study.levels)])]
     else:
@@ -167,36 +169,37 @@ def _with(data: Any, path: str, value: float) -> Any:
     return out
 
 
-def summary_values(summary: dict[str, Any]) -> dict[str, float]:
+def summary_values(summary: SteadySummary | TransientSummary) -> dict[str, float]:
     """Flat numeric values of a job summary for tables and plots (transient: means and amplitudes)."""
     out: dict[str, float] = {}
-    for body in summary.get("bodies", []):
-        for key, short in (("drag_coefficient", "cd"), ("lift_coefficient", "cl"), ("nusselt_number", "nu")):
-            v = body.get(key)
-            if isinstance(v, dict):
-                out[f"{body['name']}.{short}_mean"] = v["mean"]
-                out[f"{body['name']}.{short}_amplitude"] = v["amplitude"]
+    for body in summary.bodies:
+        for short, v in (("cd", body.drag_coefficient), ("cl", body.lift_coefficient), ("nu", body.nusselt_number)):
+            if isinstance(v, Stats):
+                out[f"{body.name}.{short}_mean"] = v.mean
+                out[f"{body.name}.{short}_amplitude"] = v.amplitude
             elif v is not None:
-                out[f"{body['name']}.{short}"] = v
-    dp = summary.get("pressure_drop")
-    if isinstance(dp, dict):
-        out["pressure_drop_mean"] = dp["mean"]
+                out[f"{body.name}.{short}"] = v
+    dp = summary.pressure_drop
+    if isinstance(dp, Stats):
+        out["pressure_drop_mean"] = dp.mean
     elif dp is not None:
         out["pressure_drop"] = dp
-    if summary.get("strouhal_number") is not None:
-        out["strouhal_number"] = summary["strouhal_number"]
+    if isinstance(summary, TransientSummary) and summary.strouhal_number is not None:
+        out["strouhal_number"] = summary.strouhal_number
     return out
 
 
-def convergence(summaries: list[dict[str, Any]], area: float) -> dict[str, dict[str, float | bool | str | None]]:
+def convergence(
+    summaries: list[SteadySummary | TransientSummary], area: float
+) -> dict[str, dict[str, float | bool | str | None]]:
     """Grid convergence of every summary value from the three finest of ``summaries`` (any order).
 
     The representative cell size is ``sqrt(area / cells)`` (Celik et al. 2008).
     """
-    ranked = sorted(summaries, key=lambda s: -s["mesh"]["cells"])[:3]
+    ranked = sorted(summaries, key=lambda s: -s.mesh.cells)[:3]
     if len(ranked) < 3:
         return {}
-    h = tuple(math.sqrt(area / s["mesh"]["cells"]) for s in ranked)
+    h = tuple(math.sqrt(area / s.mesh.cells) for s in ranked)
     values = [summary_values(s) for s in ranked]
     out = {}
     for key in values[0]:

@@ -67,7 +67,8 @@ class QuadratureOperators:
                 c.append(np.broadcast_to(basis.element_dofs[j][:, None], (nelem, nqp)))
                 d.append(pick(field[0]))
             mats.append(sp.csr_matrix((np.ravel(d), (np.ravel(r), np.ravel(c))), shape=(nelem * nqp, basis.N)))
-        return cls(*mats, weights=basis.dx.ravel())
+        value, ddx, ddy = mats
+        return cls(value, ddx, ddy, weights=basis.dx.ravel())
 
     def convection(
         self, ux: np.ndarray, uy: np.ndarray, ax: np.ndarray | None = None, ay: np.ndarray | None = None

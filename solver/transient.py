@@ -188,6 +188,7 @@ class Stepper:
 
     def _implicit(self, alpha: float, rhs: np.ndarray, bc: np.ndarray, advecting: np.ndarray) -> np.ndarray:
         ns = self.ns
+        assert self.factoriser is not None, "made for the implicit scheme"
         A = ns.th.saddle_point(alpha * ns.th.mass + ns.oseen_blocks(advecting))
         self.factoriser.factor(A)
         self.stats.factorisations += 1

@@ -73,7 +73,6 @@ def grid_convergence(
     p = new
     extrapolated = (r21**p * p1 - p2) / (r21**p - 1)
     approx = _relative(p1 - p2, p1)
-    reason = None if p1 else "the finest-grid value is 0: errors relative to it (and the GCI) are undefined"
     return GridConvergence(
         observed_order=p,
         extrapolated=extrapolated,
@@ -81,7 +80,7 @@ def grid_convergence(
         extrapolated_error=_relative(extrapolated - p1, extrapolated),
         gci_fine=safety_factor * approx / (r21**p - 1),
         monotone=ratio > 0,
-        reason=reason,
+        reason=None if p1 else "the finest-grid value is 0: errors relative to it (and the GCI) are undefined",
     )
 
 

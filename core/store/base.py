@@ -2,9 +2,17 @@
 
 from __future__ import annotations
 
+from typing import Any, cast
+
 from sqlalchemy import text
-from sqlalchemy.engine import Engine
+from sqlalchemy.engine import CursorResult, Engine, Result
 from sqlalchemy.orm import Session, sessionmaker
+
+
+def changed(result: Result[Any]) -> int:
+    """Rows an UPDATE or DELETE changed (SQLAlchemy types ``Session.execute`` as a ``Result``; a DML statement
+    returns the ``CursorResult`` that counts them)."""
+    return cast(CursorResult[Any], result).rowcount
 
 
 class Repository:

@@ -9,13 +9,13 @@ from __future__ import annotations
 
 import uuid
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, cast
 
-from sqlalchemy import bindparam, delete, func, insert, select, text, update
+from sqlalchemy import Table, bindparam, delete, func, insert, select, text, update
 from sqlalchemy.engine import Connection, Row
 
 from ..states import ACTIVE, JobState
-from .base import Repository
+from .base import Repository, changed
 from .models import Job, JobTag
 from .values import utcnow
 
@@ -32,7 +32,7 @@ class Provenance:
 
 
 # Statements built once (their SQL is compiled and cached once too) for the per-request look-ups.
-JOBS = Job.__table__
+JOBS = cast(Table, Job.__table__)  # declared as a FromClause; a mapped class's table is a Table
 _READ = select(JOBS).where(JOBS.c.id == bindparam("job_id"))
 _RESULT = (
     select(JOBS)
@@ -103,15 +103,17 @@ class Jobs(Repository):
             job.started_at = job.finished_at = now
             job.progress_fraction, job.progress_step, job.progress_time = 1.0, src.progress_step, src.progress_time
         values = {c.key: getattr(job, c.key) for c in JOBS.columns if c.key != "seq"}
-        capped = cap is not None and job.state == JobState.QUEUED
+        limit = cap if job.state == JobState.QUEUED else None
         with self.engine.begin() as conn:  # Core, not the unit of work: creation is a hot path
-            if capped:
+            if limit is not None:
                 _lock_owner(conn, owner)
-            job.seq = conn.execute(insert(JOBS), values).inserted_primary_key[0]
-            if capped and (active := conn.scalar(_ACTIVE, {"owner": owner}) or 0) > cap:
-                raise OverCap(owner, active - 1, cap)  # rolls the insert back
+            key = conn.execute(insert(JOBS), values).inserted_primary_key
+            assert key is not None  # a one-row INSERT always has its key
+            job.seq = key[0]
+            if limit is not None and (active := conn.scalar(_ACTIVE, {"owner": owner}) or 0) > limit:
+                raise OverCap(owner, active - 1, limit)  # rolls the insert back
             if tags:
-                conn.execute(insert(JobTag.__table__), [{"job_seq": job.seq, "tag": t} for t in set(tags)])
+                conn.execute(insert(cast(Table, JobTag.__table__)), [{"job_seq": job.seq, "tag": t} for t in set(tags)])
         return job
 
     def find_result(self, spec_hash: str) -> Row[Any] | None:
@@ -151,16 +153,18 @@ class Jobs(Repository):
     def cancel(self, job_id: str) -> str | None:
         """Cancel a queued job at once, flag a running one for its worker; returns the new state."""
         with self.session.begin() as s:
-            done = s.execute(
-                update(Job)
-                .where(Job.id == job_id, Job.state == JobState.QUEUED)
-                .values(
-                    state=JobState.CANCELLED,
-                    cancel_requested=True,
-                    finished_at=utcnow(),
-                    error="cancelled before it started",
+            done = changed(
+                s.execute(
+                    update(Job)
+                    .where(Job.id == job_id, Job.state == JobState.QUEUED)
+                    .values(
+                        state=JobState.CANCELLED,
+                        cancel_requested=True,
+                        finished_at=utcnow(),
+                        error="cancelled before it started",
+                    )
                 )
-            ).rowcount
+            )
             if not done:
                 s.execute(
                     update(Job).where(Job.id == job_id, Job.state == JobState.RUNNING).values(cancel_requested=True)

@@ -15,7 +15,7 @@ from typing import Any
 from sqlalchemy import case, delete, func, select, update
 
 from ..states import JobState
-from .base import Repository
+from .base import Repository, changed
 from .models import Job, WorkerSeen
 from .values import utcnow
 
@@ -58,19 +58,21 @@ class Leases(Repository):
                 if job_id is None:
                     return None
                 claim, now = secrets.token_hex(16), utcnow()
-                won = s.execute(
-                    update(Job)
-                    .where(Job.id == job_id, Job.state == JobState.QUEUED)
-                    .values(
-                        state=JobState.RUNNING,
-                        claim=claim,
-                        attempts=Job.attempts + 1,
-                        worker_host=host,
-                        started_at=func.coalesce(Job.started_at, now),
-                        heartbeat_at=now,
-                        eta_seconds=None,
+                won = changed(
+                    s.execute(
+                        update(Job)
+                        .where(Job.id == job_id, Job.state == JobState.QUEUED)
+                        .values(
+                            state=JobState.RUNNING,
+                            claim=claim,
+                            attempts=Job.attempts + 1,
+                            worker_host=host,
+                            started_at=func.coalesce(Job.started_at, now),
+                            heartbeat_at=now,
+                            eta_seconds=None,
+                        )
                     )
-                ).rowcount
+                )
                 if won:
                     job = s.scalar(select(Job).where(Job.id == job_id))
                     assert job is not None  # claimed in this transaction
@@ -81,11 +83,13 @@ class Leases(Repository):
         """Record progress; returns (still ours, cancel requested)."""
         with self.session.begin() as s:
             ours = (
-                s.execute(
-                    update(Job)
-                    .where(Job.id == job_id, Job.claim == claim, Job.state == JobState.RUNNING)
-                    .values(heartbeat_at=utcnow(), **values)
-                ).rowcount
+                changed(
+                    s.execute(
+                        update(Job)
+                        .where(Job.id == job_id, Job.claim == claim, Job.state == JobState.RUNNING)
+                        .values(heartbeat_at=utcnow(), **values)
+                    )
+                )
                 == 1
             )
             cancel = bool(s.scalar(select(Job.cancel_requested).where(Job.id == job_id)))
@@ -111,14 +115,14 @@ class Leases(Repository):
         }
         with self.session.begin() as s:
             mine = (Job.id == job_id, Job.claim == claim, Job.state == JobState.RUNNING)
-            return s.execute(update(Job).where(*mine).values(**values)).rowcount == 1
+            return changed(s.execute(update(Job).where(*mine).values(**values))) == 1
 
     def release(self, job_id: str, claim: str) -> bool:
         """Hand a job back to the queue because its worker is shutting down (not the job's fault: the attempt is
         not counted); it resumes from its last checkpoint."""
         with self.session.begin() as s:
             mine = (Job.id == job_id, Job.claim == claim, Job.state == JobState.RUNNING)
-            return s.execute(update(Job).where(*mine).values(**_RELEASED)).rowcount == 1
+            return changed(s.execute(update(Job).where(*mine).values(**_RELEASED))) == 1
 
     def release_hosts(self, hosts: list[str]) -> list[str]:
         """After a supervisor stopped its worker processes (``host:pid`` names): re-queue the jobs they still held,
@@ -161,7 +165,7 @@ class Leases(Repository):
                 values = {"state": JobState.QUEUED, "claim": None, "eta_seconds": None}
             with self.session.begin() as s:
                 mine = (Job.id == job_id, Job.claim == claim, Job.state == JobState.RUNNING)
-                won = s.execute(update(Job).where(*mine).values(**values)).rowcount
+                won = changed(s.execute(update(Job).where(*mine).values(**values)))
             if won and values["state"] == JobState.QUEUED:
                 requeued.append(job_id)
         return requeued
@@ -169,7 +173,7 @@ class Leases(Repository):
     # --- worker processes' liveness (for health and the lease's wake-ups) --------------------------------
     def worker_alive(self, name: str) -> None:
         with self.session.begin() as s:
-            if not s.execute(update(WorkerSeen).where(WorkerSeen.name == name).values(seen_at=utcnow())).rowcount:
+            if not changed(s.execute(update(WorkerSeen).where(WorkerSeen.name == name).values(seen_at=utcnow()))):
                 s.add(WorkerSeen(name=name, seen_at=utcnow()))
 
     def worker_gone(self, name: str) -> None:

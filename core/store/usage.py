@@ -11,7 +11,7 @@ from datetime import datetime
 from sqlalchemy import bindparam, case, func, or_, select, update
 
 from ..states import FINISHED, JobState
-from .base import Repository
+from .base import Repository, changed
 from .models import Job
 from .values import utcnow
 
@@ -44,12 +44,13 @@ class Usage(Repository):
     def disk_use(self, owner: str) -> int:
         """Bytes of result files ``owner``'s jobs take, as last measured."""
         with self.engine.connect() as conn:
-            return int(conn.scalar(_USE, {"owner": owner}) or 0)
+            used: int | None = conn.scalar(_USE, {"owner": owner})
+            return 0 if used is None else int(used)
 
     def disk_use_by_owner(self) -> dict[str, int]:
         q = select(Job.owner, func.coalesce(func.sum(Job.disk_bytes), 0)).group_by(Job.owner)
         with self.engine.connect() as conn:
-            return {owner: int(n) for owner, n in conn.execute(q)}
+            return {owner: 0 if n is None else int(n) for owner, n in conn.execute(q)}
 
     def to_trim(self, finished_before: datetime, limit: int = 500) -> list[str]:
         """Finished jobs older than the retention time whose fields are still there, oldest first."""
@@ -71,4 +72,4 @@ class Usage(Repository):
                 .where(Job.id == job_id, Job.state.in_(FINISHED), Job.trimmed_at.is_(None))
                 .values(trimmed_at=utcnow(), disk_bytes=None)
             )
-            return done.rowcount == 1
+            return changed(done) == 1

@@ -34,6 +34,10 @@ def test_submit_runs_to_success_with_files(service: TestClient) -> None:
     summary = service.get(files["summary.json"]["url"])
     assert summary.headers["content-type"] == "application/json"
     assert json.loads(summary.content)["steps"] == 30 and json.loads(summary.content)["caution"] == CAUTION
+    # the job, read or listed, carries summary.json's keys and values, no more (the response model adds no nulls)
+    assert job["summary"] == json.loads(summary.content)
+    listed = service.get("/api/v1/jobs", params={"tag": "duct"}).json()["jobs"]
+    assert [j["summary"] for j in listed if j["id"] == job["id"]] == [job["summary"]]
     assert service.get(files["forces.png"]["url"]).content[:4] == b"\x89PNG"
     archive = zipfile.ZipFile(io.BytesIO(service.get(files["fields.zip"]["url"]).content))
     assert "flow.pvd" in archive.namelist() and sum(n.endswith(".vtu") for n in archive.namelist()) == 4
@@ -112,3 +116,15 @@ def test_divergence_fails_with_the_solvers_explanation(service: TestClient) -> N
     assert job["state"] == "failed" and "CFL number" in job["error"] and "analysis.time_step" in job["error"]
     assert job["summary"] is None and job["attempts"] == 1
     assert service.get(f"{job['links']['files']}/forces.csv").status_code == 200  # the history so far is kept
+
+
+def test_openapi_documents_the_job_and_its_summary(offline: TestClient) -> None:
+    schemas = offline.get("/openapi.json").json()["components"]["schemas"]
+    summary = schemas["Job"]["properties"]["summary"]
+    assert {"#/components/schemas/SteadySummary", "#/components/schemas/TransientSummary"} <= {
+        option.get("$ref") for option in summary["anyOf"][0]["oneOf"]
+    }
+    assert "drag_coefficient" in schemas["TransientBody"]["properties"]
+    assert schemas["Stats"]["required"] == ["mean", "min", "max", "amplitude", "rms"]
+    read = offline.get("/openapi.json").json()["paths"]["/api/v1/jobs/{job_id}"]["get"]
+    assert read["responses"]["200"]["content"]["application/json"]["schema"] == {"$ref": "#/components/schemas/Job"}

@@ -35,9 +35,12 @@ def test_nul_anywhere_is_422_naming_where(client: TestClient) -> None:
     named = {**TINY, "bodies": [{**TINY["bodies"][0], "name": "p\x00ipe"}]}
     assert fields(client.post("/api/v1/jobs", json=named)) == ["bodies.0.name"]
     assert fields(client.post(f"/api/v1/jobs/{job_id}/clone", json={"title": "\x00"})) == ["title"]
+    sweep = {"kind": "sweep", "title": "a\x00", "base": TINY, "vary": [{"path": "inflow.peak_velocity", "values": [1]}]}
+    assert fields(client.post("/api/v1/studies", json=sweep)) == ["title"]
+    # with other problems, all at once
     assert fields(
         client.post("/api/v1/studies", json={"kind": "sweep", "title": "a\x00", "base": TINY, "vary": []})
-    ) == ["title"]
+    ) == ["(spec)", "title"]
     for url in (
         "/api/v1/jobs?tag=%00",
         "/api/v1/jobs?owner=a%00b",

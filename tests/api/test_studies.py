@@ -22,6 +22,7 @@ from tests.cli.test_cli import WAKEYARD, _free_port
 from tests.helpers import finished, wait_for
 from wakeyard.api.studies import fluid_area
 from wakeyard.solver.caution import CAUTION
+from wakeyard.solver.results import MeshSize, ReferenceScales, SteadyBody, SteadySummary, dump
 
 # the 2D-1 benchmark cylinder and fluid (Schäfer & Turek 1996) in a channel shortened to 1.0 (Re 20 at peak 0.3)
 STEADY: dict[str, Any] = {
@@ -31,6 +32,21 @@ STEADY: dict[str, Any] = {
     "fluid": {"density": 1.0, "viscosity": 1e-3},
     "mesh": {"preset": "coarse", "scale": 2.0},
 }
+
+
+def written(cells: int, pipe: dict[str, Any]) -> dict[str, Any]:
+    """A steady run's summary as the worker records it, with the given cell count and pipe values."""
+    summary = SteadySummary(
+        title="",
+        mode="steady",
+        elements="P2P1",
+        reynolds_number=20.0,
+        reference=ReferenceScales(velocity=0.2, lengths={"pipe": 0.1}),
+        mesh=MeshSize(cells=cells, dofs=5 * cells),
+        timings={},
+        bodies=[SteadyBody(fx=0.0, fy=0.0, recirculation_length=None, **pipe)],
+    )
+    return dump(summary)
 
 
 def steady(title: str, **inflow: float) -> dict[str, Any]:
@@ -165,10 +181,9 @@ def test_mesh_convergence_reports_order_extrapolation_and_gci(offline: TestClien
     for k in range(3):
         claimed = store.claim_next("test")
         cells = 1000 * 4**k
-        summary = {
-            "mesh": {"cells": cells},
-            "bodies": [{"name": "pipe", "drag_coefficient": 5.5 + 40 * area / cells, "lift_coefficient": 0.01}],
-        }
+        summary = written(
+            cells, {"name": "pipe", "drag_coefficient": 5.5 + 40 * area / cells, "lift_coefficient": 0.01}
+        )
         store.finish(claimed.id, claimed.claim, "succeeded", summary, progress={"progress_fraction": 1.0})
         study = offline.get(f"/api/v1/studies/{created['id']}").json()
         if k < 2:
@@ -192,7 +207,7 @@ def test_convergence_of_a_zero_or_non_shrinking_value_is_null_with_a_reason(offl
         claimed = store.claim_next("test")
         h2 = fluid_area(STEADY) / (1000 * 4**k)
         pipe = {"name": "pipe", "drag_coefficient": 5.5 + 0.1 * k, "lift_coefficient": 40 * h2 - 40 * h2 * (k == 2)}
-        store.finish(claimed.id, claimed.claim, "succeeded", {"mesh": {"cells": 1000 * 4**k}, "bodies": [pipe]})
+        store.finish(claimed.id, claimed.claim, "succeeded", written(1000 * 4**k, pipe))
     r = offline.get(f"/api/v1/studies/{created['id']}")
     assert r.status_code == 200, r.text
     cd, cl = r.json()["convergence"]["pipe.cd"], r.json()["convergence"]["pipe.cl"]

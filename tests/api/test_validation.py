@@ -16,6 +16,7 @@ from hypothesis import strategies as st
 from tests.helpers import TINY, tiny
 from wakeyard.api.app import WEB
 from wakeyard.api.auth import create_token
+from wakeyard.solver import SpecError, load
 from wakeyard.solver.caution import CAUTION
 
 
@@ -44,6 +45,35 @@ def test_bad_spec_is_422_naming_the_field(offline: TestClient, body: Any, field:
     assert r.status_code == 422
     assert field in fields(r)
     assert all(d["message"] for d in r.json()["detail"])
+
+
+def test_the_body_is_checked_as_the_solver_checks_a_spec_with_every_problem_at_once(offline: TestClient) -> None:
+    """The request body is typed as the spec model (so OpenAPI shows its schema); a 422 still names every problem,
+    the body's and the query's together, with the paths and messages of ``solver.load``."""
+    bad = {**TINY, "bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": -1}], "colour": "blue"}
+    with pytest.raises(SpecError) as solver_says:
+        load(bad)
+    r = offline.post("/api/v1/jobs", params={"fresh": "maybe"}, json=bad)
+    assert r.status_code == 422 and list(r.json()) == ["detail"]
+    found = [(d["field"], d["message"]) for d in r.json()["detail"]]
+    assert sorted(found[1:]) == sorted(solver_says.value.problems) and found[0][0] == "query.fresh"
+    # the geometry, checked after the fields, is the solver's too
+    inside = {**TINY, "probes": {"velocity": [[0.2, 0.2]]}}
+    assert fields(offline.post("/api/v1/jobs", json=inside)) == ["probes.velocity.0"]
+    assert offline.post("/api/v1/jobs", content=b"").json()["detail"] == [
+        {"field": "(body)", "message": "must be a JSON object, got nothing"}
+    ]
+    study = offline.post("/api/v1/studies", json={"kind": "sweep", "vary": [{"path": "x", "values": []}]})
+    assert study.status_code == 422 and fields(study) == ["vary.0.values"]
+    schema = offline.get("/openapi.json").json()
+    for path, model in (("/api/v1/jobs", "JobSpec"), ("/api/v1/studies", "StudySpec")):
+        operation = schema["paths"][path]["post"]
+        assert operation["requestBody"]["content"]["application/json"]["schema"] == {
+            "$ref": f"#/components/schemas/{model}"
+        }
+        refused = operation["responses"]["4XX"]["content"]["application/json"]["schema"]
+        assert refused == {"$ref": "#/components/schemas/Refused"}  # the one problem shape, FastAPI's own not shown
+    assert "HTTPValidationError" not in schema["components"]["schemas"]
 
 
 def test_malformed_json_is_422_not_500(offline: TestClient) -> None:

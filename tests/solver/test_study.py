@@ -3,6 +3,7 @@
 import pytest
 
 from wakeyard.solver import SpecError, load
+from wakeyard.solver.results import SteadySummary, TransientSummary
 from wakeyard.solver.study import expand, summary_values
 from wakeyard.solver.units import labelled, number_paths, spec_unit, value_unit
 
@@ -60,18 +61,36 @@ def test_bad_studies_name_the_field(study, field):
     assert field in dict(err.value.problems), err.value.problems
 
 
+HEAD = {
+    "title": "",
+    "elements": "P2P1",
+    "reynolds_number": 20.0,
+    "reference": {"velocity": 1.0, "lengths": {"a": 0.1}},
+    "mesh": {"cells": 100, "dofs": 1000},
+    "timings": {},
+}
+
+
+def _stats(mean: float, amplitude: float) -> dict[str, float]:
+    return {"mean": mean, "min": mean - amplitude, "max": mean + amplitude, "amplitude": amplitude, "rms": amplitude}
+
+
+def _steady(body: dict) -> SteadySummary:
+    values = {"fx": 0.0, "fy": 0.0, "lift_coefficient": 0.0, "recirculation_length": None}
+    return SteadySummary.model_validate({**HEAD, "mode": "steady", "bodies": [{**values, **body}]})
+
+
+def _transient(body: dict, **more) -> TransientSummary:
+    values = {"drag_coefficient": _stats(1.0, 0.0), "lift_coefficient": _stats(0.0, 0.0), "strouhal_number": None}
+    return TransientSummary.model_validate({**HEAD, "mode": "transient", "bodies": [{**values, **body}], **more})
+
+
 def test_summary_values_flatten_transient_statistics():
-    summary = {
-        "bodies": [
-            {
-                "name": "a",
-                "drag_coefficient": {"mean": 1.0, "amplitude": 0.1},
-                "lift_coefficient": {"mean": 0.0, "amplitude": 0.5},
-            }
-        ],
-        "pressure_drop": {"mean": 2.0},
-        "strouhal_number": 0.2,
-    }
+    summary = _transient(
+        {"name": "a", "drag_coefficient": _stats(1.0, 0.1), "lift_coefficient": _stats(0.0, 0.5)},
+        pressure_drop=_stats(2.0, 0.3),
+        strouhal_number=0.2,
+    )
     assert summary_values(summary) == {
         "a.cd_mean": 1.0,
         "a.cd_amplitude": 0.1,
@@ -125,7 +144,14 @@ def test_every_numeric_spec_field_has_a_unit_for_study_axes():
 
 
 def test_summary_values_carry_the_nusselt_number():
-    steady = {"bodies": [{"name": "rod", "drag_coefficient": 1.5, "lift_coefficient": 0.0, "nusselt_number": 2.4}]}
+    steady = _steady({"name": "rod", "drag_coefficient": 1.5, "nusselt_number": 2.4})
     assert summary_values(steady)["rod.nu"] == 2.4
-    transient = {"bodies": [{"name": "rod", "nusselt_number": {"mean": 5.1, "amplitude": 0.2}}]}
-    assert summary_values(transient) == {"rod.nu_mean": 5.1, "rod.nu_amplitude": 0.2}
+    transient = _transient({"name": "rod", "nusselt_number": _stats(5.1, 0.2)})
+    assert summary_values(transient) == {
+        "rod.cd_mean": 1.0,
+        "rod.cd_amplitude": 0.0,
+        "rod.cl_mean": 0.0,
+        "rod.cl_amplitude": 0.0,
+        "rod.nu_mean": 5.1,
+        "rod.nu_amplitude": 0.2,
+    }

@@ -71,6 +71,7 @@ def test_mesh_study_extrapolates_2d1_drag_towards_reference(tmp_path):
     # digits recalled (see tests/solver/test_benchmarks.py for the exact source note). The bounds below
     # (observed order > 2, GCI < 1e-4, extrapolation closer than the finest mesh) are project choices.
     from wakeyard.solver import run
+    from wakeyard.solver.results import parse
     from wakeyard.solver.study import convergence, expand
 
     reference = 5.57953523384
@@ -85,7 +86,7 @@ def test_mesh_study_extrapolates_2d1_drag_towards_reference(tmp_path):
     summaries = [run(spec, tmp_path / str(k)) for k, (_, spec) in enumerate(points)]
     cells = [s["mesh"]["cells"] for s in summaries]
     assert cells[1] == 4 * cells[0] and cells[2] == 4 * cells[1]  # constant refinement ratio 2
-    result = convergence(summaries, area=2.2 * 0.41 - math.pi * 0.05**2)["cylinder.cd"]
+    result = convergence([parse(s) for s in summaries], area=2.2 * 0.41 - math.pi * 0.05**2)["cylinder.cd"]
     finest = summaries[-1]["bodies"][0]["drag_coefficient"]
     assert abs(result["extrapolated"] - reference) < abs(finest - reference)
     assert result["observed_order"] > 2
