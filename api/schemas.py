@@ -39,6 +39,10 @@ class Job(BaseModel):
     summary: Summary | None = Field(description="summary.json of a succeeded run, null until then")
     error: str | None
     reused_from: str | None = Field(description="the job whose identical result this job reuses")
+    fields_removed_at: str | None = Field(
+        None,
+        description="when the retention rule removed the field files, pictures and checkpoint (kept: summary, forces)",
+    )
     study: str | None
     links: dict[str, str]
     caution: str
