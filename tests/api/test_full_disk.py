@@ -115,7 +115,8 @@ def test_below_the_free_space_threshold_running_jobs_finish_and_finished_ones_st
                 "succeeded"
             )
             before = digests(small_disk / "jobs" / done)
-            running = client.post("/jobs", json=tiny(end_time=1.5)).json()["id"]
+            # 3000 short steps: still running (seconds on a fast machine) while the disk fills and the refusal comes
+            running = client.post("/jobs", json=tiny(end_time=1.5, time_step=5e-4)).json()["id"]
             until(lambda: client.get(f"/jobs/{running}").json()["progress"]["step"] >= 5, timeout=120)
             free = shutil.disk_usage(small_disk).free
             (small_disk / "filler").write_bytes(b"\0" * (free - 16 * 2**20))  # 16 MiB left, under the 24 kept
