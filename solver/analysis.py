@@ -106,24 +106,57 @@ def is_periodic(t: np.ndarray, signal: np.ndarray, cycles: int, tolerance: float
     )
 
 
+DECAYING = 0.9  # amplitude ratio per cycle below which a lift oscillation is dying out, not shedding
+GROWING = 1.1  # and above which it is still growing towards its saturated state
+
+
+def cycle_amplitudes(t: np.ndarray, signal: np.ndarray, cycles: Cycles) -> np.ndarray:
+    """Half the peak-to-peak swing of ``signal`` within each whole cycle."""
+    return np.array([0.5 * np.ptp(signal[(t >= a) & (t <= b)]) for a, b in zip(cycles.starts[:-1], cycles.starts[1:])])
+
+
 def strouhal(t: np.ndarray, lift: np.ndarray, length: float, velocity: float) -> dict[str, float | str | None]:
-    """Shedding frequency from whole lift cycles; the spread of the periods states its resolution."""
+    """Shedding frequency from whole lift cycles; the spread of the periods states its resolution.
+
+    A lift oscillation that dies out cycle by cycle (the wake settling to a steady state, below the onset of
+    shedding) is not shedding: no Strouhal number then, and ``note`` says why. One still growing is reported,
+    with a note that the run may end before the oscillation saturates.
+
+    Examples
+    --------
+    >>> t = np.linspace(0.0, 20.0, 4001)
+    >>> round(strouhal(t, np.sin(2 * np.pi * t), 1.0, 1.0)["strouhal_number"], 6)
+    1.0
+    >>> dying = strouhal(t, np.exp(-0.5 * t) * np.sin(2 * np.pi * t), 1.0, 1.0)
+    >>> dying["strouhal_number"] is None, dying["note"][:31]
+    (True, 'the lift oscillation dies out: ')
+    """
     cycles = find_cycles(t, lift)
+    found: dict[str, float | str | None] = {
+        "strouhal_number": None,
+        "frequency": None,
+        "frequency_resolution": None,
+        "cycles": cycles.count,
+        "method": "up-crossings of the mean lift",
+    }
     if cycles.count < 2:
-        return {
-            "strouhal_number": None,
-            "frequency": None,
-            "frequency_resolution": None,
-            "cycles": cycles.count,
-            "method": "up-crossings of the mean lift",
-        }
+        return found
+    amplitudes = cycle_amplitudes(t, lift, cycles)[-min(5, cycles.count) :]
+    ratio = float((amplitudes[-1] / max(amplitudes[0], 1e-300)) ** (1.0 / (len(amplitudes) - 1)))
+    if ratio < DECAYING:
+        found["note"] = (
+            f"the lift oscillation dies out: its amplitude falls to {ratio:.2f} of itself each cycle, so the wake "
+            "settles to a steady state (no vortex shedding)"
+        )
+        return found
     last = cycles.periods[-min(5, cycles.count) :]
     f = 1.0 / float(last.mean())
     spread = float(last.std()) * f * f if len(last) > 1 else float(np.diff(t).max()) * f * f
-    return {
-        "strouhal_number": f * length / velocity,
-        "frequency": f,
-        "frequency_resolution": spread,
-        "cycles": int(len(last)),
-        "method": "up-crossings of the mean lift",
-    }
+    found |= {"strouhal_number": f * length / velocity, "frequency": f, "frequency_resolution": spread}
+    found["cycles"] = int(len(last))
+    if ratio > GROWING:
+        found["note"] = (
+            f"the lift oscillation still grows ({ratio:.2f} times each cycle): the shedding has not settled; a longer "
+            "run (or analysis.until_periodic) gives its saturated state"
+        )
+    return found

@@ -118,6 +118,7 @@ class Shedding(_Result):
     frequency_resolution: float | None = None
     cycles: int | None = None
     method: str | None = None
+    note: str | None = Field(None, description="why there is no Strouhal number, or why it is not settled yet")
 
 
 class Window(_Result):
