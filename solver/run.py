@@ -473,11 +473,15 @@ class _Transient:
                     strouhal_number=st["strouhal_number"],
                 )
             )
+            if st["strouhal_number"] is None and st.get("note"):  # an oscillation that dies out: say so
+                self.case.unavailable[f"bodies.{i}.strouhal_number"] = str(st["note"])
         shedding = (
             analysis.strouhal(t, lift_ref, spec.reference_length(0), spec.reference_velocity())
             if spec.bodies
             else {"strouhal_number": None}
         )
+        if shedding["strouhal_number"] is None and shedding.get("note"):
+            self.case.unavailable["strouhal_number"] = str(shedding["note"])
         pdrop = (
             analysis.window_stats(t[window], history["pressure_drop"][window]) if "pressure_drop" in history else None
         )
