@@ -7,7 +7,6 @@ from contextlib import asynccontextmanager
 from importlib import resources
 
 from fastapi import FastAPI
-from fastapi.staticfiles import StaticFiles
 
 from wakeyard import solver
 from wakeyard.core.broker import make_celery
@@ -31,6 +30,7 @@ from .dispatch import Dispatcher
 from .docs import install_docs
 from .limits import BodyLimit
 from .metrics import Timing, registry_for
+from .page_files import PageFiles
 from .problems import RESPONSES, install
 from .quota import Quota
 from .reaper import Reaper
@@ -89,5 +89,5 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     ):
         app.include_router(module.router)
     install_docs(app)
-    app.mount("/", StaticFiles(directory=str(WEB), html=True), name="web")
+    app.mount("/", PageFiles(directory=str(WEB), html=True), name="web")
     return app

@@ -202,6 +202,13 @@ def test_health_and_metrics_on_the_embedded_broker(offline: TestClient) -> None:
     assert "JobSpec" in offline.get("/openapi.json").json()["components"]["schemas"]
 
 
+def test_the_page_is_served_without_its_python_side(offline: TestClient) -> None:
+    assert offline.get("/").status_code == 200 and "<html" in offline.get("/").text.lower()
+    assert offline.get("/app.js").status_code == 200
+    for hidden in ("/__init__.py", "/__pycache__/__init__.cpython-311.pyc"):
+        assert offline.get(hidden).status_code == 404, hidden
+
+
 def test_the_page_reads_the_one_caution_from_the_service(offline: TestClient) -> None:
     assert offline.get("/api/v1/caution").json() == {"caution": CAUTION}
     page = [f for f in WEB.iterdir() if f.name.endswith((".html", ".js", ".css"))]
