@@ -85,14 +85,8 @@ class Heat(BaseModel):
 
     @model_validator(mode="after")
     def _properties(self) -> Heat:
-        given = (self.conductivity is not None, self.heat_capacity is not None)
-        if self.prandtl is not None and any(given):
-            raise ValueError("give either prandtl or conductivity and heat_capacity, not both")
-        if given == (True, False):
-            raise ValueError("conductivity needs heat_capacity too")
-        if given == (False, True):
-            raise ValueError("heat_capacity needs conductivity too")
-        if self.prandtl is None and not any(given):
+        """Water's properties when none are given; a wrong combination is :func:`check`'s to report, by field."""
+        if self.prandtl is None and self.conductivity is None and self.heat_capacity is None:
             self.conductivity = WATER_20C_THERMAL["conductivity"]
             self.heat_capacity = WATER_20C_THERMAL["heat_capacity"]
         return self
@@ -113,6 +107,8 @@ def check(heat: Heat | None, bodies: list[Any], viscosity: float, density: float
     'heat.walls.heat_flux'
     """
     problems: list[tuple[str, str]] = []
+    if heat is not None and (pair := _property_problems(heat)):
+        return pair
     if heat is None:
         for i, body in enumerate(bodies):
             if body.thermal is not None:
@@ -137,3 +133,15 @@ def check(heat: Heat | None, bodies: list[Any], viscosity: float, density: float
             )
         )
     return problems
+
+
+def _property_problems(heat: Heat) -> list[tuple[str, str]]:
+    """The fluid's thermal properties come as a Prandtl number or as conductivity and heat capacity together."""
+    given = (heat.conductivity is not None, heat.heat_capacity is not None)
+    if heat.prandtl is not None and any(given):
+        return [("heat.prandtl", "give either prandtl or conductivity and heat_capacity, not both")]
+    if given == (True, False):
+        return [("heat.heat_capacity", "needed with heat.conductivity (J/(kg K)); or give heat.prandtl alone")]
+    if given == (False, True):
+        return [("heat.conductivity", "needed with heat.heat_capacity (W/(m K)); or give heat.prandtl alone")]
+    return []

@@ -35,7 +35,9 @@ from . import published_cases as pc
         ({"heat": {"walls": "warm"}}, "heat.walls"),
         ({"heat": {"walls": {"temperature": 1e5}}}, "heat.walls.temperature"),
         ({"heat": {"prandtl": 1e9}}, "heat.prandtl"),
-        ({"heat": {"prandtl": 0.7, "conductivity": 0.6, "heat_capacity": 4000.0}}, "heat"),
+        ({"heat": {"prandtl": 0.7, "conductivity": 0.6, "heat_capacity": 4000.0}}, "heat.prandtl"),
+        ({"heat": {"conductivity": 0.6}}, "heat.heat_capacity"),  # the missing one is named
+        ({"heat": {"heat_capacity": 4000.0}}, "heat.conductivity"),
         ({"heat": {"conductivity": 1e-9, "heat_capacity": 1.0}}, "heat.conductivity"),
         ({"bodies": [{"shape": "circle", "thermal": {"temperature": 50.0}}]}, "bodies.0.thermal"),
         (
