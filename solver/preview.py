@@ -23,6 +23,7 @@ from . import meshing, picture_choice
 from .errors import SpecError
 from .limits import Limits, check_limits
 from .spec import ADAPTIVE, JobSpec, _check_geometry, _check_scales, _message, _path
+from .study import sweepable
 from .thermal import check as check_heat
 
 # Largest base mesh (cells before the uniform splits) a preview generates; gmsh makes about 1e5 cells a second
@@ -120,7 +121,8 @@ def _renumber(field: str, dropped: list[int]) -> str:
 
 
 def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
-    """The preview of a checked ``spec`` (``None`` when it has ``problems``)."""
+    """The preview of a checked ``spec`` (``None`` when it has ``problems``); ``sweepable`` lists the numeric fields
+    a study of it can vary (:func:`solver.study.sweepable`)."""
     out: dict[str, Any] = {
         "problems": [{"field": f, "message": m} for f, m in problems],
         "spec": None,
@@ -128,6 +130,7 @@ def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
         "blockage": None,
         "outlines": [],
         "estimate": None,
+        "sweepable": [],
     }
     if spec is None:
         return out
@@ -137,6 +140,7 @@ def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
         blockage=blockage(spec),
         outlines=[{"name": b.name, "points": b.outline(96).round(9).tolist()} for b in spec.bodies],
         estimate=estimate(spec),
+        sweepable=sweepable(spec),
     )
     return out
 
