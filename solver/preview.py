@@ -155,8 +155,9 @@ def blockage(spec: JobSpec) -> float:
     return covered / spec.channel.height
 
 
-def estimate(spec: JobSpec) -> dict[str, Any]:
-    """``cells``, ``dofs`` (unknowns), ``steps`` and ``seconds`` of a run, with how they were found."""
+def estimate(spec: JobSpec, dry_run: bool = True) -> dict[str, Any]:
+    """``cells``, ``dofs`` (unknowns), ``steps`` and ``seconds`` of a run, with how they were found (``dry_run``
+    False: the size rule alone, for a caller out of time)."""
     a = spec.analysis
     steps: int | None = None
     note = None
@@ -169,7 +170,7 @@ def estimate(spec: JobSpec) -> dict[str, Any]:
     size = meshing.sizes(spec)
     base_cells = meshing.estimate_cells(spec) / 4 ** (size.preset_splits + size.extra_splits)
     cells, dofs, method = meshing.estimate_cells(spec), meshing.estimate_dofs(spec), "rule"
-    if base_cells <= MAX_DRY_CELLS:
+    if dry_run and base_cells <= MAX_DRY_CELLS:
         try:
             vertices, edges, cells = _counts(_mesh_key(spec))
         except Exception as err:  # gmsh raises plain Exceptions; the run would meet the same failure

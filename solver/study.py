@@ -118,6 +118,8 @@ def expand(
         axes = [(v.path, v.points()) for v in study.vary]
         for i, (path, _) in enumerate(axes):
             _check_path(data, path, f"vary.{i}.path")
+            if i and path == axes[0][0]:
+                raise SpecError([(f"vary.{i}.path", f"{path!r} is already varied by vary.0: vary another field")])
     combos = list(itertools.product(*[vals for _, vals in axes]))
     if len(combos) > MAX_POINTS:
         raise SpecError([("vary", f"{len(combos)} points exceed the limit of {MAX_POINTS} per study")])

@@ -25,7 +25,8 @@ def preview_study(
     """``count``, ``points`` (``{values, reynolds, estimate}`` each) and ``total`` ``{cells, dofs, steps, seconds}``.
 
     ``steps`` totals only when every point knows its count (fixed steps), and ``seconds`` is null as in the job
-    preview. Checking and estimating stop with an error once ``time.monotonic()`` passes ``deadline``.
+    preview. Checking stops with an error once ``time.monotonic()`` passes ``deadline``; points estimated after it
+    get the size rule's figures instead of a dry run of the mesher (``estimate.method`` says which).
 
     Raises
     ------
@@ -41,16 +42,15 @@ def preview_study(
             problems += [(f"points.{k}.{f}", f"{m} (at {values})") for f, m in err.problems]
     if problems:
         raise SpecError(problems)
-    out: list[dict[str, Any]] = []
-    for k, (values, spec) in enumerate(points):
-        if time.monotonic() > deadline:
-            raise SpecError([("(body)", f"estimating took too long (stopped at point {k} of {len(points)})")])
-        out.append({"values": values, "reynolds": spec.reynolds(), "estimate": estimate(spec)})
-    steps = [p["estimate"]["steps"] for p in out]
+    estimates = [estimate(spec, time.monotonic() < deadline) for _, spec in points]
+    steps = [e["steps"] for e in estimates]
     total = {
-        "cells": sum(p["estimate"]["cells"] for p in out),
-        "dofs": sum(p["estimate"]["dofs"] for p in out),
+        "cells": sum(e["cells"] for e in estimates),
+        "dofs": sum(e["dofs"] for e in estimates),
         "steps": sum(steps) if all(s is not None for s in steps) else None,
         "seconds": None,
     }
+    out = [
+        {"values": values, "reynolds": spec.reynolds(), "estimate": e} for (values, spec), e in zip(points, estimates)
+    ]
     return {"count": len(out), "points": out, "total": total}

@@ -116,10 +116,9 @@ export class StudyBuilder {
     if (this.title.value.trim()) out.title = this.title.value.trim();
     if (this.kind !== "sweep") return {study: {...out, levels: Number(this.levels.value)}, problems: []};
     const problems = [];
-    const number = (input, what) => {
-      const text = input.value.trim();
-      const x = Number(text);
-      if (text === "" || !Number.isFinite(x)) problems.push(`${what}: “${text}” is not a number`);
+    const number = (text, what) => {
+      const x = Number(text.trim());
+      if (text.trim() === "" || !Number.isFinite(x)) problems.push(`${what}: “${text.trim()}” is not a number`);
       return x;
     };
     out.vary = [];
@@ -129,17 +128,20 @@ export class StudyBuilder {
       if (a.how.value === "values") {
         const parts = a.values.value.split(/[\s,;]+/).filter(Boolean);
         if (!parts.length) problems.push(`${what}: give at least one value`);
-        out.vary.push({path: a.field.value, values: parts.map((t) => number({value: t}, `${what} values`))});
+        out.vary.push({path: a.field.value, values: parts.map((t) => number(t, `${what} values`))});
       } else {
-        out.vary.push({path: a.field.value, range: {start: number(a.start, `${what} start`),
-          stop: number(a.stop, `${what} end`), count: Number(a.count.value), spacing: a.how.value}});
+        out.vary.push({path: a.field.value, range: {start: number(a.start.value, `${what} start`),
+          stop: number(a.stop.value, `${what} end`), count: Number(a.count.value), spacing: a.how.value}});
       }
     });
     return {study: out, problems};
   }
 
+  /** Queueing needs a preview of exactly this study: any edit here or in the New-case form asks for a new one. */
   stale() {
-    this.queueButton.disabled = this.previewed === null || this.previewed !== JSON.stringify(this.study().study);
+    const current = this.previewed !== null && this.previewed === JSON.stringify(this.study().study);
+    this.queueButton.disabled = !current;
+    this.out.classList.toggle("outdated", this.previewed !== null && !current);
   }
 
   async preview() {

@@ -66,6 +66,8 @@ def test_bad_studies_are_refused_naming_the_field(offline: TestClient) -> None:
     assert refused(
         {"base": {**BASE, "fluid": {"viscosity": "thin"}}, "vary": [{"path": "mesh.scale", "values": [1]}]}
     ) == ["base.fluid.viscosity"]
+    twice = [{"path": "mesh.scale", "values": [1, 2]}, {"path": "mesh.scale", "values": [3]}]
+    assert refused({"base": BASE, "vary": twice}) == ["vary.1.path"]
     # the service's size limits, as queueing would apply them (this service allows 10 000 steps)
     analysis = {"mode": "transient", "scheme": "bdf2-imex", "time_step": 1e-3, "end_time": 5.0}
     study = {"base": {**BASE, "analysis": analysis}, "vary": [{"path": "analysis.end_time", "values": [5.0, 20.0]}]}

@@ -67,6 +67,22 @@ def test_a_sweep_is_built_previewed_and_queued_from_the_page(page, api) -> None:
     expect(page.locator("#study-queue")).to_be_enabled()
     shot(page, "14-study-builder")
 
+    # a second field as a geometric range: every combination, the range expanded by the service
+    page.locator("#study-field-1").select_option("fluid.viscosity")
+    page.locator("#study-how-1").select_option("geometric")
+    page.locator("#study-start-1").fill("0.001")
+    page.locator("#study-stop-1").fill("0.004")
+    page.locator("#study-count-1").fill("3")
+    expect(page.locator("#study-queue")).to_be_disabled()
+    expect(page.locator("#study-preview-out")).to_have_class(re.compile("outdated"))
+    page.locator("#study-preview").click()
+    expect(page.locator("#study-total")).to_contain_text("6 points")
+    nus = page.locator("table.study-plan tbody tr td:nth-child(2)").all_inner_texts()
+    assert sorted({float(v) for v in nus}) == [0.001, 0.002, 0.004]
+    page.locator("#study-field-1").select_option("")
+    page.locator("#study-preview").click()
+    expect(page.locator("#study-total")).to_contain_text("2 points")
+
     # an edit after the preview asks for a new one before queueing
     page.locator("#study-title").fill("Pier, two river speeds")
     expect(page.locator("#study-queue")).to_be_disabled()
