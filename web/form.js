@@ -101,7 +101,9 @@ export class CaseForm {
           placeholder: "e.g. study-a, mesh-check", oninput: (e) => {
             this.tags = e.target.value;
           }}), {hint: "Comma-separated labels to find the job later."}),
-        h("button", {type: "submit", class: "btn btn-primary", id: "submit-case"}, "Queue this case")));
+        h("div", {class: "button-row"},
+          h("button", {type: "submit", class: "btn btn-primary", id: "submit-case"}, "Queue this case"),
+          h("a", {href: "#/studies", class: "btn", id: "study-this-case"}, "Build a study on this case…"))));
     this.drawing = new CaseDrawing(this.drawingHost, {onMove: (i, dx, dy) => this.moveBody(i, dx, dy)});
     this.renderFields();
     this.update();

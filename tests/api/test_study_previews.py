@@ -79,3 +79,9 @@ def test_the_job_preview_offers_the_sweepable_fields(offline: TestClient) -> Non
     assert fields["fluid.viscosity"] == {"path": "fluid.viscosity", "value": 1e-3, "unit": "m^2/s"}
     assert fields["bodies.0.radius"]["unit"] == "m" and "inflow.peak_velocity" in fields
     assert "title" not in fields and not any(p.startswith("probes.") for p in fields)
+
+
+def test_openapi_documents_the_study_preview(offline: TestClient) -> None:
+    op = offline.get("/openapi.json").json()["paths"]["/api/v1/studies/previews"]["post"]
+    assert op["requestBody"]["content"]["application/json"]["schema"]["$ref"] == "#/components/schemas/StudySpec"
+    assert "4XX" in op["responses"] and "total" in op["description"]

@@ -29,7 +29,7 @@ def test_a_sweep_is_built_previewed_and_queued_from_the_page(page, api) -> None:
     page.locator("#spec-json").fill(json.dumps(PIER))
     page.get_by_role("button", name="Apply JSON to form").click()
     expect(page.locator("#f-title")).to_have_value(PIER["title"])
-    page.goto("/#/studies")
+    page.locator("#study-this-case").click()
     expect(page.locator("#study-base")).to_contain_text(PIER["title"])
     # the fields offered are the service's list for this case (the body's radius among them)
     field = page.locator("#study-field-0")
