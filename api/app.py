@@ -23,6 +23,7 @@ from . import (
     routes_previews,
     routes_spectrum,
     routes_studies,
+    routes_study_previews,
     routes_tokens,
     routes_usage,
 )
@@ -82,6 +83,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         routes_previews,
         routes_files,
         routes_spectrum,
+        routes_study_previews,
         routes_studies,
         routes_tokens,
         routes_usage,

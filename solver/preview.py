@@ -23,6 +23,7 @@ from . import meshing, picture_choice
 from .errors import SpecError
 from .limits import Limits, check_limits
 from .spec import ADAPTIVE, JobSpec, _check_geometry, _check_scales, _message, _path
+from .study import sweepable
 from .thermal import check as check_heat
 
 # Largest base mesh (cells before the uniform splits) a preview generates; gmsh makes about 1e5 cells a second
@@ -120,7 +121,8 @@ def _renumber(field: str, dropped: list[int]) -> str:
 
 
 def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
-    """The preview of a checked ``spec`` (``None`` when it has ``problems``)."""
+    """The preview of a checked ``spec`` (``None`` when it has ``problems``); ``sweepable`` lists the numeric fields
+    a study of it can vary (:func:`solver.study.sweepable`)."""
     out: dict[str, Any] = {
         "problems": [{"field": f, "message": m} for f, m in problems],
         "spec": None,
@@ -128,6 +130,7 @@ def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
         "blockage": None,
         "outlines": [],
         "estimate": None,
+        "sweepable": [],
     }
     if spec is None:
         return out
@@ -137,6 +140,7 @@ def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
         blockage=blockage(spec),
         outlines=[{"name": b.name, "points": b.outline(96).round(9).tolist()} for b in spec.bodies],
         estimate=estimate(spec),
+        sweepable=sweepable(spec),
     )
     return out
 
@@ -151,8 +155,9 @@ def blockage(spec: JobSpec) -> float:
     return covered / spec.channel.height
 
 
-def estimate(spec: JobSpec) -> dict[str, Any]:
-    """``cells``, ``dofs`` (unknowns), ``steps`` and ``seconds`` of a run, with how they were found."""
+def estimate(spec: JobSpec, dry_run: bool = True) -> dict[str, Any]:
+    """``cells``, ``dofs`` (unknowns), ``steps`` and ``seconds`` of a run, with how they were found (``dry_run``
+    False: the size rule alone, for a caller out of time)."""
     a = spec.analysis
     steps: int | None = None
     note = None
@@ -165,7 +170,7 @@ def estimate(spec: JobSpec) -> dict[str, Any]:
     size = meshing.sizes(spec)
     base_cells = meshing.estimate_cells(spec) / 4 ** (size.preset_splits + size.extra_splits)
     cells, dofs, method = meshing.estimate_cells(spec), meshing.estimate_dofs(spec), "rule"
-    if base_cells <= MAX_DRY_CELLS:
+    if dry_run and base_cells <= MAX_DRY_CELLS:
         try:
             vertices, edges, cells = _counts(_mesh_key(spec))
         except Exception as err:  # gmsh raises plain Exceptions; the run would meet the same failure

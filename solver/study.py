@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import itertools
 import math
+import re
 import time
 from collections.abc import Callable
 from typing import Any, Literal
@@ -19,6 +20,7 @@ from pydantic import Field, ValidationError, model_validator
 from .errors import SpecError
 from .results import Stats, SteadySummary, TransientSummary
 from .spec import JobSpec, _message, _Model, _path, load
+from .units import number_paths, spec_unit
 from .verification import grid_convergence
 
 
@@ -116,6 +118,8 @@ def expand(
         axes = [(v.path, v.points()) for v in study.vary]
         for i, (path, _) in enumerate(axes):
             _check_path(data, path, f"vary.{i}.path")
+            if i and path == axes[0][0]:
+                raise SpecError([(f"vary.{i}.path", f"{path!r} is already varied by vary.0: vary another field")])
     combos = list(itertools.product(*[vals for _, vals in axes]))
     if len(combos) > MAX_POINTS:
         raise SpecError([("vary", f"{len(combos)} points exceed the limit of {MAX_POINTS} per study")])
@@ -144,6 +148,27 @@ def expand(
     if problems:
         raise SpecError(problems)
     return points
+
+
+# Numbers of a case a sweep offers to vary: polygon vertices, time-law points and probe positions are lists a user
+# edits as a whole, not single knobs (a sweep may still name any numeric field by its path).
+_NOT_OFFERED = ("bodies.*.points.", "inflow.time_law.points.", "probes.")
+
+
+def sweepable(spec: JobSpec) -> list[dict[str, Any]]:
+    """The numeric fields of ``spec`` a sweep can vary: ``{path, value, unit}`` for every number of the normalised
+    spec that has a unit, in the spec's own order (the page offers these; it keeps no list of its own)."""
+    data = spec.model_dump(mode="json")
+    out = []
+    for path in number_paths(data):
+        generic = re.sub(r"\.\d+(?=\.|$)", ".*", path)
+        if any(generic.startswith(p) for p in _NOT_OFFERED) or (unit := spec_unit(path)) is None:
+            continue
+        node: Any = data
+        for part in path.split("."):
+            node = node[int(part)] if isinstance(node, list) else node[part]
+        out.append({"path": path, "value": node, "unit": unit})
+    return out
 
 
 def _check_path(data: dict[str, Any], path: str, where: str) -> None:

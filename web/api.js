@@ -133,7 +133,10 @@ export const api = {
   },
   spectrum: (id) => request("GET", `/jobs/${encodeURIComponent(id)}/spectrum`),
   fileBlob: (id, path) => request("GET", `/jobs/${encodeURIComponent(id)}/files/${path}`, {raw: true}).then((r) => r.blob()),
+  me: () => request("GET", "/me"),
   listStudies: () => request("GET", "/studies"),
+  previewStudy: (study, signal) => request("POST", "/studies/previews", {body: study, signal}),
+  createStudy: (study) => request("POST", "/studies", {body: study}),
   getStudy: (id, signal) => request("GET", `/studies/${encodeURIComponent(id)}`, {signal}),
   cancelStudy: (id) => request("POST", `/studies/${encodeURIComponent(id)}/cancel`),
   studyBlob: (id, path, query) => request("GET", `/studies/${encodeURIComponent(id)}/${path}`, {raw: true, query})

@@ -6,6 +6,8 @@ import {CaseForm} from "./form.js";
 import {JobView} from "./job.js";
 import {QueueView, picked} from "./queue.js";
 import {StudiesView} from "./studies.js";
+import {StudyBuilder} from "./study_form.js";
+import {sizeText} from "./results.js";
 import {toast} from "./util.js";
 
 const views = {
@@ -33,7 +35,10 @@ const form = new CaseForm(views.new, {onQueued: (created) => {
 const queue = new QueueView(views.queue, {onEdit: editJob});
 const jobView = new JobView(views.job, {onEdit: editJob});
 const compare = new CompareView(views.compare);
-const studies = new StudiesView(views.studies);
+const builder = new StudyBuilder({baseCase: () => form.currentSpec(), onQueued: (created) => {
+  location.hash = `#/studies/${created.id}`;
+}});
+const studies = new StudiesView(views.studies, {builder});
 
 function route() {
   const hash = location.hash || "#/queue";
@@ -80,6 +85,7 @@ document.getElementById("token-form").addEventListener("submit", (e) => {
   showTokenState();
   toast(getToken() ? "Token saved." : "Token removed.");
   route();
+  usage();
 });
 document.getElementById("token-forget").addEventListener("click", () => {
   tokenInput.value = "";
@@ -119,8 +125,25 @@ api.caution().then((c) => {
   /* the views show it again with every result */
 });
 
+// ---- the caller's disk use against the quota (GET /api/v1/me), in the footer ----
+async function usage() {
+  const foot = document.getElementById("usage-foot");
+  try {
+    const me = await api.me();
+    const {used_bytes: used, quota_bytes: quota} = me.disk;
+    foot.textContent = `Signed in as ${me.name} · disk used: ${sizeText(used)}` +
+      (quota ? ` of ${sizeText(quota)} (${Math.round((100 * used) / quota)} %)` : " (no quota)");
+    foot.hidden = false;
+  } catch {
+    foot.hidden = true; // no token yet, or the service is down: the health dot says so
+  }
+}
+usage();
+
 setInterval(() => {
-  if (!document.hidden) health();
+  if (document.hidden) return;
+  health();
+  usage();
 }, 30000);
 
 window.addEventListener("hashchange", route);

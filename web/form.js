@@ -18,6 +18,12 @@ const isNum = (v) => typeof v === "number" && Number.isFinite(v);
 
 /** Seconds per (unknown × step) measured on succeeded jobs of this server; set by the queue view. */
 export const calibration = {rate: null, jobs: 0};
+/** A run's time from the preview's estimate and this server's measured rate (null when either is unknown). */
+export function roughSeconds(estimate, transient) {
+  if (!calibration.rate || !estimate?.dofs || (transient && !estimate.steps)) return null;
+  return estimate.dofs * (transient ? estimate.steps : 15) * calibration.rate;
+}
+
 const PREVIEW_DELAY = 300; // ms of quiet typing before the service is asked for the figures
 
 export class CaseForm {
@@ -95,7 +101,9 @@ export class CaseForm {
           placeholder: "e.g. study-a, mesh-check", oninput: (e) => {
             this.tags = e.target.value;
           }}), {hint: "Comma-separated labels to find the job later."}),
-        h("button", {type: "submit", class: "btn btn-primary", id: "submit-case"}, "Queue this case")));
+        h("div", {class: "button-row"},
+          h("button", {type: "submit", class: "btn btn-primary", id: "submit-case"}, "Queue this case"),
+          h("a", {href: "#/studies", class: "btn", id: "study-this-case"}, "Build a study on this case…"))));
     this.drawing = new CaseDrawing(this.drawingHost, {onMove: (i, dx, dy) => this.moveBody(i, dx, dy)});
     this.renderFields();
     this.update();
@@ -497,9 +505,9 @@ export class CaseForm {
         ? `every ${ordinal(every)} of ${integer(snapshots)} snapshots: at most ${cap} per field, evenly spread`
         : `one per snapshot (at most ${cap} per field)`]);
     }
-    if (calibration.rate && e?.dofs && (!transient || e.steps)) {
-      const work = e.dofs * (transient ? e.steps : 15);
-      items.push(["Run time, roughly", duration(work * calibration.rate), `from ${calibration.jobs} succeeded job(s) on this server`]);
+    const seconds = roughSeconds(e, transient);
+    if (seconds !== null) {
+      items.push(["Run time, roughly", duration(seconds), `from ${calibration.jobs} succeeded job(s) on this server`]);
     }
     if (isNum(p?.blockage) && p.blockage > 0.5) {
       warnings.push({message: `The bodies block ${num(100 * p.blockage, 3)} % of the channel: the walls will dominate the forces.`});

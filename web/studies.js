@@ -1,12 +1,14 @@
-// Studies: the list of parameter studies, and one study's points, plots and grid convergence.
+// Studies: a new study built on the New-case form's case (study_form.js), the list of parameter studies, and one
+// study's points, plots and grid convergence.
 
 import {ACTIVE, api} from "./api.js";
 import {caution} from "./results.js";
 import {fill, h, num, shortId, toast, when} from "./util.js";
 
 export class StudiesView {
-  constructor(root) {
+  constructor(root, {builder}) {
     this.root = root;
+    this.builder = builder;
     this.timer = null;
     this.plotUrl = null;
   }
@@ -26,6 +28,7 @@ export class StudiesView {
   }
 
   async showList() {
+    this.builder.refresh();
     const {studies} = await api.listStudies();
     const rows = studies.map((s) => h("tr", {},
       h("td", {}, h("a", {href: `#/studies/${s.id}`}, s.title || shortId(s.id))),
@@ -35,8 +38,9 @@ export class StudiesView {
       h("td", {}, s.owner), h("td", {}, when(s.created_at))));
     fill(this.root,
       h("h2", {}, "Studies"),
-      h("p", {class: "hint"}, "Sweeps and mesh-convergence studies are submitted with POST /api/v1/studies or " +
-        "`wakeyard study`; each point is an ordinary job in the queue."),
+      this.builder.el,
+      h("p", {class: "hint"}, "Each point of a study is an ordinary job in the queue. Scripts submit studies with " +
+        "POST /api/v1/studies or `wakeyard study`."),
       studies.length ? h("table", {class: "table studies-table"},
         h("thead", {}, h("tr", {}, ...["Study", "Kind", "Varied", "State", "Progress", "Points", "Owner",
           "Submitted"].map((t) => h("th", {scope: "col"}, t)))),

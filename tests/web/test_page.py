@@ -425,6 +425,7 @@ def test_phone_width_has_no_sideways_scrolling(browser, base_url, api, pair) -> 
             ("new", "#/new", ".case-svg g.body"),
             ("queue", "#/queue", "table.jobs tbody tr"),
             ("job", f"#/jobs/{pair[0]}", "#force-chart path.series"),
+            ("studies", "#/studies", "#study-base a"),
         ):
             page.goto(f"/{view}")
             expect(page.locator(ready).first).to_be_visible()
