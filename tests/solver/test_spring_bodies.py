@@ -83,7 +83,7 @@ def test_a_heavy_spring_mounted_tube_knocked_in_still_water_rings_at_its_natural
     swings at f_n sqrt(1 - zeta^2), lowered further by the added mass to f_n / sqrt(1 + C_a / m*) (C_a = 1 for a
     circle in unbounded potential flow, a classical result: 5e-5 here), and each cycle shrinks by the logarithmic
     decrement 2 pi zeta / sqrt(1 - zeta^2). The steps (50 per natural period) lose 0.3 % of the amplitude and 0.5 %
-    of the frequency per period to BDF2 itself; measured: decrement within 0.4 %, period within 0.5 %."""
+    of the frequency per period to BDF2 itself; measured: decrement 0.3 % and frequency 0.5 % low."""
     zeta, fn = 0.05, 1.0
     summary = run(still_water(spring(natural_frequency=fn, damping_ratio=zeta), 6.0), tmp_path)
     columns, data = read_forces(tmp_path / "forces.csv")
@@ -120,3 +120,25 @@ def test_a_resumed_run_with_a_spring_mounted_body_repeats_the_whole_run_bit_for_
     assert (tmp_path / "parts" / "forces.csv").read_bytes() == (tmp_path / "whole" / "forces.csv").read_bytes()
     _, data = read_forces(tmp_path / "whole" / "forces.csv")
     assert np.abs(data[:, -2]).max() > 0  # the body did move
+
+
+def test_a_light_spring_mounted_tube_stays_stable_and_swings_slower_by_its_added_mass(tmp_path):
+    """m* = 2, no structural damping: the fluid's added mass (about half the body's) would make plain repeats of
+    the coupling diverge; the relaxed ones settle. In still water the tube then swings at f_n / sqrt(1 + k / m*),
+    with k the in-phase coefficient of a circle oscillating in viscous fluid, from the expansion in the Stokes number
+    beta = D^2 f / nu by Wang (1968, J. Fluid Mech. 32:55; recalled from memory, as in test_moving_bodies):
+    k = 1 + 4 (pi beta)^(-1/2) + (pi beta)^(-3/2), tending to the potential-flow added mass (k = 1) as beta grows.
+    Here beta is about 320, k = 1.126 and f / f_n = 0.800; the tank's sides (5 D from the tube) raise k by about
+    2 %. Measured: 0.792 (-1.1 %), asked within 2 %. The out-of-phase (damping) part is not checked: this coarse
+    mesh does not resolve the Stokes layer (0.03 D thick), and the measured decrement (0.104) is 20 % below the
+    expansion's 0.131."""
+    fn, mass_ratio = 1.0, 2.0
+    run(still_water(spring(natural_frequency=fn, mass_ratio=mass_ratio, damping_ratio=0.0), 4.2), tmp_path)
+    _, data = read_forces(tmp_path / "forces.csv")
+    when, height = peaks(data[:, 0], data[:, -2])
+    when = when[when > 1.0]
+    assert len(when) >= 3
+    beta = D**2 * 0.8 * fn / 1e-6
+    k = 1 + 4 * (math.pi * beta) ** -0.5 + (math.pi * beta) ** -1.5
+    assert 1 / np.diff(when).mean() / fn == pytest.approx(1 / math.sqrt(1 + k / mass_ratio), rel=0.02)
+    assert np.abs(data[:, -2]).max() < 0.1 * D  # small: the linear theory holds
