@@ -7,6 +7,10 @@ from about U* = 4.5 to 7 with amplitude ratios of about 0.5-0.6 inside it and th
 above it amplitudes of a few hundredths.
 
     python bench/spring_bench.py [--end 150] [--scale 1.0] [U* ...]     # default U* = 5
+
+Measured (--end 120 --scale 1.5, U* = 5, one core shared with other work): the shedding set in after about
+40 D/U, the amplitude grew through 0.25 D at 80 D/U to A/D = 0.501 over the last cycles, f/f_n = 0.959,
+2251 steps, 497 s.
 """
 
 from __future__ import annotations
