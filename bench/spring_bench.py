@@ -6,11 +6,11 @@ response frequency over the natural frequency in vacuum, the steps and the wall 
 from about U* = 4.5 to 7 with amplitude ratios of about 0.5-0.6 inside it and the frequency ratio near 1; below and
 above it amplitudes of a few hundredths.
 
-    python bench/spring_bench.py [--end 150] [--scale 1.0] [U* ...]     # default U* = 5
+    python bench/spring_bench.py [--end 180] [--scale 1.0] [U* ...]     # default U* = 5
 
-Measured (--end 120 --scale 1.5, U* = 5, one core shared with other work): the shedding set in after about
-40 D/U, the amplitude grew through 0.25 D at 80 D/U to A/D = 0.501 over the last cycles, f/f_n = 0.959,
-2251 steps, 497 s.
+Measured (--scale 1.5, U* = 5, one core shared with other work): the shedding set in after about 40 D/U and the
+amplitude grew through 0.25 D at 80 D/U; with --end 120: A/D = 0.501 (still growing), f/f_n = 0.959, 2251 steps,
+497 s; with --end 180: A/D = 0.555 (settled from about 150 D/U), f/f_n = 0.976, 3663 steps, 733 s.
 """
 
 from __future__ import annotations
@@ -52,7 +52,7 @@ def spec(reduced_velocity: float, end: float, scale: float) -> dict:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("reduced_velocities", nargs="*", type=float, default=[5.0])
-    parser.add_argument("--end", type=float, default=150.0, help="simulated time in convective units D/U")
+    parser.add_argument("--end", type=float, default=180.0, help="simulated time in convective units D/U")
     parser.add_argument("--scale", type=float, default=1.0, help="mesh scale (larger: coarser)")
     args = parser.parse_args()
     print(f"Re 100, m* = 10, zeta = 0, {args.end:g} D/U, mesh scale {args.scale:g}")
