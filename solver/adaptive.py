@@ -34,6 +34,7 @@ import scipy.sparse as sp
 from .errors import Diverged
 from .linear import RepeatedSolver
 from .navier_stokes import NavierStokes
+from .spring import MAX_REPEATS, SpringCoupling, aitken
 from .stepsize import PIController
 from .transient import StepResult, StepStatistics, bdf2_coefficients
 
@@ -41,6 +42,8 @@ LINEAR_SHARE = 0.3  # the linear solve's remaining error, as a share of the step
 RENEW_AFTER = 20  # corrections beyond the first of each step, since the last factorisation, that buy a new one
 MAX_CORRECTIONS = 4
 SMALLEST_STEP = 1e-9  # in units of the convective time L/U
+COUPLING_TOLERANCE = 1e-6  # a spring body's guess holds when its response moves it less than this share
+SMALLEST_MOTION = 1e-12  # ... of its largest displacement, or of this share of the reference length
 MAX_CFL = 2.0  # largest CFL number of a step: beyond it the error estimate misses how convection is resolved
 
 
@@ -88,8 +91,9 @@ class AdaptiveBDF2:
         first_step: float,
         breakpoints: list[float] | None = None,
         cfl: Callable[[np.ndarray, float], float] | None = None,
+        springs: SpringCoupling | None = None,
     ):
-        self.ns, self.accuracy, self.scales = ns, accuracy, scales
+        self.ns, self.accuracy, self.scales, self.springs = ns, accuracy, scales, springs
         th = ns.th
         zero = sp.csr_matrix((th.npr, th.npr))
         self.mass = sp.block_diag([th.mass, th.mass, zero], format="csr")
@@ -104,6 +108,7 @@ class AdaptiveBDF2:
         self.solver = RepeatedSolver(ns.free)
         self.factored_alpha: float | None = None  # None: factor before the next solve
         self.extra_corrections = 0
+        self.trial_springs = np.zeros(0)  # the spring-mounted bodies' state of the step being tried
 
     @property
     def x(self) -> np.ndarray:
@@ -116,6 +121,8 @@ class AdaptiveBDF2:
         stop = min(t_end, later[0]) if len(later) else t_end
         if self.cfl is not None:  # from the current velocity, as the step starts
             self.h = min(self.h, MAX_CFL / max(self.cfl(self.x, 1.0), 1e-300))
+        if self.springs is not None:
+            self.h = min(self.h, self.springs.longest_step())
         while True:
             h = self._clipped(self.h, stop)
             if h < SMALLEST_STEP * self.scales.time:
@@ -123,8 +130,8 @@ class AdaptiveBDF2:
                     f"the error control could not meet analysis.accuracy = {self.accuracy:g} at t = {self.t:.6g} s "
                     f"with steps above {h:.3g} s: check the inflow's time law for jumps, or try a larger accuracy"
                 )
-            attempt = self._attempt(h)
-            if attempt is None:  # the linear solve failed
+            attempt = self._attempt(h) if self.springs is None else self._coupled_attempt(h)
+            if attempt is None:  # the linear solve failed, or the body coupling did not settle
                 self.stats.rejected += 1
                 self.h = 0.25 * h
                 continue
@@ -144,6 +151,8 @@ class AdaptiveBDF2:
         """Start afresh from the newest level, as at a breakpoint: one backward Euler step, a short step."""
         self.t = t
         self.levels, self.steps = self.levels[:1], []
+        if self.springs is not None:
+            self.springs.restart()
         self.h = min(self.h, self.first_step)
         self.controller.previous_error = None
 
@@ -153,18 +162,67 @@ class AdaptiveBDF2:
             return left
         return 0.5 * left if h > 0.5 * left else h  # two halves rather than a sliver at the end
 
+    def _coefficients(self, h: float) -> tuple[float, float, float]:
+        """BDF2 weights of this step (backward Euler while there is no older level)."""
+        return bdf2_coefficients(h / self.steps[0]) if len(self.levels) > 1 else (1.0, -1.0, 0.0)
+
+    def _milne(self, h: float) -> float:
+        """The factor that turns (solution - predictor) into the local error (needs three levels)."""
+        a0, a1, a2 = self._coefficients(h)
+        h1, h2 = self.steps
+        corrector = (a1 * h**3 + a2 * (h + h1) ** 3) / (6 * a0)
+        extrapolation = -h * (h + h1) * (h + h1 + h2) / 6
+        return corrector / (corrector - extrapolation)
+
+    def _coupled_attempt(self, h: float) -> tuple[StepResult, float | None] | None:
+        """A step with spring-mounted bodies: guess their displacement, solve the flow on the mesh moved there,
+        let the fluid's force drive the bodies, repeat (Aitken-relaxed) until the guess holds (:mod:`solver.spring`).
+
+        The bodies' velocities join the error estimate, relative to U like the flow's."""
+        springs = self.springs
+        assert springs is not None
+        a0, a1, a2 = self._coefficients(h)
+        y0 = springs.levels[0]
+        if len(springs.levels) == 3:
+            guess_state = self._quadratic(springs.levels, h)
+        else:
+            guess_state = y0.copy()
+            guess_state[0::4] += h * y0[2::4]
+            guess_state[1::4] += h * y0[3::4]
+        guess = springs.begin(h, a0, a1, a2, guess_state)
+        omega, previous = springs.first_relaxation, None
+        for _ in range(MAX_REPEATS):
+            trial = springs.set_trial(guess)
+            self.ns.move_to(self.t + h, again=True)
+            attempt = self._attempt(h)
+            if attempt is None:
+                break
+            result, err = attempt
+            change = springs.respond(result.x, result.convection, result.dudt) - guess
+            scale = max(float(np.abs(guess).max()), SMALLEST_MOTION * self.scales.velocity * self.scales.time)
+            if float(np.abs(change).max()) <= COUPLING_TOLERANCE * scale:
+                self.trial_springs = trial
+                if err is not None and len(springs.levels) == 3:
+                    local = self._milne(h) * (trial - guess_state)
+                    velocities = np.concatenate([local[4 * k + 2 : 4 * k + 4] for k in range(len(springs.bodies))])
+                    err = max(err, self._rms(velocities) / (self.accuracy * h / self.scales.time))
+                return result, err
+            omega = aitken(omega, previous, change)
+            guess, previous = guess + omega * change, change
+        springs.restore_current()
+        return None
+
     def _attempt(self, h: float) -> tuple[StepResult, float | None] | None:
         if self.ns.moves:  # a moving mesh: this stage's equations live where the mesh is at its time
             self.ns.move_to(self.t + h)
             th = self.ns.th
             self.mass = sp.block_diag([th.mass, th.mass, sp.csr_matrix((th.npr, th.npr))], format="csr")
         x = self.levels[0]
+        a0, a1, a2 = self._coefficients(h)
         if len(self.levels) == 1:
-            a0, a1, a2 = 1.0, -1.0, 0.0  # backward Euler: no older level yet
             advecting = x
         else:
             ratio = h / self.steps[0]
-            a0, a1, a2 = bdf2_coefficients(ratio)
             advecting = (1 + ratio) * x - ratio * self.levels[1]
         older = self.levels[1] if len(self.levels) > 1 else x
         history = -(a1 * x + a2 * older) / h
@@ -177,17 +235,17 @@ class AdaptiveBDF2:
         dudt = alpha * solution - history
         err = None
         if len(self.levels) == 3:
-            h1, h2 = self.steps
-            corrector = (a1 * h**3 + a2 * (h + h1) ** 3) / (6 * a0)
-            extrapolation = -h * (h + h1) * (h + h1 + h2) / 6
-            local = corrector / (corrector - extrapolation) * (solution - predictor)
+            local = self._milne(h) * (solution - predictor)
             err = self._norm(local) / (self.accuracy * h / self.scales.time)
         return StepResult(solution, convection, dudt), err
 
     def _predictor(self, h: float) -> np.ndarray:
         """The quadratic through the last three levels, at the new time."""
+        return self._quadratic(self.levels, h)
+
+    def _quadratic(self, levels: list[np.ndarray], h: float) -> np.ndarray:
         h1, h2 = self.steps
-        x0, x1, x2 = self.levels
+        x0, x1, x2 = levels
         w0 = (h + h1) * (h + h1 + h2) / (h1 * (h1 + h2))
         w1 = -h * (h + h1 + h2) / (h1 * h2)
         w2 = h * (h + h1) / ((h1 + h2) * h2)
@@ -250,6 +308,8 @@ class AdaptiveBDF2:
     def _accept(self, x: np.ndarray, h: float) -> None:
         self.levels = [x, *self.levels][:3]
         self.steps = [h, *self.steps][:2]
+        if self.springs is not None:
+            self.springs.accept(self.trial_springs)
         self.t += h
         self.n += 1
         self.stats.record(h)
@@ -274,9 +334,12 @@ class AdaptiveBDF2:
             "clock": np.array([self.t, self.h, np.nan if previous is None else previous]),
             "step": np.array(self.n),
             **self.stats.state(),
+            **(self.springs.state() if self.springs is not None else {}),
         }
 
     def restore(self, state: dict[str, np.ndarray]) -> None:
+        if self.springs is not None:
+            self.springs.restore(state)
         count = int(state["level_count"])
         self.levels = [np.array(v) for v in state["levels"][:count]]
         self.steps = [float(h) for h in state["steps"][: max(count - 1, 0)]]

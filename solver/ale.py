@@ -22,23 +22,31 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import Protocol
 
 import numpy as np
 from skfem import MeshTri2, condense, solve
 
 from .boundary import Dirichlet
-from .motion import Mount
 from .navier_stokes import NavierStokes
 from .taylor_hood import TaylorHood
 
 
+class Law(Protocol):
+    """Where a moving body is: its displacement and velocity ``(x, y)`` at a stage's time."""
+
+    def offset(self, t: float) -> np.ndarray: ...
+
+    def rate(self, t: float) -> np.ndarray: ...
+
+
 @dataclass
 class MovingBody:
-    """One body that moves: its surface's velocity DoFs and its mount."""
+    """One body that moves: its surface's velocity DoFs and its law of motion (a driven mount, a spring body)."""
 
     name: str
     dofs: np.ndarray
-    mount: Mount
+    law: Law
 
 
 class MeshMotion:
@@ -52,6 +60,7 @@ class MeshMotion:
         self.reference = mesh
         self.curved = isinstance(mesh, MeshTri2)
         self.nodes = (mesh.doflocs if self.curved else mesh.p).copy()
+        self.start = th.velocity.doflocs.copy()  # where the velocity DoFs were meshed
         boundary = th.velocity.get_dofs(mesh.boundary_facets()).all()
         self.shapes = [self._harmonic(th, boundary, b.dofs) for b in bodies]
 
@@ -78,7 +87,7 @@ class MeshMotion:
         """The mesh with every node where it is at time ``t``."""
         nodes = self.nodes.copy()
         for body, phi in zip(self.bodies, self.shapes):
-            nodes += np.outer(body.mount.unit() * body.mount.displacement(t), self._node_values(phi))
+            nodes += np.outer(body.law.offset(t), self._node_values(phi))
         mesh = self.reference
         return MeshTri2(nodes, mesh.t) if self.curved else type(mesh)(nodes, mesh.t)
 
@@ -86,36 +95,35 @@ class MeshMotion:
         """The mesh velocity ``(w_x, w_y)`` on the velocity DoFs at time ``t``."""
         w = np.zeros((2, len(self.shapes[0]) if self.shapes else 0))
         for body, phi in zip(self.bodies, self.shapes):
-            w += np.outer(body.mount.unit() * body.mount.velocity(t), phi)
+            w += np.outer(body.law.rate(t), phi)
         return w[0], w[1]
 
     def displacement(self, body: int, t: float) -> np.ndarray:
         """``(dx, dy)`` of a moving body from its meshed position, m."""
-        mount = self.bodies[body].mount
-        return mount.unit() * mount.displacement(t)
+        return self.bodies[body].law.offset(t)
 
 
 @dataclass
 class MovingDirichlet(Dirichlet):
     """Prescribed values plus each moving body's velocity on its surface (no-slip on a moving wall)."""
 
-    motions: list[tuple[np.ndarray, Callable[[float], float]]] = field(default_factory=list)
+    motions: list[tuple[np.ndarray, np.ndarray, Callable[[float], np.ndarray]]] = field(default_factory=list)
 
     def values(self, t: float = 0.0) -> np.ndarray:
         x = super().values(t)
-        for pattern, rate in self.motions:
-            x += rate(t) * pattern
+        for along_x, along_y, rate in self.motions:
+            vx, vy = rate(t)
+            x += vx * along_x + vy * along_y
         return x
 
 
 def moving_conditions(th: TaylorHood, fixed: Dirichlet, bodies: list[MovingBody]) -> MovingDirichlet:
     """``fixed`` with each moving body's surface velocity added along its direction."""
-    motions: list[tuple[np.ndarray, Callable[[float], float]]] = []
+    motions: list[tuple[np.ndarray, np.ndarray, Callable[[float], np.ndarray]]] = []
     for body in bodies:
-        pattern = np.zeros(th.ndofs)
-        ex, ey = body.mount.unit()
-        pattern[body.dofs], pattern[th.nu + body.dofs] = ex, ey
-        motions.append((pattern, body.mount.velocity))
+        along_x, along_y = np.zeros(th.ndofs), np.zeros(th.ndofs)
+        along_x[body.dofs], along_y[th.nu + body.dofs] = 1.0, 1.0
+        motions.append((along_x, along_y, body.law.rate))
     return MovingDirichlet(fixed.dofs, fixed.steady, fixed.unsteady, fixed.factor, motions)
 
 
@@ -136,8 +144,9 @@ class MovingNavierStokes(NavierStokes):
     def moves(self) -> bool:
         return True
 
-    def move_to(self, t: float) -> None:
-        if t == self.mesh_time:
+    def move_to(self, t: float, again: bool = False) -> None:
+        """Move the mesh to time ``t``; ``again`` even when it is there already (a spring body's new guess)."""
+        if t == self.mesh_time and not again:
             return
         self.th.move(self.motion.mesh_at(t))
         self.stokes_matrix = self.th.saddle_point(self.viscosity * self.th.stiffness)

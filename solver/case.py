@@ -10,13 +10,15 @@ import numpy as np
 import scipy.sparse as sp
 
 from . import meshing
-from .ale import MeshMotion, MovingBody, MovingNavierStokes
+from .ale import Law, MeshMotion, MovingBody, MovingNavierStokes
 from .boundary import body_dofs, channel_conditions
 from .forces import BodyForces
+from .motion import SpringMount
 from .navier_stokes import NavierStokes
 from .output import force_columns
 from .probes import probe_matrix
 from .spec import JobSpec
+from .spring import SpringBody, SpringCoupling
 from .taylor_hood import TaylorHood
 
 
@@ -33,6 +35,7 @@ class Case:
     velocity_found: np.ndarray
     timings: dict[str, float] = field(default_factory=dict)
     unavailable: dict[str, str] = field(default_factory=dict)
+    springs: SpringCoupling | None = None
 
     @classmethod
     def build(cls, spec: JobSpec) -> Case:
@@ -42,12 +45,24 @@ class Case:
         th = TaylorHood(cm.mesh, spec.elements)
         surfaces = body_dofs(th, cm, spec)
         conditions = channel_conditions(th, cm, spec)
-        moving = [MovingBody(b.name, surfaces[b.name], b.mount) for b in spec.bodies if b.mount is not None]
+        rho, U = spec.fluid.density, spec.reference_velocity()
+        moving, springs = [], []
+        for i, b in enumerate(spec.bodies):
+            law: Law
+            if isinstance(b.mount, SpringMount):
+                outline = b.outline()
+                area = 0.5 * abs(float(np.cross(outline, np.roll(outline, -1, axis=0)).sum()))
+                law = SpringBody(b.name, b.mount, rho * area, b.mount.frequency(U, spec.reference_length(i)))
+                springs.append(law)
+            elif b.mount is not None:
+                law = b.mount
+            else:
+                continue
+            moving.append(MovingBody(b.name, surfaces[b.name], law))
         if moving:
             ns: NavierStokes = MovingNavierStokes(th, spec.viscosity(), conditions, MeshMotion(th, moving))
         else:
             ns = NavierStokes(th, spec.viscosity(), conditions)
-        rho, U = spec.fluid.density, spec.reference_velocity()
         forces = BodyForces(ns, surfaces, rho)
         scale = {b.name: 2.0 / (rho * U**2 * spec.reference_length(i)) for i, b in enumerate(spec.bodies)}
         unavailable: dict[str, str] = {}
@@ -79,6 +94,7 @@ class Case:
             velocity_found,
             {"mesh": t1 - t0, "setup": t2 - t1},
             unavailable,
+            SpringCoupling(springs, forces) if springs else None,
         )
 
     @property

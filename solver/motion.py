@@ -3,12 +3,17 @@
 A driven mount prescribes a harmonic translation ``s(t) = A sin(2 pi f t)`` along x or y. It starts from the
 body's meshed position with its full velocity ``2 pi f A`` (an impulsive start, like an inflow without a ramp),
 so the mean position is the meshed one and no start-up offset drifts into the statistics.
+
+A spring mount holds the body on linear springs and dampers along one or both axes; the body's motion comes from
+the fluid's force (:mod:`solver.spring`). Its stiffness and damping follow from the natural frequency in vacuum
+``f_n`` (the body's own, without the fluid's added mass) and the damping ratio: ``k = m (2 pi f_n)^2``,
+``c = 2 zeta m 2 pi f_n``, with ``m`` the mass ratio times the displaced fluid's mass (per unit length).
 """
 
 from __future__ import annotations
 
 import math
-from typing import Literal
+from typing import Annotated, Literal
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
@@ -43,8 +48,56 @@ class DrivenMount(BaseModel):
         omega = 2 * math.pi * self.frequency
         return self.amplitude * omega * math.cos(omega * t)
 
+    def offset(self, t: float) -> np.ndarray:
+        """``(dx, dy)`` from the meshed position, m."""
+        return self.unit() * self.displacement(t)
 
-Mount = DrivenMount
+    def rate(self, t: float) -> np.ndarray:
+        """``(vx, vy)``, m/s."""
+        return self.unit() * self.velocity(t)
+
+    def reach(self) -> float:
+        """The largest excursion the spec checks for room, m."""
+        return self.amplitude
+
+
+class SpringMount(BaseModel):
+    """Linear springs and dampers along the listed axes; the fluid's force moves the body."""
+
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+
+    kind: Literal["spring"] = "spring"
+    directions: list[Literal["x", "y"]] = Field(min_length=1, max_length=2, description="axes the body may move along")
+    mass_ratio: float = Field(gt=0, le=1e6, description="body mass over the mass of the fluid it displaces")
+    damping_ratio: float = Field(0.0, ge=0, lt=1, description="share of critical damping (in vacuum)")
+    reduced_velocity: float | None = Field(
+        None,
+        gt=0,
+        le=1e6,
+        description="U / (f_n L): reference velocity over natural frequency (in vacuum) times length",
+    )
+    natural_frequency: float | None = Field(None, gt=0, le=1e6, description="in vacuum, Hz")
+
+    def frequency(self, velocity: float, length: float) -> float:
+        """The natural frequency in vacuum f_n, Hz (the spec makes sure exactly one way to it is given)."""
+        if self.natural_frequency is not None:
+            return self.natural_frequency
+        assert self.reduced_velocity is not None
+        return velocity / (self.reduced_velocity * length)
+
+    def free(self) -> np.ndarray:
+        """1 for each axis the body may move along, 0 for the held ones."""
+        e = np.zeros(2)
+        for axis in self.directions:
+            e[AXES[axis]] = 1.0
+        return e
+
+    def reach(self) -> float:
+        """No excursion is known before the run: the body starts at rest where it is meshed."""
+        return 0.0
+
+
+Mount = Annotated[DrivenMount | SpringMount, Field(discriminator="kind")]
 
 
 def motion_summary(
@@ -53,15 +106,16 @@ def motion_summary(
     dy: np.ndarray,
     window: np.ndarray,
     reference_length: float,
-    driving_frequency: float | None,
+    base_frequency: float | None,
 ) -> dict[str, object]:
     """summary.json's ``motion`` of one moving body from its displacement history (m) at times ``t``.
 
     Each direction has, over the samples in ``window`` (the forces' analysis window), the time mean, the extremes,
     half the peak-to-peak swing (``amplitude``, m) and that swing over the reference length (``amplitude_ratio``).
     ``frequency`` is the response frequency, from whole cycles of the larger displacement component in the last
-    half of the record (``None`` with fewer than two); ``frequency_ratio`` divides it by the driving frequency of a
-    driven body (1 once the body follows its drive).
+    half of the record (``None`` with fewer than two); ``frequency_ratio`` divides it by ``base_frequency``: the
+    driving frequency of a driven body (1 once the body follows its drive), the natural frequency in vacuum of a
+    spring-mounted one (below 1 in still fluid, by the added mass).
     """
     out: dict[str, object] = {}
     tw = t[window]
@@ -78,5 +132,5 @@ def motion_summary(
     cycles = find_cycles(t, main)
     frequency = 1.0 / float(cycles.periods[-min(5, cycles.count) :].mean()) if cycles.count >= 2 else None
     out["frequency"] = frequency
-    out["frequency_ratio"] = frequency / driving_frequency if frequency and driving_frequency else None
+    out["frequency_ratio"] = frequency / base_frequency if frequency and base_frequency else None
     return out

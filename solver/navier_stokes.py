@@ -41,7 +41,7 @@ class NavierStokes:
         """Whether the mesh moves (then :meth:`move_to` must be called before each stage)."""
         return False
 
-    def move_to(self, t: float) -> None:
+    def move_to(self, t: float, again: bool = False) -> None:
         """Put the mesh where it is at time ``t``: a fixed mesh stays."""
 
     def stokes(self, t: float = 0.0) -> np.ndarray:

@@ -88,7 +88,9 @@ class Motion(_Result):
     x: MotionAxis
     y: MotionAxis
     frequency: float | None = Field(description="response frequency from whole cycles, Hz")
-    frequency_ratio: float | None = Field(description="response over driving frequency (driven bodies)")
+    frequency_ratio: float | None = Field(
+        description="response over driving frequency (driven bodies) or natural frequency in vacuum (spring-mounted)"
+    )
 
 
 class TransientBody(_Result):

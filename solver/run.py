@@ -20,10 +20,11 @@ from .caution import CAUTION
 from .errors import Cancelled, Diverged, InternalError, RunFailed, WallTimeExceeded
 from .heat_output import HeatRun
 from .mesh_picture import mesh_picture
-from .motion import motion_summary
+from .motion import DrivenMount, motion_summary
 from .recirculation import recirculation_length
 from .results import ForceHistory, Motion, Stats, SteadyBody, SteadySummary, TransientBody, TransientSummary
 from .spec import ADAPTIVE, JobSpec, load
+from .spring import SpringBody
 from .stages import failed_stage
 from .steady import solve_steady
 from .transient import Stepper
@@ -229,7 +230,8 @@ def _draw_pictures(case: Case, out: Path, steps: list[int]) -> None:
         if "points" in raw.files and case.motion is not None:  # a moving mesh: drawn where it was
             tri = pictures.triangulation(raw["points"], dofs)
             moved = case.motion.bodies
-            shifts = {b.name: case.motion.displacement(k, float(raw["time"])) for k, b in enumerate(moved)}
+            start = case.motion.start
+            shifts = {b.name: (raw["points"][:, b.dofs] - start[:, b.dofs]).mean(axis=1) for b in moved}
         for name in pictures.FIELDS:
             path = folder / f"{name}_{steps[i]:06d}.png"
             pictures.field_picture(path, case.spec, tri, f, name, limits[name], t, shifts)
@@ -359,7 +361,14 @@ class _Transient:
             first = a.time_step or FIRST_STEP * scales.time
             breakpoints = case.spec.inflow.breakpoints()
             return AdaptiveBDF2(
-                case.ns, x0, a.accuracy, scales, first_step=first, breakpoints=breakpoints, cfl=case.cfl
+                case.ns,
+                x0,
+                a.accuracy,
+                scales,
+                first_step=first,
+                breakpoints=breakpoints,
+                cfl=case.cfl,
+                springs=case.springs,
             )
         assert a.time_step is not None  # the spec requires one for the fixed-step schemes
         return Stepper(case.ns, a.scheme, a.time_step, x0, cfl=case.cfl)
@@ -412,7 +421,11 @@ class _Transient:
     def _blown_up(self, x: np.ndarray) -> bool:
         ux, uy, _ = self.case.th.split(x)
         spec = self.case.spec
-        moving = [2 * math.pi * b.mount.amplitude * b.mount.frequency for b in spec.bodies if b.mount]
+        moving = [
+            2 * math.pi * b.mount.amplitude * b.mount.frequency
+            for b in spec.bodies
+            if b.mount and b.mount.kind == "driven"
+        ]
         limit = 100 * max(spec.inflow.peak() * spec.inflow.time_law.nominal(), *moving, 1e-12)
         return bool(np.abs(ux).max() > limit or np.abs(uy).max() > limit)
 
@@ -451,7 +464,11 @@ class _Transient:
         for body in motion.bodies:
             i = index[body.name]
             dx, dy = history[f"{body.name}_dx"], history[f"{body.name}_dy"]
-            summary = motion_summary(t, dx, dy, window, spec.reference_length(i), body.mount.frequency)
+            mount = spec.bodies[i].mount
+            base = mount.frequency if isinstance(mount, DrivenMount) else None
+            if isinstance(body.law, SpringBody):
+                base = body.law.natural_frequency
+            summary = motion_summary(t, dx, dy, window, spec.reference_length(i), base)
             statistics["bodies"][i].motion = Motion.model_validate(summary)
 
     def _statistics(self, history: ForceHistory, whole_cycles: int) -> dict[str, Any]:

@@ -22,6 +22,7 @@ from pydantic_core import ErrorDetails
 
 from . import _polygons
 from .errors import SpecError
+from .motion import DrivenMount, SpringMount
 from .shapes import Body, Point
 from .thermal import Heat
 from .thermal import check as check_heat
@@ -328,11 +329,21 @@ def _check_motion(spec: JobSpec, outlines: list[np.ndarray]) -> list[tuple[str, 
         problems.append(("elements", "moving bodies (a mount) need the P2P1 elements"))
     if spec.heat is not None:
         problems.append(("heat", "heat transfer is not yet available with moving bodies (a mount)"))
+    for i in moving:
+        mount = spec.bodies[i].mount
+        if isinstance(mount, SpringMount) and (mount.reduced_velocity is None) == (mount.natural_frequency is None):
+            given = "both" if mount.reduced_velocity is not None else "neither"
+            problems.append(
+                (
+                    f"bodies.{i}.mount.reduced_velocity",
+                    f"give exactly one of reduced_velocity and natural_frequency (got {given})",
+                )
+            )
     L, H = spec.channel.length, spec.channel.height
 
     def extremes(i: int) -> list[np.ndarray]:
         mount = spec.bodies[i].mount
-        if mount is None:
+        if not isinstance(mount, DrivenMount):
             return [outlines[i]]
         shift = mount.amplitude * mount.unit()
         return [outlines[i] - shift, outlines[i] + shift]
@@ -344,7 +355,9 @@ def _check_motion(spec: JobSpec, outlines: list[np.ndarray]) -> list[tuple[str, 
     sides = ("the inlet", "the lower wall", "the outlet", "the upper wall")
     for i in moving:
         field = f"bodies.{i}.mount.amplitude"
-        name, amplitude = spec.bodies[i].name, spec.bodies[i].mount.amplitude  # type: ignore[union-attr]
+        name, amplitude = spec.bodies[i].name, spec.bodies[i].mount.reach()  # type: ignore[union-attr]
+        if amplitude == 0:  # a spring-mounted body starts at rest where it is meshed
+            continue
         rest = wall_gaps(outlines[i])
         moved = np.min([wall_gaps(p) for p in extremes(i)], axis=0)
         for k in np.nonzero(moved < KEEP_CLEARANCE * rest)[0]:
@@ -443,7 +456,7 @@ def problems_of(errors: Iterable[ErrorDetails], skip: int = 0) -> list[tuple[str
 
 def _path(loc: tuple[Any, ...]) -> str:
     # drop the discriminator tags pydantic inserts for tagged unions ("bodies.0.circle.radius")
-    parts = [str(p) for p in loc if p not in ("circle", "rectangle", "ellipse", "naca4", "polygon")]
+    parts = [str(p) for p in loc if p not in ("circle", "rectangle", "ellipse", "naca4", "polygon", "driven", "spring")]
     return ".".join(parts) or "(spec)"
 
 
