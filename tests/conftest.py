@@ -6,7 +6,13 @@ from collections.abc import Iterator
 
 import pytest
 
+from wakeyard.core.blas import one_blas_thread
+
 from . import servers
+
+# One BLAS/MKL thread in the test process, as the worker and `wakeyard run` have: PARDISO's threaded solves are not
+# bit-reproducible, and the resume tests compare a resumed run with an uninterrupted one bit for bit.
+one_blas_thread()
 
 pytest_plugins = ["tests.fixtures"]  # the service fixtures (stores, the API, a worker)
 
