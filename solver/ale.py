@@ -28,6 +28,7 @@ import numpy as np
 from skfem import MeshTri2, condense, solve
 
 from .boundary import Dirichlet
+from .errors import RunFailed
 from .navier_stokes import NavierStokes
 from .taylor_hood import TaylorHood
 
@@ -49,6 +50,10 @@ class MovingBody:
     law: Law
 
 
+class MeshTangled(RunFailed):
+    """A body moved so far that cells of the mesh following it turned over: the flow there cannot be computed."""
+
+
 class MeshMotion:
     """Node positions and mesh velocities of a mesh whose bodies move by their mounts."""
 
@@ -61,6 +66,7 @@ class MeshMotion:
         self.curved = isinstance(mesh, MeshTri2)
         self.nodes = (mesh.doflocs if self.curved else mesh.p).copy()
         self.start = th.velocity.doflocs.copy()  # where the velocity DoFs were meshed
+        self.orientation = np.sign(_signed_areas(self.nodes, mesh.t))  # a cell that flips it has turned over
         boundary = th.velocity.get_dofs(mesh.boundary_facets()).all()
         self.shapes = [self._harmonic(th, boundary, b.dofs) for b in bodies]
 
@@ -84,11 +90,17 @@ class MeshMotion:
         return phi if self.curved else phi[: self.nodes.shape[1]]
 
     def mesh_at(self, t: float):
-        """The mesh with every node where it is at time ``t``."""
+        """The mesh with every node where it is at time ``t``; :class:`MeshTangled` once a cell turns over."""
         nodes = self.nodes.copy()
         for body, phi in zip(self.bodies, self.shapes):
             nodes += np.outer(body.law.offset(t), self._node_values(phi))
         mesh = self.reference
+        if (_signed_areas(nodes, mesh.t) * self.orientation <= 0).any():
+            moved = ", ".join(f"{b.name} by ({d[0]:.3g}, {d[1]:.3g}) m" for b in self.bodies for d in [b.law.offset(t)])
+            raise MeshTangled(
+                f"at t = {t:.6g} s the moving bodies ({moved}) came so close to a wall or another body that the "
+                "mesh cannot follow (cells turned over): give the body more room, or a stiffer or more damped mount"
+            )
         return MeshTri2(nodes, mesh.t) if self.curved else type(mesh)(nodes, mesh.t)
 
     def velocity_at(self, t: float) -> tuple[np.ndarray, np.ndarray]:
@@ -101,6 +113,12 @@ class MeshMotion:
     def displacement(self, body: int, t: float) -> np.ndarray:
         """``(dx, dy)`` of a moving body from its meshed position, m."""
         return self.bodies[body].law.offset(t)
+
+
+def _signed_areas(nodes: np.ndarray, cells: np.ndarray) -> np.ndarray:
+    """Twice the signed area of each cell's vertex triangle (the vertices are the first nodes of a curved mesh)."""
+    a, b, c = (nodes[:, cells[k]] for k in range(3))
+    return (b[0] - a[0]) * (c[1] - a[1]) - (b[1] - a[1]) * (c[0] - a[0])
 
 
 @dataclass

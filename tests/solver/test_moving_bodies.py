@@ -9,6 +9,7 @@ import pytest
 
 from wakeyard.solver import SpecError, load, run
 from wakeyard.solver.adaptive import AdaptiveBDF2, Scales
+from wakeyard.solver.ale import MeshMotion, MeshTangled, MovingBody
 from wakeyard.solver.boundary import Dirichlet
 from wakeyard.solver.case import Case
 from wakeyard.solver.output import read_forces
@@ -253,3 +254,37 @@ def test_a_resumed_run_with_a_moving_body_repeats_the_whole_run_bit_for_bit(tmp_
     assert resumed["resumed_from_step"] == 10 and whole["steps"] > 15
     assert (tmp_path / "parts" / "forces.csv").read_bytes() == (tmp_path / "whole" / "forces.csv").read_bytes()
     assert resumed["bodies"][0]["motion"] == whole["bodies"][0]["motion"]
+
+
+class FarAway:
+    """A law of motion that carries its body a given distance along y (what a runaway spring body would do)."""
+
+    def __init__(self, distance):
+        self.distance = distance
+
+    def offset(self, t):
+        return np.array([0.0, self.distance * t])
+
+    def rate(self, t):
+        return np.array([0.0, self.distance])
+
+
+def test_a_body_driven_into_the_wall_stops_the_run_with_a_reason_instead_of_a_turned_over_mesh():
+    """The spec keeps driven bodies clear of walls; a spring body's swing is not known beforehand. A mesh whose cells
+    turn over would give a meaningless flow, so moving it there is refused with the body, its displacement and
+    advice."""
+    spec = load(
+        {
+            "channel": CHANNEL,
+            "bodies": [{"name": "tube", "shape": "circle", "center": [0.4, 0.25], "radius": 0.05}],
+            "mesh": {"preset": "coarse", "scale": 2.0},
+            "analysis": {"mode": "transient"},
+        }
+    )
+    case = Case.build(spec)
+    th = case.th
+    tube = th.velocity.get_dofs(case.mesh.facets["tube"]).all()
+    motion = MeshMotion(th, [MovingBody("tube", tube, FarAway(0.15))])
+    motion.mesh_at(0.5)  # 0.075 m of the 0.2 m gap to the wall: the mesh follows
+    with pytest.raises(MeshTangled, match=r"tube by \(0, 0.3\) m\).* mesh cannot follow"):
+        motion.mesh_at(2.0)  # 0.3 m: through the wall
