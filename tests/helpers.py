@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import copy
+import itertools
 import os
 import signal
 import subprocess
@@ -12,6 +13,7 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
+import pytest
 from fastapi.testclient import TestClient
 
 from wakeyard.core.migrate import migrate
@@ -40,6 +42,17 @@ TINY: dict[str, Any] = {
         "checkpoint_interval": 5,
     },
 }
+
+
+def interrupted_then_resumed(spec: dict[str, Any], folder: Path, steps: int) -> dict[str, Any]:
+    """Run ``spec`` into ``folder``, cancel it after ``steps`` steps, then run it again (it resumes from its last
+    checkpoint); the resumed run's summary."""
+    from wakeyard.solver import Cancelled, run
+
+    checks = itertools.count(1)
+    with pytest.raises(Cancelled):
+        run(spec, folder, should_stop=lambda: next(checks) > steps)
+    return run(spec, folder)
 
 
 def tiny(end_time: float = 0.3, **analysis: Any) -> dict[str, Any]:

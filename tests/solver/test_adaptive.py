@@ -10,6 +10,7 @@ sections III.5 and II.4; recalled). The accepted bands are project choices.
 import numpy as np
 import pytest
 
+from tests.helpers import interrupted_then_resumed
 from wakeyard.solver import SpecError, load, run
 from wakeyard.solver.adaptive import AdaptiveBDF2, Scales
 from wakeyard.solver.output import read_forces
@@ -78,15 +79,7 @@ def test_an_abrupt_inflow_change_runs_to_the_end_with_the_defaults(tmp_path):
 def test_adaptive_resume_is_bitwise_identical(tmp_path):
     spec = {**ROUGH, "analysis": {**ROUGH["analysis"], "end_time": 0.7}}
     whole = run(spec, tmp_path / "whole")
-    calls = {"n": 0}
-
-    def stop_at_some_point():
-        calls["n"] += 1
-        return calls["n"] > 37
-
-    with pytest.raises(Exception, match="cancelled"):
-        run(spec, tmp_path / "parts", should_stop=stop_at_some_point)
-    resumed = run(spec, tmp_path / "parts")
+    resumed = interrupted_then_resumed(spec, tmp_path / "parts", steps=37)
     assert resumed["resumed_from_step"] == 30
     assert (tmp_path / "parts" / "forces.csv").read_bytes() == (tmp_path / "whole" / "forces.csv").read_bytes()
     assert resumed["time_steps"] == whole["time_steps"]

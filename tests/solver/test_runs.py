@@ -1,5 +1,6 @@
 """Transient runs end to end: files, cancellation, resumption, divergence and the command line."""
 
+import copy
 import json
 import subprocess
 import sys
@@ -8,30 +9,16 @@ import time
 import numpy as np
 import pytest
 
+from tests.helpers import TINY
 from wakeyard.solver import Cancelled, Diverged, run
 from wakeyard.solver.caution import CAUTION
 from wakeyard.solver.output import read_forces
 from wakeyard.solver.units import number_paths, unit_of
 
-# The cylinder and fluid of the 2D-1 benchmark (Schäfer & Turek 1996) in a channel shortened to 1.0: a cheap Re-20
-# case whose behaviour is well known; no published value is checked in this file.
-SMALL = {
-    "title": "cylinder in a shortened 2D-1 channel (test)",
-    "channel": {"length": 1.0, "height": 0.41},
-    "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-    "fluid": {"density": 1.0, "viscosity": 1e-3},
-    "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2},
-    "mesh": {"preset": "coarse", "scale": 2.0},
-    "analysis": {
-        "mode": "transient",
-        "scheme": "bdf2-imex",
-        "time_step": 0.005,  # a largest CFL number of about 0.8: the fixed step is never split
-        "end_time": 0.3,
-        "output_interval": 0.1,
-        "checkpoint_interval": 5,
-    },
-    "probes": {"pressure_drop": [[0.1, 0.2], [0.3, 0.2]]},
-}
+# The tiny case of the service tests (tests/helpers.py) with a step that keeps the largest CFL number about 0.8 (the
+# fixed step is never split) and two pressure probes
+SMALL = copy.deepcopy(TINY) | {"probes": {"pressure_drop": [[0.1, 0.2], [0.3, 0.2]]}}
+SMALL["analysis"]["time_step"] = 0.005
 
 
 @pytest.fixture(scope="module")

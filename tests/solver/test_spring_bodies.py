@@ -5,6 +5,7 @@ import math
 import numpy as np
 import pytest
 
+from tests.helpers import interrupted_then_resumed
 from wakeyard.solver import SpecError, load, run
 from wakeyard.solver.output import read_forces
 
@@ -107,15 +108,7 @@ def test_a_resumed_run_with_a_spring_mounted_body_repeats_the_whole_run_bit_for_
     """The bodies' displacements and velocities are part of the checkpoint."""
     spec = still_water(spring(natural_frequency=2.0), 0.4, checkpoint_interval=5)
     whole = run(spec, tmp_path / "whole")
-    calls = {"n": 0}
-
-    def stop_at_some_point():
-        calls["n"] += 1
-        return calls["n"] > 12
-
-    with pytest.raises(Exception, match="cancelled"):
-        run(spec, tmp_path / "parts", should_stop=stop_at_some_point)
-    resumed = run(spec, tmp_path / "parts")
+    resumed = interrupted_then_resumed(spec, tmp_path / "parts", steps=12)
     assert resumed["resumed_from_step"] == 10 and whole["steps"] > 15
     assert (tmp_path / "parts" / "forces.csv").read_bytes() == (tmp_path / "whole" / "forces.csv").read_bytes()
     _, data = read_forces(tmp_path / "whole" / "forces.csv")

@@ -7,6 +7,7 @@ instead of starting one (the tests only talk HTTP, so any loopback service works
 from __future__ import annotations
 
 import contextlib
+import copy
 import os
 import shutil
 import signal
@@ -19,6 +20,8 @@ from pathlib import Path
 
 import httpx
 import pytest
+
+from tests import helpers
 
 ROOT = Path(__file__).resolve().parents[2]
 ARTIFACTS = ROOT / "test-artifacts" / "web"
@@ -34,23 +37,10 @@ CHROMIUM_ARGS = [
     "--disable-sync",
 ]
 
-# The small case of the tests: about a second of solving plus the pictures. The cylinder and fluid of the 2D-1
-# benchmark (Schäfer & Turek 1996) in a channel shortened to 1.0, a well-known Re-20 case (no published value used).
-TINY = {
-    "title": "Cylinder in a shortened 2D-1 channel (browser test)",
-    "channel": {"length": 1.0, "height": 0.41},
-    "bodies": [{"name": "pipe", "shape": "circle", "center": [0.2, 0.2], "radius": 0.05}],
-    "fluid": {"density": 1.0, "viscosity": 0.001},
-    "inflow": {"peak_velocity": 0.3, "ramp_time": 0.2},
-    "mesh": {"preset": "coarse", "scale": 2.0},
-    "analysis": {
-        "mode": "transient",
-        "scheme": "bdf2-imex",
-        "time_step": 0.01,
-        "end_time": 0.3,
-        "output_interval": 0.1,
-    },
-}
+# The small case of the tests (tests/helpers.py), about a second of solving plus the pictures; its own title, and
+# no checkpoints every few steps (the page shows what the form submitted)
+TINY = copy.deepcopy(helpers.TINY) | {"title": "Cylinder in a shortened 2D-1 channel (browser test)"}
+del TINY["analysis"]["checkpoint_interval"]
 
 
 def _free_port() -> int:
