@@ -167,7 +167,7 @@ class MovingNavierStokes(NavierStokes):
         if t == self.mesh_time and not again:
             return
         self.th.move(self.motion.mesh_at(t))
-        self.stokes_matrix = self.th.saddle_point(self.viscosity * self.th.stiffness)
+        self.stokes_matrix = self.th.saddle_point(self.viscosity * self.th.stiffness).tocsr()
         wx, wy = self.motion.velocity_at(t)
         self.mesh_velocity = np.concatenate([wx, wy, np.zeros(self.th.npr)])
         self.mesh_time = t

@@ -33,7 +33,7 @@ class NavierStokes:
         self.viscosity = viscosity
         self.dirichlet = dirichlet
         self.free = np.setdiff1d(np.arange(th.ndofs), dirichlet.dofs)
-        self.stokes_matrix = th.saddle_point(viscosity * th.stiffness)
+        self.stokes_matrix = th.saddle_point(viscosity * th.stiffness).tocsr()  # row-wise: faster products
         self.geometry_version = 0  # counts mesh moves, so precomputed functionals know when to refresh
 
     @property
