@@ -172,7 +172,7 @@ def list_jobs(
     tag: str | None = None,
     limit: Annotated[int, Query(ge=1, le=500)] = 50,
     cursor: Annotated[str | None, Query(description="next_cursor of the previous page")] = None,
-) -> dict[str, Any]:
+) -> JSONResponse:
     before = None
     if cursor is not None:  # ASCII digits only (int() takes other scripts' digits), within the column's range
         if not (cursor.isascii() and cursor.isdigit() and int(cursor) < MAX_CURSOR):
@@ -180,7 +180,8 @@ def list_jobs(
         before = int(cursor)
     jobs = store.list_jobs(state, owner, tag, limit, before)
     nxt = str(jobs[-1].seq) if len(jobs) == limit else None
-    return {"jobs": [view(j) for j in jobs], "next_cursor": nxt}
+    # stored as written (no re-validation): a summary an older release wrote still lists, as reading one job does
+    return JSONResponse({"jobs": [view(j) for j in jobs], "next_cursor": nxt})
 
 
 @router.get("/{job_id}", summary="Read one job", response_model=JobView)

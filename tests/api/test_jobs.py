@@ -12,6 +12,7 @@ from fastapi.testclient import TestClient
 
 from tests.helpers import finished, tiny, wait_for
 from wakeyard.core.store import Store
+from wakeyard.core.store.models import Job
 from wakeyard.solver.caution import CAUTION
 
 
@@ -128,3 +129,16 @@ def test_openapi_documents_the_job_and_its_summary(offline: TestClient) -> None:
     assert schemas["Stats"]["required"] == ["mean", "min", "max", "amplitude", "rms"]
     read = offline.get("/openapi.json").json()["paths"]["/api/v1/jobs/{job_id}"]["get"]
     assert read["responses"]["200"]["content"]["application/json"]["schema"] == {"$ref": "#/components/schemas/Job"}
+
+
+def test_a_summary_written_by_an_older_release_still_reads_and_lists(offline: TestClient) -> None:
+    """Summaries are stored as the run wrote them; one with a key the current models do not know (a field a
+    later release renamed) is served as stored, never a 500."""
+    job_id = offline.post("/api/v1/jobs", params={"tags": ["old"]}, json=tiny()).json()["id"]
+    older = {"mode": "transient", "steps": 3, "retired_field": 1.5}
+    store: Store = offline.app.state.store  # type: ignore[attr-defined]
+    with store.engine.begin() as conn:
+        conn.execute(Job.__table__.update().where(Job.id == job_id).values(state="succeeded", summary=older))
+    assert offline.get(f"/api/v1/jobs/{job_id}").json()["summary"] == older
+    listed = offline.get("/api/v1/jobs", params={"tag": "old"})
+    assert listed.status_code == 200 and listed.json()["jobs"][0]["summary"] == older
