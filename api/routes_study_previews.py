@@ -15,6 +15,7 @@ from wakeyard.solver.study_preview import preview_study
 from .deps import SettingsDep, UserDep
 from .problems import SpecProblems
 from .routes_jobs import limits
+from .submission import SubmissionDep
 from .text_checks import NUL_MESSAGE, nul_fields
 
 router = APIRouter(prefix="/api/v1/studies/previews", tags=["studies"])
@@ -27,14 +28,18 @@ router = APIRouter(prefix="/api/v1/studies/previews", tags=["studies"])
         "Expands the study exactly as `POST /api/v1/studies` would and returns `count`, the `points` "
         "(`{values, reynolds, estimate}`, the estimate as in `POST /api/v1/previews`) and the `total` "
         "`{cells, dofs, steps, seconds}` over all points (`steps` null when a point's count is not known before "
-        "it runs; `seconds` null). A study that would be refused is refused here with the same 422 problems."
+        "it runs; `seconds` null). A study that would be refused is refused here with the same 422 problems, and "
+        "with the same 429 when its points would take the caller over the per-user cap of queued and running jobs."
     ),
 )
-def create_study_preview(settings: SettingsDep, _: UserDep, spec: StudySpec) -> dict[str, Any]:
+def create_study_preview(
+    settings: SettingsDep, submission: SubmissionDep, user: UserDep, spec: StudySpec
+) -> dict[str, Any]:
     if nul := nul_fields(spec.model_dump(mode="json")):
         raise SpecProblems([(field, NUL_MESSAGE) for field in nul])
     deadline = time.monotonic() + settings.max_validation_seconds
     try:
-        return preview_study(spec, limits(settings), deadline)  # a plain def: runs in the thread pool (gmsh)
+        # a plain def: runs in the thread pool (gmsh); the cap is checked as queueing would, before any point
+        return preview_study(spec, limits(settings), deadline, lambda n: submission.check_room(user.name, n))
     except solver.SpecError as err:
         raise SpecProblems(err.problems) from None

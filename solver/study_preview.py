@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 import time
+from collections.abc import Callable
 from typing import Any
 
 from .errors import SpecError
@@ -20,20 +21,24 @@ from .study import StudySpec, expand
 
 
 def preview_study(
-    study: StudySpec | dict[str, Any], limits: Limits | None = None, deadline: float = math.inf
+    study: StudySpec | dict[str, Any],
+    limits: Limits | None = None,
+    deadline: float = math.inf,
+    counted: Callable[[int], None] | None = None,
 ) -> dict[str, Any]:
     """``count``, ``points`` (``{values, reynolds, estimate}`` each) and ``total`` ``{cells, dofs, steps, seconds}``.
 
-    ``steps`` totals only when every point knows its count (fixed steps), and ``seconds`` is null as in the job
-    preview. Checking stops with an error once ``time.monotonic()`` passes ``deadline``; points estimated after it
-    get the size rule's figures instead of a dry run of the mesher (``estimate.method`` says which).
+        ``steps`` totals only when every point knows its count (fixed steps), and ``seconds`` is null as in the job
+        preview. Checking stops with an error once ``time.monotonic()`` passes ``deadline``; points estimated after it
+        get the size rule's figures instead of a dry run of the mesher (``estimate.method`` says which). ``counted``
+    gets the number of points first, as in :func:`~solver.study.expand` (a caller's cap can refuse the study).
 
-    Raises
-    ------
-    SpecError
-        Naming the study field (``vary.0.range.count``, ``points.1.fluid.viscosity``), as queueing would.
+        Raises
+        ------
+        SpecError
+            Naming the study field (``vary.0.range.count``, ``points.1.fluid.viscosity``), as queueing would.
     """
-    points = expand(study, deadline=deadline)
+    points = expand(study, counted=counted, deadline=deadline)
     problems = []
     for k, (values, spec) in enumerate(points):
         try:

@@ -2,9 +2,15 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+from pathlib import Path
 from typing import Any
 
+import pytest
 from fastapi.testclient import TestClient
+
+from tests.helpers import settings_for
+from wakeyard.api.app import create_app
 
 # a cylinder in a 1.0 x 0.41 channel (an invented cooling-duct tube, coarse mesh)
 BASE: dict[str, Any] = {
@@ -15,7 +21,16 @@ BASE: dict[str, Any] = {
 }
 
 
-def test_a_two_field_sweep_lists_its_points_and_totals(offline: TestClient) -> None:
+@pytest.fixture
+def roomy(tmp_path: Path) -> Iterator[TestClient]:
+    """As ``offline``, with room for a 6-point study under the per-user cap."""
+    settings = settings_for(tmp_path, "wakeyard-offline", broker="", max_active_per_user=6)
+    with TestClient(create_app(settings)) as client:
+        yield client
+
+
+def test_a_two_field_sweep_lists_its_points_and_totals(roomy: TestClient) -> None:
+    offline = roomy
     vary = [
         {"path": "inflow.peak_velocity", "values": [0.15, 0.3]},
         {"path": "fluid.viscosity", "range": {"start": 1e-3, "stop": 4e-3, "count": 3, "spacing": "geometric"}},
@@ -85,3 +100,15 @@ def test_openapi_documents_the_study_preview(offline: TestClient) -> None:
     op = offline.get("/openapi.json").json()["paths"]["/api/v1/studies/previews"]["post"]
     assert op["requestBody"]["content"]["application/json"]["schema"]["$ref"] == "#/components/schemas/StudySpec"
     assert "4XX" in op["responses"] and "total" in op["description"]
+
+
+def test_a_study_over_the_per_user_cap_is_refused_as_queueing_would(offline: TestClient) -> None:
+    """The offline service allows 3 queued or running jobs per user: 4 points are refused with 429 by the preview
+    and by queueing alike, 3 pass."""
+    study = {"base": BASE, "vary": [{"path": "inflow.peak_velocity", "values": [0.1, 0.2, 0.3, 0.4]}]}
+    preview = offline.post("/api/v1/studies/previews", json=study)
+    queued = offline.post("/api/v1/studies", json=study)
+    assert preview.status_code == queued.status_code == 429, preview.text
+    assert preview.json()["detail"] == queued.json()["detail"] and "3" in preview.json()["detail"][0]["message"]
+    study["vary"][0]["values"] = [0.1, 0.2, 0.3]
+    assert offline.post("/api/v1/studies/previews", json=study).status_code == 200
