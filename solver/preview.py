@@ -1,35 +1,36 @@
 """What a spec would become before it is queued: every problem at once, its scales, outlines and a size estimate.
 
-Cells and unknowns come from a dry run of the mesher (:func:`solver.meshing.counts`): the coarse base mesh is
-generated and the uniform splits are counted, so the figures are the ones the run will have. A mesh too big to
-generate quickly is estimated by the size rule instead (``estimate.method`` says which). Dry runs are cached by
-the part of the spec that shapes the mesh.
+Cells and unknowns come from a dry run of the mesher (:mod:`solver.sizing`, the same figures the service's
+unknowns limit judges), so they are the ones the run will have; a mesh too big to generate quickly is estimated by
+the size rule instead (``estimate.method`` says which). Steps, seconds and the CFL number of a fixed step are
+estimates by documented rules (:mod:`solver.run_cost`); ``warnings`` says what would not stop the run but
+deserves a look (a fixed step past the CFL limit of explicit convection).
 
 >>> p = preview({"bodies": [{"shape": "circle", "center": [0.1, 0.05], "radius": 0.01}], "mesh": {"preset": "coarse"}})
->>> p["problems"], round(p["reynolds"], 1), p["estimate"]["method"], p["estimate"]["steps"]
-([], 19.9, 'mesher', None)
+>>> p["problems"], round(p["reynolds"], 1), p["estimate"]["method"], p["estimate"]["steps"], p["warnings"]
+([], 19.9, 'mesher', None, [])
 """
 
 from __future__ import annotations
 
 import json
 import math
-from functools import lru_cache
 from typing import Any
 
 from pydantic import ValidationError
 
-from . import meshing, picture_choice
+from . import picture_choice, run_cost
 from .errors import SpecError
 from .limits import Limits, check_limits
+from .sizing import mesh_size
 from .spec import ADAPTIVE, JobSpec, _check_geometry, _check_scales, _message, _path
 from .study import sweepable
 from .thermal import check as check_heat
 
-# Largest base mesh (cells before the uniform splits) a preview generates; gmsh makes about 1e5 cells a second
-# here, so a dry run stays well under a second. Bigger meshes get the size rule's figure.
-MAX_DRY_CELLS = 60_000
-STEPS_UNKNOWN = "bdf2-adaptive chooses its steps while it runs, for the accuracy asked: the count is not known before"
+STEPS_ESTIMATED = (
+    "bdf2-adaptive chooses its steps while it runs, for the accuracy asked: the count is an estimate (within a "
+    "factor of 2 on the calibration runs)"
+)
 
 Problems = list[tuple[str, str]]
 
@@ -130,6 +131,7 @@ def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
         "blockage": None,
         "outlines": [],
         "estimate": None,
+        "warnings": [],
         "sweepable": [],
     }
     if spec is None:
@@ -139,7 +141,8 @@ def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
         reynolds=spec.reynolds(),
         blockage=blockage(spec),
         outlines=[{"name": b.name, "points": b.outline(96).round(9).tolist()} for b in spec.bodies],
-        estimate=estimate(spec),
+        estimate=(figures := estimate(spec)),
+        warnings=[{"field": f, "message": m} for f, m in run_cost.step_warnings(spec, figures["shortest_edge"])],
         sweepable=sweepable(spec),
     )
     return out
@@ -156,50 +159,22 @@ def blockage(spec: JobSpec) -> float:
 
 
 def estimate(spec: JobSpec, dry_run: bool = True) -> dict[str, Any]:
-    """``cells``, ``dofs`` (unknowns), ``steps`` and ``seconds`` of a run, with how they were found (``dry_run``
-    False: the size rule alone, for a caller out of time)."""
+    """``cells``, ``dofs`` (unknowns), ``steps``, ``seconds`` and ``cfl`` of a run, with how they were found
+    (``dry_run`` False: the size rule alone, for a caller out of time). Cells and unknowns are the mesher's
+    (:mod:`solver.sizing`); steps, seconds and the CFL number are estimates (:mod:`solver.run_cost`)."""
+    size = mesh_size(spec, dry_run)
     a = spec.analysis
-    steps: int | None = None
-    note = None
+    note = size.note and f"{size.note}; the figures are the size rule's"
     if a.mode == "steady":
-        note = "a steady run solves once (Newton iterations), without time steps"
+        note = note or "a steady run solves once (Newton iterations), without time steps"
     elif a.scheme == ADAPTIVE:
-        note = STEPS_UNKNOWN
-    elif a.time_step is not None:
-        steps = math.ceil(a.end_time / a.time_step - 1e-9)
-    size = meshing.sizes(spec)
-    base_cells = meshing.estimate_cells(spec) / 4 ** (size.preset_splits + size.extra_splits)
-    cells, dofs, method = meshing.estimate_cells(spec), meshing.estimate_dofs(spec), "rule"
-    if dry_run and base_cells <= MAX_DRY_CELLS:
-        try:
-            vertices, edges, cells = _counts(_mesh_key(spec))
-        except Exception as err:  # gmsh raises plain Exceptions; the run would meet the same failure
-            note = f"the mesher failed on this case ({err}); the figures are the size rule's"
-        else:
-            dofs = 3 * vertices + 2 * edges if spec.elements == "P2P1" else 3 * vertices + 5 * edges + 2 * cells
-            method = "mesher"
+        note = note or STEPS_ESTIMATED
     return {
-        "cells": cells,
-        "dofs": dofs,
-        "steps": steps,
-        "seconds": None,
-        "method": method,
-        "body_cell_size": size.body / 2**size.extra_splits if spec.bodies else None,
+        "cells": size.cells,
+        "dofs": size.dofs,
+        **run_cost.summary(spec, size.dofs, size.shortest_edge),
+        "method": size.method,
+        "shortest_edge": size.shortest_edge,
         "pictures": picture_choice.plan(spec),
         "note": note,
     }
-
-
-def _mesh_key(spec: JobSpec) -> str:
-    """The part of the spec that shapes the mesh (no names, temperatures, spins or mounts), as canonical JSON."""
-    bodies = [b.model_dump(mode="json", exclude={"name", "thermal", "spin", "mount"}) for b in spec.bodies]
-    channel = {"length": spec.channel.length, "height": spec.channel.height}
-    mesh = spec.mesh.model_dump(mode="json")
-    return json.dumps([channel, bodies, mesh], sort_keys=True)
-
-
-@lru_cache(maxsize=256)
-def _counts(key: str) -> tuple[int, int, int]:
-    channel, bodies, mesh = json.loads(key)
-    spec = JobSpec.model_validate({"channel": channel, "bodies": bodies, "mesh": mesh})
-    return meshing.counts(spec)
