@@ -4,7 +4,9 @@ Cells and unknowns come from a dry run of the mesher (:mod:`solver.sizing`, the 
 unknowns limit judges), so they are the ones the run will have; a mesh too big to generate quickly is estimated by
 the size rule instead (``estimate.method`` says which). Steps, seconds and the CFL number of a fixed step are
 estimates by documented rules (:mod:`solver.run_cost`); ``warnings`` says what would not stop the run but
-deserves a look (a fixed step past the CFL limit of explicit convection).
+deserves a look (a fixed step past the CFL limit of explicit convection, bodies that block most of the channel).
+The body ``outlines`` (the solver's shapes, for a drawing) are given even when there are problems, for every body
+valid on its own.
 
 >>> p = preview({"bodies": [{"shape": "circle", "center": [0.1, 0.05], "radius": 0.01}], "mesh": {"preset": "coarse"}})
 >>> p["problems"], round(p["reynolds"], 1), p["estimate"]["method"], p["estimate"]["steps"], p["warnings"]
@@ -17,15 +19,18 @@ import json
 import math
 from typing import Any
 
-from pydantic import ValidationError
+from pydantic import TypeAdapter, ValidationError
 
 from . import picture_choice, run_cost
 from .errors import SpecError
 from .limits import Limits, check_limits
+from .shapes import Body
 from .sizing import mesh_size
-from .spec import ADAPTIVE, JobSpec, _check_geometry, _check_scales, _message, _path
+from .spec import ADAPTIVE, MAX_BODIES, JobSpec, _check_geometry, _check_scales, _message, _path
 from .study import sweepable
 from .thermal import check as check_heat
+
+_BODY: TypeAdapter[Any] = TypeAdapter(Body)
 
 STEPS_ESTIMATED = (
     "bdf2-adaptive chooses its steps while it runs, for the accuracy asked: the count is an estimate (within a "
@@ -46,7 +51,26 @@ def preview(data: Any, limits: Limits | None = None) -> dict[str, Any]:
             check_limits(spec, limits or Limits())
         except SpecError as err:
             problems = err.problems
-    return answer(spec if not problems else None, problems)
+    out = answer(spec if not problems else None, problems)
+    if problems:
+        out["outlines"] = _outlines(data.get("bodies"))
+    return out
+
+
+def _outlines(bodies: Any) -> list[dict[str, Any] | None]:
+    """The outline of every body that is valid on its own, in the user's numbering (``None`` for the others), so a
+    drawing can show the bodies a geometry problem names (an overlap, a wall) while the spec is refused."""
+    if not isinstance(bodies, list) or len(bodies) > MAX_BODIES:
+        return []
+    out: list[dict[str, Any] | None] = []
+    for i, data in enumerate(bodies):
+        try:
+            body = _BODY.validate_python(data)
+        except ValidationError:
+            out.append(None)
+            continue
+        out.append({"name": body.name or f"body{i + 1}", "points": body.outline(96).round(9).tolist()})
+    return out
 
 
 def _checked(data: dict[str, Any]) -> tuple[JobSpec | None, Problems]:
@@ -142,9 +166,24 @@ def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
         blockage=blockage(spec),
         outlines=[{"name": b.name, "points": b.outline(96).round(9).tolist()} for b in spec.bodies],
         estimate=(figures := estimate(spec)),
-        warnings=[{"field": f, "message": m} for f, m in run_cost.step_warnings(spec, figures["shortest_edge"])],
+        warnings=[{"field": f, "message": m} for f, m in warnings(spec, figures["shortest_edge"])],
         sweepable=sweepable(spec),
     )
+    return out
+
+
+# Share of the channel height past which the walls, not the bodies, set the forces (common practice: blockage
+# corrections are usual past a few percent and the flow is a different one past half).
+HIGH_BLOCKAGE = 0.5
+
+
+def warnings(spec: JobSpec, shortest_edge: float) -> Problems:
+    """What would not stop the run but deserves a look: a fixed step past the CFL limit of explicit convection
+    (:func:`solver.run_cost.step_warnings`), bodies that block most of the channel."""
+    out = run_cost.step_warnings(spec, shortest_edge)
+    if (share := blockage(spec)) > HIGH_BLOCKAGE:
+        message = f"the bodies block {100 * share:.3g} % of the channel: the walls will dominate the forces"
+        out.append(("bodies", message))
     return out
 
 

@@ -107,12 +107,14 @@ def step_warnings(spec: JobSpec, shortest_edge: float) -> list[tuple[str, str]]:
 
 
 def summary(spec: JobSpec, dofs: int, shortest_edge: float) -> dict[str, Any]:
-    """``steps``, ``seconds`` and ``cfl`` (the fixed step's CFL number near the bodies, else ``None``)."""
+    """``steps`` (with ``steps_method``: ``counted`` for fixed steps, ``estimated`` for bdf2-adaptive, ``None``
+    for a steady run), ``seconds`` and ``cfl`` (the fixed step's CFL number near the bodies, else ``None``)."""
     count = steps(spec, shortest_edge)
     a = spec.analysis
     fixed = a.mode == "transient" and a.scheme != ADAPTIVE and a.time_step is not None
     return {
         "steps": count,
+        "steps_method": None if count is None else "counted" if fixed else "estimated",
         "seconds": seconds(spec, dofs, count),
         "cfl": cfl_number(spec, shortest_edge, a.time_step) if fixed and a.time_step else None,
     }

@@ -135,6 +135,8 @@ def test_every_problem_at_once() -> None:
     assert "bodies.2" not in fields
     assert "body4 overlaps or touches body3" in [q["message"] for q in p["problems"]]
     assert p["estimate"] is None and p["spec"] is None
+    # the drawing still gets the solver's outline of every body valid on its own, in the user's numbering
+    assert [o and o["name"] for o in p["outlines"]] == ["body1", None, "body3", "body4"]
 
 
 def test_a_huge_mesh_is_estimated_not_built() -> None:
