@@ -169,7 +169,7 @@ export class CaseForm {
     const pd = sp.probes?.pressure_drop;
     fill(this.fields,
       fieldset("Case", null,
-        textField("title", "Title", sp, {placeholder: "A short description of the case"})),
+        textField("title", "Title", sp, {placeholder: "A short description of the case"}), errorSlot("(spec)")),
       fieldset("Channel", "channel",
         h("div", {class: "row"},
           numberField("channel.length", "Length", sp, {unit: "m"}),
@@ -494,6 +494,8 @@ export class CaseForm {
         this.normal = p.spec;
         this.lastGood = p;
       }
+      // the service's problems go beside their fields while typing, as a submit would put them
+      if (p.problems && p.asked === JSON.stringify(this.currentSpec())) this.showErrors(p.problems, {summarise: false});
       this.showDefaults();
       this.showFigures(this.currentSpec());
     }, delay);
@@ -665,7 +667,9 @@ export class CaseForm {
     return slot;
   }
 
-  showErrors(problems) {
+  /** Put ``problems`` beside their fields (and the local ones); ``summarise``: list them above the form too and
+   * move the focus there (after a submit, not while typing). */
+  showErrors(problems, {summarise = true} = {}) {
     this.serverErrors = problems.length ? problems : null;
     for (const slot of this.root.querySelectorAll("[data-error-for]")) {
       slot.replaceChildren();
@@ -675,7 +679,8 @@ export class CaseForm {
     for (const [path, message] of this.localErrors) {
       if (!problems.some((p) => p.field === path)) this.putError(path, message);
     }
-    this.placeErrors(problems, true);
+    this.placeErrors(problems, summarise);
+    if (!summarise && !problems.length) this.summary.hidden = true;
   }
 
   placeErrors(problems, summarise) {

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import shutil
 import subprocess
 import sys
 import zipfile
@@ -27,7 +28,13 @@ def test_every_example_file_is_served_as_published(offline: TestClient) -> None:
 def test_the_examples_are_in_the_wheel(tmp_path: Path) -> None:
     """A `pip install .` serves them too: the wheel carries examples/*.json as package data of wakeyard.examples.
     The build runs as `pip install .` does (isolated, setuptools from pyproject's build requirements)."""
-    build = [sys.executable, "-m", "pip", "wheel", "--no-deps", "-q", "-w", str(tmp_path), str(ROOT)]
+    source = tmp_path / "source"  # a copy of what the build reads: setuptools leaves build/ where it builds
+    source.mkdir()
+    for name in ("pyproject.toml", "README.md"):
+        shutil.copy(ROOT / name, source / name)
+    for folder in ("solver", "core", "api", "worker", "cli", "web", "examples"):
+        shutil.copytree(ROOT / folder, source / folder, ignore=shutil.ignore_patterns("__pycache__"))
+    build = [sys.executable, "-m", "pip", "wheel", "--no-deps", "-q", "-w", str(tmp_path), str(source)]
     done = subprocess.run(build, capture_output=True, text=True, timeout=300)
     if done.returncode and "No matching distribution found for setuptools" in done.stderr:
         pytest.skip("pip cannot get the build requirement setuptools here (no index and no cache)")

@@ -395,6 +395,8 @@ def test_live_figures_come_from_the_services_preview(page, api) -> None:
     fill(page, "bodies.1.center.0", spec["bodies"][0]["center"][0])
     fill(page, "bodies.1.center.1", spec["bodies"][0]["center"][1])
     expect(page.locator("ul.warnings")).to_contain_text("overlaps")
+    expect(page.locator('[data-error-for="bodies.1"]')).to_contain_text("overlaps")  # beside the body, before a submit
+    expect(page.locator("#error-summary")).to_be_hidden()
     expect(page.locator(".case-svg .body-warn")).not_to_have_count(0)  # the drawing marks the body in fault
     expect(mesh).to_contain_text("—")
 
