@@ -15,7 +15,7 @@ All three are estimates from the mesh's size (:mod:`solver.sizing`) and document
   that stops once periodic takes fewer.
 * Seconds: steps times a cost per step that grows as unknowns to the power 1.3 (Newton iterations for a steady
   run), plus the pictures and a fixed part; measured on a 2-core box shared with other work, so a rough figure
-  (0.3 to 1.3 of the wall-clock time of the calibration runs on that loaded box).
+  (0.5 to 1.7 times the wall-clock time of the calibration runs on that loaded box).
 """
 
 from __future__ import annotations
