@@ -66,7 +66,7 @@ def sizes(spec: JobSpec) -> MeshSizes:
 
 # The size rule below counts cells by area and size but misses the graded band around each body, which fills
 # most of the channel: on the examples it gave 0.41-0.61 of the mesher's cells on coarse meshes, 0.19-0.32 on
-# medium and 0.14-0.25 on fine ones. These factors bring it to 0.8-1.2 of the mesher's counts (the tests check
+# medium and 0.14-0.25 on fine ones. These factors bring it to 0.68-1.24 of the mesher's counts (the tests check
 # within 35 %); :mod:`solver.sizing` uses it only for meshes too big for a dry run of the mesher.
 RULE_CORRECTION = {"coarse": 2.0, "medium": 3.6, "fine": 5.0}
 
