@@ -17,6 +17,7 @@ from wakeyard.core.store import Store
 from wakeyard.solver.caution import CAUTION
 
 from . import (
+    routes_examples,
     routes_files,
     routes_jobs,
     routes_ops,
@@ -88,6 +89,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         routes_tokens,
         routes_usage,
         routes_ops,
+        routes_examples,
     ):
         app.include_router(module.router)
     install_docs(app)

@@ -27,10 +27,17 @@ router = APIRouter(prefix="/api/v1/previews", tags=["previews"])
     description=(
         "Returns `problems` (every field and geometry problem at once, `{field, message}`; empty when the spec "
         "would be accepted) and, when there are none: the normalised `spec`, the `reynolds` number, the `blockage` "
-        "ratio, the body `outlines` to draw and an `estimate` `{cells, dofs, steps, seconds, method, note}`. "
-        "Cells and dofs come from a dry run of the mesher (`method: mesher`) or, for a mesh too big to generate "
-        "quickly, from the size rule (`method: rule`). `steps` is null for steady runs and for the error-controlled "
-        "scheme bdf2-adaptive, whose steps are chosen while it runs; `seconds` is null (no server-side calibration)."
+        "ratio, the body `outlines` to draw, `warnings` (`{field, message}`: what would not stop the run but "
+        "deserves a look, such as a fixed time step past the CFL limit of explicit convection, which the solver "
+        "splits) and an `estimate` `{cells, dofs, steps, seconds, cfl, method, note}`. Cells and dofs come from a "
+        "dry run of the mesher (`method: mesher`, the figures the run will have and the unknowns limit judges) or, "
+        "for a mesh too big to generate quickly, from the size rule (`method: rule`). `steps` is null for steady "
+        "runs, `end_time / time_step` for the fixed schemes and an estimate for the error-controlled scheme "
+        "bdf2-adaptive, whose steps are chosen while it runs (its CFL cap or an accuracy step, whichever is "
+        "smaller; within a factor of 2 on the calibration runs). `seconds` is a rough estimate of the run's "
+        "wall-clock time from a cost per step calibrated against the unknowns on one machine, not a promise; "
+        "`cfl` is the CFL number of a fixed step near the bodies (the fastest inflow on the shortest edge, the "
+        "solver's measure), null otherwise."
     ),
 )
 def create_preview(settings: SettingsDep, _: UserDep, data: Annotated[Any, Body()]) -> dict[str, Any]:

@@ -48,7 +48,7 @@ def _expanded(study: StudySpec, submission: Submission, owner: str) -> list[tupl
     problems = []
     for k, (values, spec) in enumerate(points):
         try:
-            solver.check_limits(spec, limits(settings))
+            solver.check_limits(spec, limits(settings), time.monotonic() < deadline)
         except solver.SpecError as err:
             problems += [(f"points.{k}.{f}", f"{m} (at {values})") for f, m in err.problems]
     if problems:

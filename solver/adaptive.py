@@ -44,6 +44,7 @@ MAX_CORRECTIONS = 4
 SMALLEST_STEP = 1e-9  # in units of the convective time L/U
 COUPLING_TOLERANCE = 1e-6  # a spring body's guess holds when its response moves it less than this share
 SMALLEST_MOTION = 1e-12  # ... of its largest displacement, or of this share of the reference length
+FIRST_STEP = 1e-3  # the first step, in convective times L/U, when the spec gives none
 MAX_CFL = 2.0  # largest CFL number of a step: beyond it the error estimate misses how convection is resolved
 
 

@@ -1,12 +1,13 @@
-"""Size limits a shared machine puts on a case, checked before anything is meshed."""
+"""Size limits a shared machine puts on a case, checked before the case is built (its unknowns from a dry run of
+the mesher, as the preview shows them)."""
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
 
-from . import meshing
 from .errors import SpecError
+from .sizing import mesh_size
 from .spec import ADAPTIVE, JobSpec
 
 
@@ -16,10 +17,12 @@ class Limits:
     max_steps: int = 1_000_000
 
 
-def check_limits(spec: JobSpec, limits: Limits) -> None:
-    """Raise :class:`SpecError` naming the field when ``spec`` is too big for ``limits``."""
+def check_limits(spec: JobSpec, limits: Limits, dry_run: bool = True) -> None:
+    """Raise :class:`SpecError` naming the field when ``spec`` is too big for ``limits``. The unknowns are the
+    preview's (:func:`solver.sizing.mesh_size`: a dry run of the mesher; ``dry_run`` False, or a mesh too big to
+    generate quickly: the size rule)."""
     problems = []
-    dofs = meshing.estimate_dofs(spec)
+    dofs = mesh_size(spec, dry_run).dofs
     if dofs > limits.max_dofs:
         problems.append(
             (

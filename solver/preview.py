@@ -1,35 +1,41 @@
 """What a spec would become before it is queued: every problem at once, its scales, outlines and a size estimate.
 
-Cells and unknowns come from a dry run of the mesher (:func:`solver.meshing.counts`): the coarse base mesh is
-generated and the uniform splits are counted, so the figures are the ones the run will have. A mesh too big to
-generate quickly is estimated by the size rule instead (``estimate.method`` says which). Dry runs are cached by
-the part of the spec that shapes the mesh.
+Cells and unknowns come from a dry run of the mesher (:mod:`solver.sizing`, the same figures the service's
+unknowns limit judges), so they are the ones the run will have; a mesh too big to generate quickly is estimated by
+the size rule instead (``estimate.method`` says which). Steps, seconds and the CFL number of a fixed step are
+estimates by documented rules (:mod:`solver.run_cost`); ``warnings`` says what would not stop the run but
+deserves a look (a fixed step past the CFL limit of explicit convection, bodies that block most of the channel).
+The body ``outlines`` (the solver's shapes, for a drawing) are given even when there are problems, for every body
+valid on its own.
 
 >>> p = preview({"bodies": [{"shape": "circle", "center": [0.1, 0.05], "radius": 0.01}], "mesh": {"preset": "coarse"}})
->>> p["problems"], round(p["reynolds"], 1), p["estimate"]["method"], p["estimate"]["steps"]
-([], 19.9, 'mesher', None)
+>>> p["problems"], round(p["reynolds"], 1), p["estimate"]["method"], p["estimate"]["steps"], p["warnings"]
+([], 19.9, 'mesher', None, [])
 """
 
 from __future__ import annotations
 
 import json
 import math
-from functools import lru_cache
 from typing import Any
 
-from pydantic import ValidationError
+from pydantic import TypeAdapter, ValidationError
 
-from . import meshing, picture_choice
+from . import picture_choice, run_cost
 from .errors import SpecError
 from .limits import Limits, check_limits
-from .spec import ADAPTIVE, JobSpec, _check_geometry, _check_scales, _message, _path
+from .shapes import Body
+from .sizing import mesh_size
+from .spec import ADAPTIVE, MAX_BODIES, JobSpec, _check_geometry, _check_scales, _message, _path
 from .study import sweepable
 from .thermal import check as check_heat
 
-# Largest base mesh (cells before the uniform splits) a preview generates; gmsh makes about 1e5 cells a second
-# here, so a dry run stays well under a second. Bigger meshes get the size rule's figure.
-MAX_DRY_CELLS = 60_000
-STEPS_UNKNOWN = "bdf2-adaptive chooses its steps while it runs, for the accuracy asked: the count is not known before"
+_BODY: TypeAdapter[Any] = TypeAdapter(Body)
+
+STEPS_ESTIMATED = (
+    "bdf2-adaptive chooses its steps while it runs, for the accuracy asked: the count is an estimate (within a "
+    "factor of 2 on the calibration runs)"
+)
 
 Problems = list[tuple[str, str]]
 
@@ -45,7 +51,26 @@ def preview(data: Any, limits: Limits | None = None) -> dict[str, Any]:
             check_limits(spec, limits or Limits())
         except SpecError as err:
             problems = err.problems
-    return answer(spec if not problems else None, problems)
+    out = answer(spec if not problems else None, problems)
+    if problems:
+        out["outlines"] = _outlines(data.get("bodies"))
+    return out
+
+
+def _outlines(bodies: Any) -> list[dict[str, Any] | None]:
+    """The outline of every body that is valid on its own, in the user's numbering (``None`` for the others), so a
+    drawing can show the bodies a geometry problem names (an overlap, a wall) while the spec is refused."""
+    if not isinstance(bodies, list) or len(bodies) > MAX_BODIES:
+        return []
+    out: list[dict[str, Any] | None] = []
+    for i, data in enumerate(bodies):
+        try:
+            body = _BODY.validate_python(data)
+        except ValidationError:
+            out.append(None)
+            continue
+        out.append({"name": body.name or f"body{i + 1}", "points": body.outline(96).round(9).tolist()})
+    return out
 
 
 def _checked(data: dict[str, Any]) -> tuple[JobSpec | None, Problems]:
@@ -130,6 +155,7 @@ def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
         "blockage": None,
         "outlines": [],
         "estimate": None,
+        "warnings": [],
         "sweepable": [],
     }
     if spec is None:
@@ -139,9 +165,25 @@ def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
         reynolds=spec.reynolds(),
         blockage=blockage(spec),
         outlines=[{"name": b.name, "points": b.outline(96).round(9).tolist()} for b in spec.bodies],
-        estimate=estimate(spec),
+        estimate=(figures := estimate(spec)),
+        warnings=[{"field": f, "message": m} for f, m in warnings(spec, figures["shortest_edge"])],
         sweepable=sweepable(spec),
     )
+    return out
+
+
+# Share of the channel height past which the walls, not the bodies, set the forces (common practice: blockage
+# corrections are usual past a few percent and the flow is a different one past half).
+HIGH_BLOCKAGE = 0.5
+
+
+def warnings(spec: JobSpec, shortest_edge: float) -> Problems:
+    """What would not stop the run but deserves a look: a fixed step past the CFL limit of explicit convection
+    (:func:`solver.run_cost.step_warnings`), bodies that block most of the channel."""
+    out = run_cost.step_warnings(spec, shortest_edge)
+    if (share := blockage(spec)) > HIGH_BLOCKAGE:
+        message = f"the bodies block {100 * share:.3g} % of the channel: the walls will dominate the forces"
+        out.append(("bodies", message))
     return out
 
 
@@ -156,50 +198,22 @@ def blockage(spec: JobSpec) -> float:
 
 
 def estimate(spec: JobSpec, dry_run: bool = True) -> dict[str, Any]:
-    """``cells``, ``dofs`` (unknowns), ``steps`` and ``seconds`` of a run, with how they were found (``dry_run``
-    False: the size rule alone, for a caller out of time)."""
+    """``cells``, ``dofs`` (unknowns), ``steps``, ``seconds`` and ``cfl`` of a run, with how they were found
+    (``dry_run`` False: the size rule alone, for a caller out of time). Cells and unknowns are the mesher's
+    (:mod:`solver.sizing`); steps, seconds and the CFL number are estimates (:mod:`solver.run_cost`)."""
+    size = mesh_size(spec, dry_run)
     a = spec.analysis
-    steps: int | None = None
-    note = None
+    note = size.note and f"{size.note}; the figures are the size rule's"
     if a.mode == "steady":
-        note = "a steady run solves once (Newton iterations), without time steps"
+        note = note or "a steady run solves once (Newton iterations), without time steps"
     elif a.scheme == ADAPTIVE:
-        note = STEPS_UNKNOWN
-    elif a.time_step is not None:
-        steps = math.ceil(a.end_time / a.time_step - 1e-9)
-    size = meshing.sizes(spec)
-    base_cells = meshing.estimate_cells(spec) / 4 ** (size.preset_splits + size.extra_splits)
-    cells, dofs, method = meshing.estimate_cells(spec), meshing.estimate_dofs(spec), "rule"
-    if dry_run and base_cells <= MAX_DRY_CELLS:
-        try:
-            vertices, edges, cells = _counts(_mesh_key(spec))
-        except Exception as err:  # gmsh raises plain Exceptions; the run would meet the same failure
-            note = f"the mesher failed on this case ({err}); the figures are the size rule's"
-        else:
-            dofs = 3 * vertices + 2 * edges if spec.elements == "P2P1" else 3 * vertices + 5 * edges + 2 * cells
-            method = "mesher"
+        note = note or STEPS_ESTIMATED
     return {
-        "cells": cells,
-        "dofs": dofs,
-        "steps": steps,
-        "seconds": None,
-        "method": method,
-        "body_cell_size": size.body / 2**size.extra_splits if spec.bodies else None,
+        "cells": size.cells,
+        "dofs": size.dofs,
+        **run_cost.summary(spec, size.dofs, size.shortest_edge),
+        "method": size.method,
+        "shortest_edge": size.shortest_edge,
         "pictures": picture_choice.plan(spec),
         "note": note,
     }
-
-
-def _mesh_key(spec: JobSpec) -> str:
-    """The part of the spec that shapes the mesh (no names, temperatures, spins or mounts), as canonical JSON."""
-    bodies = [b.model_dump(mode="json", exclude={"name", "thermal", "spin", "mount"}) for b in spec.bodies]
-    channel = {"length": spec.channel.length, "height": spec.channel.height}
-    mesh = spec.mesh.model_dump(mode="json")
-    return json.dumps([channel, bodies, mesh], sort_keys=True)
-
-
-@lru_cache(maxsize=256)
-def _counts(key: str) -> tuple[int, int, int]:
-    channel, bodies, mesh = json.loads(key)
-    spec = JobSpec.model_validate({"channel": channel, "bodies": bodies, "mesh": mesh})
-    return meshing.counts(spec)

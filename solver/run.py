@@ -14,7 +14,7 @@ from typing import Any
 import numpy as np
 
 from . import analysis, output, picture_choice, pictures, results
-from .adaptive import AdaptiveBDF2, Scales
+from .adaptive import FIRST_STEP, AdaptiveBDF2, Scales
 from .case import Case
 from .caution import CAUTION
 from .errors import Cancelled, Diverged, InternalError, RunFailed, WallTimeExceeded
@@ -29,8 +29,6 @@ from .stages import failed_stage
 from .steady import solve_steady
 from .transient import Stepper
 from .units import summary_units
-
-FIRST_STEP = 1e-3  # the adaptive scheme's first step, in convective times L/U, when none is given
 
 log = logging.getLogger(__name__)
 

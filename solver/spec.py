@@ -33,6 +33,7 @@ _Positive = Field(gt=0, allow_inf_nan=False)
 MIN_REYNOLDS, MAX_REYNOLDS = 1e-6, 1e5
 MAX_VISCOSITY = 1e6
 WATER_20C = {"density": 998.2, "viscosity": 1.004e-6}  # kg/m^3, m^2/s
+MAX_BODIES = 20
 DEFAULT_POST = {"name": "post", "shape": "circle", "center": [0.1, 0.05], "radius": 0.01}
 
 
@@ -211,7 +212,7 @@ class JobSpec(_Model):
 
     title: str = Field("", max_length=200)
     channel: Channel = Channel()
-    bodies: list[Body] = Field(default_factory=list, max_length=20)
+    bodies: list[Body] = Field(default_factory=list, max_length=MAX_BODIES)
     fluid: Fluid = Fluid()
     inflow: Inflow = Inflow()
     mesh: MeshSettings = MeshSettings()

@@ -17,10 +17,11 @@ from typing import Any, Literal
 import numpy as np
 from pydantic import Field, ValidationError, model_validator
 
+from . import meshing
 from .errors import SpecError
 from .results import Stats, SteadySummary, TransientSummary
 from .spec import JobSpec, _message, _Model, _path, load
-from .units import number_paths, spec_unit
+from .units import spec_unit
 from .verification import grid_convergence
 
 
@@ -154,20 +155,62 @@ def expand(
 # edits as a whole, not single knobs (a sweep may still name any numeric field by its path).
 _NOT_OFFERED = ("bodies.*.points.", "inflow.time_law.points.", "probes.")
 
+# Fields given as one of a pair: setting one in a sweep clears the other (a spec may not hold both).
+_EITHER = {
+    "fluid.reynolds": "fluid.viscosity",
+    "fluid.viscosity": "fluid.reynolds",
+    "inflow.mean_velocity": "inflow.peak_velocity",
+    "inflow.peak_velocity": "inflow.mean_velocity",
+}
+
 
 def sweepable(spec: JobSpec) -> list[dict[str, Any]]:
     """The numeric fields of ``spec`` a sweep can vary: ``{path, value, unit}`` for every number of the normalised
-    spec that has a unit, in the spec's own order (the page offers these; it keeps no list of its own)."""
+    spec that has a unit, in the spec's own order (the page offers these; it keeps no list of its own).
+
+    Fields left empty (null) that a sweep can still set are offered too, marked ``derived`` with the value the run
+    uses now: the other half of a pair (the Reynolds number beside a viscosity, the mean velocity beside a peak)
+    and the mesh's cell sizes and wake length. Other empty fields are not offered: under bdf2-adaptive
+    ``analysis.time_step`` is only the first step, the reference scales only rescale the coefficients, a time law's
+    period means nothing for a constant law and the picture interval changes no result."""
     data = spec.model_dump(mode="json")
+    derived = _derived(spec)
     out = []
-    for path in number_paths(data):
+    for path in _leaf_paths(data):
         generic = re.sub(r"\.\d+(?=\.|$)", ".*", path)
         if any(generic.startswith(p) for p in _NOT_OFFERED) or (unit := spec_unit(path)) is None:
             continue
         node: Any = data
         for part in path.split("."):
             node = node[int(part)] if isinstance(node, list) else node[part]
-        out.append({"path": path, "value": node, "unit": unit})
+        if isinstance(node, int | float) and not isinstance(node, bool):
+            out.append({"path": path, "value": node, "unit": unit})
+        elif node is None and path in derived:
+            out.append({"path": path, "value": derived[path], "unit": unit, "derived": True})
+    return out
+
+
+def _leaf_paths(value: Any, path: str = "") -> list[str]:
+    """Dotted paths of every number and every null in a JSON-like value, in order."""
+    if isinstance(value, dict):
+        return [p for k, v in value.items() for p in _leaf_paths(v, f"{path}.{k}" if path else str(k))]
+    if isinstance(value, list):
+        return [p for i, v in enumerate(value) for p in _leaf_paths(v, f"{path}.{i}" if path else str(i))]
+    return [path] if value is None or (isinstance(value, int | float) and not isinstance(value, bool)) else []
+
+
+def _derived(spec: JobSpec) -> dict[str, float]:
+    """The values a run uses for the empty fields a sweep may set (:func:`sweepable`)."""
+    out = {
+        "fluid.reynolds": spec.reynolds(),
+        "fluid.viscosity": spec.viscosity(),
+        "inflow.mean_velocity": spec.inflow.mean(),
+        "inflow.peak_velocity": spec.inflow.peak(),
+    }
+    if spec.bodies:
+        s, scale = meshing.sizes(spec), spec.mesh.scale  # sizes() applies the scale to explicit sizes too
+        out |= {"mesh.body_size": s.body / scale, "mesh.wake_size": s.wake / scale, "mesh.far_size": s.far / scale}
+        out["mesh.wake_length"] = s.wake_length
     return out
 
 
@@ -185,12 +228,19 @@ def _check_path(data: dict[str, Any], path: str, where: str) -> None:
 
 
 def _with(data: Any, path: str, value: float) -> Any:
-    """A copy of ``data`` with ``path`` set to ``value``: only the containers on the path are copied (a deep copy
-    of a base with many polygon points per study point cost more than checking the point)."""
+    """A copy of ``data`` with ``path`` set to ``value`` (and the other half of a pair, :data:`_EITHER`, cleared):
+    only the containers on the path are copied (a deep copy of a base with many polygon points per study point
+    cost more than checking the point)."""
+    if (other := _EITHER.get(path)) is not None:
+        data = _with_leaf(data, other, None)
+    return _with_leaf(data, path, value)
+
+
+def _with_leaf(data: Any, path: str, value: float | None) -> Any:
     head, _, rest = path.partition(".")
     out = list(data) if isinstance(data, list) else dict(data)
     key = int(head) if isinstance(data, list) else head
-    out[key] = _with(data[key], rest, value) if rest else value  # type: ignore[index]
+    out[key] = _with_leaf(data[key], rest, value) if rest else value  # type: ignore[index]
     return out
 
 

@@ -28,21 +28,22 @@ def preview_study(
 ) -> dict[str, Any]:
     """``count``, ``points`` (``{values, reynolds, estimate}`` each) and ``total`` ``{cells, dofs, steps, seconds}``.
 
-        ``steps`` totals only when every point knows its count (fixed steps), and ``seconds`` is null as in the job
-        preview. Checking stops with an error once ``time.monotonic()`` passes ``deadline``; points estimated after it
-        get the size rule's figures instead of a dry run of the mesher (``estimate.method`` says which). ``counted``
-    gets the number of points first, as in :func:`~solver.study.expand` (a caller's cap can refuse the study).
+    ``steps`` totals only when every point has a count (transient points: counted for fixed steps, estimated for
+    bdf2-adaptive), and ``seconds`` sums the points' rough estimates. Checking stops with an error once
+    ``time.monotonic()`` passes ``deadline``; points estimated after it get the size rule's figures instead of a
+    dry run of the mesher (``estimate.method`` says which), and so does the unknowns limit. ``counted`` gets the
+    number of points first, as in :func:`~solver.study.expand` (a caller's cap can refuse the study).
 
-        Raises
-        ------
-        SpecError
-            Naming the study field (``vary.0.range.count``, ``points.1.fluid.viscosity``), as queueing would.
+    Raises
+    ------
+    SpecError
+        Naming the study field (``vary.0.range.count``, ``points.1.fluid.viscosity``), as queueing would.
     """
     points = expand(study, counted=counted, deadline=deadline)
     problems = []
     for k, (values, spec) in enumerate(points):
         try:
-            check_limits(spec, limits or Limits())
+            check_limits(spec, limits or Limits(), time.monotonic() < deadline)
         except SpecError as err:
             problems += [(f"points.{k}.{f}", f"{m} (at {values})") for f, m in err.problems]
     if problems:
@@ -53,7 +54,7 @@ def preview_study(
         "cells": sum(e["cells"] for e in estimates),
         "dofs": sum(e["dofs"] for e in estimates),
         "steps": sum(steps) if all(s is not None for s in steps) else None,
-        "seconds": None,
+        "seconds": sum(e["seconds"] for e in estimates),
     }
     out = [
         {"values": values, "reynolds": spec.reynolds(), "estimate": e} for (values, spec), e in zip(points, estimates)

@@ -111,6 +111,7 @@ export const api = {
     return response.json();
   },
   caution: () => request("GET", "/caution"),
+  examples: () => request("GET", "/examples"),
   listJobs: async (query, signal) => listOf(await request("GET", "/jobs", {query, signal})),
   getJob: (id, signal) => request("GET", `/jobs/${encodeURIComponent(id)}`, {signal}),
   preview: (spec, signal) => request("POST", "/previews", {body: spec, signal}),

@@ -1,8 +1,14 @@
 // To-scale SVG drawing of the channel, the inflow profile, the bodies and the probes.
-// Bodies can be dragged with a pointer, or focused and moved with the arrow keys.
+// Bodies can be dragged with a pointer, or focused and moved with the arrow keys. The body outlines are the
+// solver's (the service's preview); the drawing computes no shape of its own.
 
-import {bounds, channelOf, outline} from "./geometry.js";
 import {num, s} from "./util.js";
+
+function bounds(points) {
+  const xs = points.map((p) => p[0]);
+  const ys = points.map((p) => p[1]);
+  return {x0: Math.min(...xs), x1: Math.max(...xs), y0: Math.min(...ys), y1: Math.max(...ys)};
+}
 
 const PAD = {left: 44, right: 16, top: 22, bottom: 30};
 
@@ -27,19 +33,23 @@ export class CaseDrawing {
     this.width = 600;
     this.spec = {};
     this.warned = new Set();
+    this.scene = {channel: {}, profile: "parabolic", outlines: []};
     new ResizeObserver(() => {
       const w = Math.round(host.clientWidth);
       if (w > 0 && Math.abs(w - this.width) > 1) {
         this.width = w;
-        this.draw(this.spec, this.warned);
+        this.draw(this.spec, this.warned, this.scene);
       }
     }).observe(host);
   }
 
-  draw(spec, warned = new Set()) {
+  /** Draw ``spec`` in ``scene``: its channel {length, height, walls} and inflow ``profile`` (the spec's values or
+   * the service's defaults for them) and ``outlines``, one closed [[x, y], ...] per body (null: not drawn). */
+  draw(spec, warned = new Set(), scene = this.scene) {
     this.spec = spec;
     this.warned = warned;
-    const {length: L, height: H, walls} = channelOf(spec);
+    this.scene = scene;
+    const {length: L, height: H, walls} = scene.channel;
     if (!(L > 0 && H > 0)) {
       this.svg.replaceChildren(s("text", {x: 10, y: 20}, "Give the channel a length and a height."));
       return;
@@ -63,7 +73,7 @@ export class CaseDrawing {
     parts.push(s("line", {class: wallClass, x1: X(0), x2: X(L), y1: Y(H), y2: Y(H)}));
     parts.push(s("line", {class: "open-end", x1: X(L), x2: X(L), y1: Y(0), y2: Y(H)}));
     // inflow profile arrows
-    const profile = spec.inflow?.profile ?? "parabolic";
+    const profile = scene.profile;
     const arrowMax = Math.min(PAD.left - 8, 36);
     const arrows = s("g", {class: "inflow", "aria-hidden": "true"});
     const n = 9;
@@ -99,7 +109,7 @@ export class CaseDrawing {
         this.bindBody(g, index);
         this.bodyLayer.append(g);
       }
-      const pts = outline(body, 128);
+      const pts = scene.outlines[index];
       g.style.display = pts ? "" : "none";
       if (!pts) return;
       const d = pts.map(([x, y], i) => `${i ? "L" : "M"}${X(x).toFixed(2)},${Y(y).toFixed(2)}`).join("") + "Z";
@@ -169,7 +179,7 @@ export class CaseDrawing {
     g.addEventListener("pointerup", end);
     g.addEventListener("pointercancel", end);
     g.addEventListener("keydown", (e) => {
-      const step = niceLength(channelOf(this.spec).height / (e.shiftKey ? 10 : 100));
+      const step = niceLength(this.scene.channel.height / (e.shiftKey ? 10 : 100));
       const moves = {ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, step], ArrowDown: [0, -step]};
       const m = moves[e.key];
       if (!m) return;

@@ -1,12 +1,11 @@
 // The case form: edits one job spec (the same JSON a script would send), draws it to scale,
-// shows the Reynolds number, blockage ratio, mesh size and time steps from the service's preview (the solver's
-// own figures, POST /api/v1/previews), and puts the service's validation errors beside the fields they name.
+// shows the Reynolds number, blockage ratio, mesh size, time steps and warnings from the service's preview (the
+// solver's own figures, outlines and defaults, POST /api/v1/previews), offers the service's examples
+// (GET /api/v1/examples), and puts the service's validation errors beside the fields they name.
 
 import {ApiError, api} from "./api.js";
 import {CaseDrawing, translateBody} from "./drawing.js";
-import {ADAPTIVE, DEFAULTS} from "./defaults.js";
-import {EXAMPLES, newBody} from "./examples.js";
-import {channelOf, geometryWarnings, nominalVelocity, reynolds} from "./geometry.js";
+import {newBody} from "./new_body.js";
 import {duration, fill, getPath, h, integer, num, prune, setPath, toast} from "./util.js";
 
 const SHAPES = [["circle", "Circle"], ["rectangle", "Rectangle"], ["ellipse", "Ellipse"],
@@ -16,21 +15,17 @@ const idOf = (path) => `f-${path.replaceAll(".", "-")}`;
 const clone = (x) => JSON.parse(JSON.stringify(x ?? {}));
 const isNum = (v) => typeof v === "number" && Number.isFinite(v);
 
-/** Seconds per (unknown × step) measured on succeeded jobs of this server; set by the queue view. */
-export const calibration = {rate: null, jobs: 0};
-/** A run's time from the preview's estimate and this server's measured rate (null when either is unknown). */
-export function roughSeconds(estimate, transient) {
-  if (!calibration.rate || !estimate?.dofs || (transient && !estimate.steps)) return null;
-  return estimate.dofs * (transient ? estimate.steps : 15) * calibration.rate;
-}
-
+const ADAPTIVE = "bdf2-adaptive"; // the error-controlled scheme's name in the spec
+const STARTER = "lab_post"; // the example the form starts from
 const PREVIEW_DELAY = 300; // ms of quiet typing before the service is asked for the figures
 
 export class CaseForm {
   constructor(root, {onQueued}) {
     this.root = root;
     this.onQueued = onQueued;
-    this.spec = clone(EXAMPLES.post.spec);
+    this.spec = {};
+    this.normal = null; // the latest normalised spec from the preview: the service's values for blank fields
+    this.drawn = null; // {bodies, outlines}: the bodies of the latest preview and the solver's outlines of them
     this.tags = "";
     this.from = null; // job whose spec was loaded for a re-run
     this.localErrors = new Map(); // path -> message (unparseable numbers)
@@ -64,13 +59,14 @@ export class CaseForm {
     this.upload = h("input", {type: "file", accept: ".json,application/json", class: "visually-hidden", id: "spec-upload",
       onchange: (e) => this.uploadFile(e)});
     const exampleSelect = h("select", {id: "example", "aria-label": "Start from an example"},
-      h("option", {value: ""}, "Start from an example…"),
-      Object.entries(EXAMPLES).map(([key, ex]) => h("option", {value: key}, ex.label)));
+      h("option", {value: ""}, "Start from an example…"));
     exampleSelect.addEventListener("change", () => {
-      const ex = EXAMPLES[exampleSelect.value];
+      const ex = this.examples.find((e) => e.name === exampleSelect.value);
       if (ex) this.load(ex.spec);
       exampleSelect.value = "";
     });
+    this.exampleSelect = exampleSelect;
+    this.examples = [];
     const side = h("aside", {class: "case-side", "aria-label": "Preview of the case"},
       h("section", {class: "card preview"}, h("h3", {}, "Drawing"), this.drawingHost, this.figures, this.warnings),
       h("section", {class: "card json-card"},
@@ -105,8 +101,40 @@ export class CaseForm {
           h("button", {type: "submit", class: "btn btn-primary", id: "submit-case"}, "Queue this case"),
           h("a", {href: "#/studies", class: "btn", id: "study-this-case"}, "Build a study on this case…"))));
     this.drawing = new CaseDrawing(this.drawingHost, {onMove: (i, dx, dy) => this.moveBody(i, dx, dy)});
-    this.renderFields();
-    this.update();
+    this.fields.append(h("p", {class: "hint"}, "Loading the examples…"));
+    this.start();
+  }
+
+  /** Offer the service's examples and start from one of them. */
+  async start() {
+    try {
+      // the examples, and the service's values for a blank case (what blank fields get before a preview answers)
+      const [examples, blank] = await Promise.all([api.examples(), api.preview({})]);
+      this.examples = examples.examples;
+      this.normal = blank.spec;
+    } catch (err) {
+      toast(`The examples could not be loaded: ${err.message}`, "error");
+    }
+    this.exampleSelect.append(...this.examples.map((ex) => h("option", {value: ex.name}, ex.title)));
+    const first = this.examples.find((ex) => ex.name === STARTER) ?? this.examples[0];
+    this.load(first ? first.spec : {});
+  }
+
+  /** A field's value: the spec's, else the service's for it (the latest normalised spec), else undefined. */
+  valueOf(path) {
+    return getPath(this.spec, path) ?? getPath(this.normal, path);
+  }
+
+  /** The channel to draw: the spec's sizes, the service's defaults for the blank ones. */
+  channel() {
+    const value = (k) => this.spec.channel?.[k] ?? this.normal?.channel?.[k];
+    return {length: value("length"), height: value("height"), walls: value("walls")};
+  }
+
+  /** A value the service derives for the case as it is (the latest preview without problems' study fields, e.g.
+   * the Reynolds number of a case given by its viscosity); undefined when unknown. */
+  derived(path) {
+    return this.lastGood?.sweepable?.find((f) => f.path === path)?.value;
   }
 
   /** Load a spec (from an example, JSON, a file or a job to re-run) into the form. */
@@ -124,28 +152,30 @@ export class CaseForm {
     this.jsonDirtyNote.hidden = true;
     this.renderFields();
     this.update();
+    this.schedulePreview(this.currentSpec(), 0); // a new case: no typing to wait for
   }
 
   renderFields() {
     const active = document.activeElement?.id;
     const sp = this.spec;
-    const ch = channelOf(sp);
-    const transient = (sp.analysis?.mode ?? "steady") === "transient";
-    const adaptive = (sp.analysis?.scheme ?? ADAPTIVE) === ADAPTIVE;
+    const ch = this.channel();
+    const d = (path) => this.valueOf(path); // selects and checkboxes show the service's value for a blank field
+    const transient = d("analysis.mode") === "transient";
+    const adaptive = d("analysis.scheme") === ADAPTIVE;
     const byReynolds = isNum(sp.fluid?.reynolds) || (sp.fluid?.reynolds !== undefined && sp.fluid?.viscosity === undefined);
     const byMean = sp.inflow?.mean_velocity !== undefined && sp.inflow?.peak_velocity === undefined;
-    const lawKind = sp.inflow?.time_law?.kind ?? "constant";
+    const lawKind = d("inflow.time_law.kind");
     const bodies = sp.bodies ?? [];
     const pd = sp.probes?.pressure_drop;
     fill(this.fields,
       fieldset("Case", null,
-        textField("title", "Title", sp, {placeholder: "A short description of the case"})),
+        textField("title", "Title", sp, {placeholder: "A short description of the case"}), errorSlot("(spec)")),
       fieldset("Channel", "channel",
         h("div", {class: "row"},
-          numberField("channel.length", "Length", sp, {unit: "m", placeholder: String(DEFAULTS.channel.length)}),
-          numberField("channel.height", "Height", sp, {unit: "m", placeholder: String(DEFAULTS.channel.height)})),
+          numberField("channel.length", "Length", sp, {unit: "m"}),
+          numberField("channel.height", "Height", sp, {unit: "m"})),
         selectField("channel.walls", "Top and bottom walls", sp, [["no-slip", "No-slip (fluid sticks to the walls)"],
-          ["slip", "Slip (free stream, walls do not slow the flow)"]], "no-slip")),
+          ["slip", "Slip (free stream, walls do not slow the flow)"]], d("channel.walls"))),
       fieldset(`Bodies (${bodies.length})`, "bodies",
         bodies.length ? null : h("p", {class: "hint"}, "No bodies: the channel is empty."),
         h("ol", {class: "body-list"}, bodies.map((b, i) => this.bodyCard(b, i, ch))),
@@ -155,14 +185,13 @@ export class CaseForm {
           h("button", {type: "button", class: "btn", id: "add-body", disabled: bodies.length >= 20,
             onclick: () => this.addBody(document.getElementById("new-shape").value)}, "Add body"))),
       fieldset("Fluid", "fluid",
-        numberField("fluid.density", "Density ρ", sp, {unit: "kg/m³", placeholder: String(DEFAULTS.fluid.density),
+        numberField("fluid.density", "Density ρ", sp, {unit: "kg/m³",
           hint: "Only scales forces and pressure; the coefficients do not depend on it."}),
         radioGroup("fluid-by", "Set the viscosity by", [["viscosity", "Kinematic viscosity ν"], ["reynolds", "Reynolds number Re"]],
           byReynolds ? "reynolds" : "viscosity", (v) => this.switchFluid(v)),
         byReynolds
           ? numberField("fluid.reynolds", "Reynolds number Re", sp, {hint: "Re = U·L/ν on the reference scales below."})
-          : numberField("fluid.viscosity", "Kinematic viscosity ν", sp, {unit: "m²/s",
-            placeholder: String(DEFAULTS.fluid.viscosity), hint: "Water at 20 °C: 1.004e-6 m²/s; air at 20 °C: 1.516e-5 m²/s."}),
+          : numberField("fluid.viscosity", "Kinematic viscosity ν", sp, {unit: "m²/s", hint: "Water at 20 °C: 1.004e-6 m²/s; air at 20 °C: 1.516e-5 m²/s."}),
         h("details", {class: "more", open: !!(sp.fluid?.reference?.velocity || sp.fluid?.reference?.length)},
           h("summary", {}, "Reference scales (optional)"),
           h("p", {class: "hint"}, "By default U is the mean inflow velocity and L the first body's diameter, chord or frontal height."),
@@ -171,27 +200,27 @@ export class CaseForm {
             numberField("fluid.reference.length", "Reference length L", sp, {unit: "m"})))),
       fieldset("Inflow", "inflow",
         selectField("inflow.profile", "Profile across the channel", sp, [["parabolic", "Parabolic (developed channel flow)"],
-          ["uniform", "Uniform"]], "parabolic"),
+          ["uniform", "Uniform"]], d("inflow.profile")),
         radioGroup("inflow-by", "Give the inflow speed as", [["peak", "Peak velocity"], ["mean", "Mean velocity"]],
           byMean ? "mean" : "peak", (v) => this.switchInflow(v)),
         byMean ? numberField("inflow.mean_velocity", "Mean velocity", sp, {unit: "m/s"})
-          : numberField("inflow.peak_velocity", "Peak velocity", sp, {unit: "m/s", placeholder: String(DEFAULTS.inflow.peak_velocity)}),
-        numberField("inflow.ramp_time", "Ramp-up time", sp, {unit: "s", placeholder: "0",
+          : numberField("inflow.peak_velocity", "Peak velocity", sp, {unit: "m/s"}),
+        numberField("inflow.ramp_time", "Ramp-up time", sp, {unit: "s",
           hint: "The inflow rises smoothly from rest over this time (transient runs)."}),
         selectField("inflow.time_law.kind", "Change over time", sp, [["constant", "Constant"],
-          ["sine", "Sine: mean + amplitude · sin(2πt / period)"], ["table", "Table of (time, factor) points"]], "constant",
-        {rerender: true}),
+          ["sine", "Sine: mean + amplitude · sin(2πt / period)"], ["table", "Table of (time, factor) points"]],
+        d("inflow.time_law.kind"), {rerender: true}),
         lawKind === "sine" ? h("div", {class: "row"},
           numberField("inflow.time_law.period", "Period", sp, {unit: "s"}),
-          numberField("inflow.time_law.amplitude", "Amplitude", sp, {placeholder: "1"}),
-          numberField("inflow.time_law.mean", "Mean", sp, {placeholder: "0"})) : null,
+          numberField("inflow.time_law.amplitude", "Amplitude", sp),
+          numberField("inflow.time_law.mean", "Mean", sp)) : null,
         lawKind === "table" ? pointsField("inflow.time_law.points", "Factor table: one “time, factor” pair a line", sp) : null),
       fieldset("Mesh", "mesh",
         h("div", {class: "row"},
-          selectField("mesh.preset", "Density", sp, [["coarse", "Coarse"], ["medium", "Medium"], ["fine", "Fine"]], "medium"),
-          numberField("mesh.scale", "Size factor", sp, {placeholder: "1", hint: "Multiplies every cell size: 2 = cells twice as large."})),
-        selectField("elements", "Elements", sp, [["P2P1", "P2/P1 (quadratic velocity)"], ["P3P2", "P3/P2 (cubic velocity)"]], "P2P1"),
-        checkboxField("mesh.curved", "Curved cells along the bodies", sp, true),
+          selectField("mesh.preset", "Density", sp, [["coarse", "Coarse"], ["medium", "Medium"], ["fine", "Fine"]], d("mesh.preset")),
+          numberField("mesh.scale", "Size factor", sp, {hint: "Multiplies every cell size: 2 = cells twice as large."})),
+        selectField("elements", "Elements", sp, [["P2P1", "P2/P1 (quadratic velocity)"], ["P3P2", "P3/P2 (cubic velocity)"]], d("elements")),
+        checkboxField("mesh.curved", "Curved cells along the bodies", sp, d("mesh.curved")),
         h("details", {class: "more", open: ["body_size", "wake_size", "far_size", "wake_length"].some((k) => sp.mesh?.[k] !== undefined)},
           h("summary", {}, "Cell sizes (optional)"),
           h("div", {class: "row"},
@@ -206,28 +235,28 @@ export class CaseForm {
         transient ? [
           selectField("analysis.scheme", "Time stepping", sp, [[ADAPTIVE, "Error-controlled steps (BDF2, recommended)"],
             ["bdf2-imex", "Fixed steps: BDF2, explicit convection"], ["euler-imex", "Fixed steps: Euler, explicit convection"],
-            ["bdf2-implicit", "Fixed steps: BDF2, implicit"]], ADAPTIVE, {rerender: true}),
+            ["bdf2-implicit", "Fixed steps: BDF2, implicit"]], d("analysis.scheme"), {rerender: true}),
           h("div", {class: "row"},
             adaptive
-              ? numberField("analysis.accuracy", "Accuracy", sp, {placeholder: String(DEFAULTS.analysis.accuracy),
-                hint: "Allowed velocity error per step, relative to the flow speed, per convective time (length / speed). The solver picks its steps to meet it."})
-              : numberField("analysis.time_step", "Time step Δt", sp, {unit: "s", placeholder: "0.001"}),
-            numberField("analysis.end_time", "End time", sp, {unit: "s", placeholder: "1"})),
+              ? numberField("analysis.accuracy", "Accuracy", sp, {hint: "Allowed velocity error per step, relative to the flow speed, per convective time (length / speed). The solver picks its steps to meet it."})
+              : numberField("analysis.time_step", "Time step Δt", sp, {unit: "s",
+                hint: "Required for the fixed-step schemes. The preview warns when it is too long for explicit convection."}),
+            numberField("analysis.end_time", "End time", sp, {unit: "s"})),
           h("div", {class: "row"},
             numberField("analysis.output_interval", "Picture every", sp, {unit: "s",
               hint: "Simulated time between field snapshots: one picture of each field per snapshot, up to the service's cap (see “Field pictures” below)."}),
-            numberField("analysis.checkpoint_interval", "Checkpoint every", sp, {unit: "steps", placeholder: "200"})),
+            numberField("analysis.checkpoint_interval", "Checkpoint every", sp, {unit: "steps"})),
           checkboxToggle("analysis.until_periodic", "Stop early once the lift repeats itself", sp, {cycles: 3, tolerance: 0.01},
             (on) => this.set("analysis.until_periodic", on ? {cycles: 3, tolerance: 0.01} : undefined, true)),
           sp.analysis?.until_periodic ? h("div", {class: "row"},
-            numberField("analysis.until_periodic.cycles", "Matching cycles", sp, {placeholder: "3"}),
-            numberField("analysis.until_periodic.tolerance", "Tolerance", sp, {placeholder: "0.01"})) : null,
+            numberField("analysis.until_periodic.cycles", "Matching cycles", sp),
+            numberField("analysis.until_periodic.tolerance", "Tolerance", sp)) : null,
         ] : h("div", {class: "row"},
-          numberField("analysis.newton_tolerance", "Newton tolerance", sp, {placeholder: String(DEFAULTS.analysis.newton_tolerance)}),
-          numberField("analysis.max_newton_iterations", "Max. Newton iterations", sp, {placeholder: "30"}))),
+          numberField("analysis.newton_tolerance", "Newton tolerance", sp),
+          numberField("analysis.max_newton_iterations", "Max. Newton iterations", sp))),
       fieldset("Probes", "probes",
         checkboxToggle("probes.pressure_drop", "Measure the pressure drop Δp = p(a) − p(b)", sp, null,
-          (on) => this.set("probes.pressure_drop", on ? defaultProbes(this.spec) : undefined, true)),
+          (on) => this.set("probes.pressure_drop", on ? defaultProbes(this.channel()) : undefined, true)),
         Array.isArray(pd) ? h("div", {class: "probe-points"},
           pointField("probes.pressure_drop.0", "Point a", sp), pointField("probes.pressure_drop.1", "Point b", sp)) : null,
         sp.probes?.velocity?.length ? h("p", {class: "hint"},
@@ -237,6 +266,7 @@ export class CaseForm {
       if (!this.serverErrors?.some((p) => p.field === path)) this.putError(path, message);
     }
     if (this.serverErrors) this.placeErrors(this.serverErrors, false);
+    this.showDefaults();
     if (active) document.getElementById(active)?.focus({preventScroll: true});
   }
 
@@ -257,10 +287,10 @@ export class CaseForm {
         byPrandtl
           ? numberField("heat.prandtl", "Prandtl number Pr", sp, {hint: "Air about 0.71, water at 20 °C about 7.0. Heat fluxes need the conductivity instead."})
           : h("div", {class: "row"},
-            numberField("heat.conductivity", "Conductivity k", sp, {unit: "W/(m K)", placeholder: "0.598"}),
-            numberField("heat.heat_capacity", "Heat capacity c", sp, {unit: "J/(kg K)", placeholder: "4182",
+            numberField("heat.conductivity", "Conductivity k", sp, {unit: "W/(m K)"}),
+            numberField("heat.heat_capacity", "Heat capacity c", sp, {unit: "J/(kg K)",
               hint: "Empty: water at 20 °C. Air at 20 °C: 0.0257 W/(m K), 1005 J/(kg K)."})),
-        numberField("heat.inflow_temperature", "Inflow temperature", sp, {unit: "°C", placeholder: "20"}),
+        numberField("heat.inflow_temperature", "Inflow temperature", sp, {unit: "°C"}),
         thermalField("heat.walls", "Top and bottom walls", sp, (v) => this.set("heat.walls", v, true)),
       ] : null);
   }
@@ -280,20 +310,20 @@ export class CaseForm {
     const sp = this.spec;
     const shapeFields = {
       circle: () => [pointField(`${p}.center`, "Centre", sp),
-        h("div", {class: "row"}, numberField(`${p}.radius`, "Radius", sp, {unit: "m", placeholder: String(DEFAULTS.circle.radius)}),
-          numberField(`${p}.spin`, "Spin", sp, {unit: "rad/s", placeholder: "0", hint: "Counter-clockwise rotation of the surface."}))],
+        h("div", {class: "row"}, numberField(`${p}.radius`, "Radius", sp, {unit: "m"}),
+          numberField(`${p}.spin`, "Spin", sp, {unit: "rad/s", hint: "Counter-clockwise rotation of the surface."}))],
       rectangle: () => [pointField(`${p}.center`, "Centre", sp),
         h("div", {class: "row"}, numberField(`${p}.width`, "Width", sp, {unit: "m"}), numberField(`${p}.height`, "Height", sp, {unit: "m"})),
-        h("div", {class: "row"}, numberField(`${p}.angle`, "Angle", sp, {unit: "°", placeholder: "0"}),
-          numberField(`${p}.corner_radius`, "Corner radius", sp, {unit: "m", placeholder: "0"}))],
+        h("div", {class: "row"}, numberField(`${p}.angle`, "Angle", sp, {unit: "°"}),
+          numberField(`${p}.corner_radius`, "Corner radius", sp, {unit: "m"}))],
       ellipse: () => [pointField(`${p}.center`, "Centre", sp),
         h("div", {class: "row"}, numberField(`${p}.width`, "Width", sp, {unit: "m"}), numberField(`${p}.height`, "Height", sp, {unit: "m"})),
-        numberField(`${p}.angle`, "Angle", sp, {unit: "°", placeholder: "0"})],
+        numberField(`${p}.angle`, "Angle", sp, {unit: "°"})],
       naca4: () => [
-        h("div", {class: "row"}, textField(`${p}.code`, "Four digits", sp, {placeholder: "0012", hint: "Camber, its position, thickness in % of chord."}),
+        h("div", {class: "row"}, textField(`${p}.code`, "Four digits", sp, {hint: "Camber, its position, thickness in % of chord: e.g. 0012, 2412."}),
           numberField(`${p}.chord`, "Chord", sp, {unit: "m"})),
         pointField(`${p}.leading_edge`, "Leading edge", sp),
-        numberField(`${p}.angle_of_attack`, "Angle of attack", sp, {unit: "°", placeholder: "0"})],
+        numberField(`${p}.angle_of_attack`, "Angle of attack", sp, {unit: "°"})],
       polygon: () => [pointsField(`${p}.points`, "Corner points: one “x, y” pair a line (metres)", sp)],
     };
     const make = shapeFields[body.shape] ?? (() => [h("p", {class: "hint"}, `Unknown shape “${body.shape}”: edit it in the JSON.`)]);
@@ -309,7 +339,7 @@ export class CaseForm {
             "aria-label": `Remove body ${i + 1}`, onclick: () => this.removeBody(i)}, "Remove"))),
       errorSlot(p),
       h("div", {class: "row"},
-        textField(`${p}.name`, "Name", sp, {placeholder: `body${i + 1}`}),
+        textField(`${p}.name`, "Name", sp),
         selectField(`${p}.shape`, "Shape", sp, SHAPES, "circle", {rerender: true, onchange: (v) => {
           const fresh = newBody(v, ch, i);
           fresh.name = body.name || fresh.name;
@@ -366,31 +396,24 @@ export class CaseForm {
     this.update();
   }
 
+  /** Give the fluid by the other quantity, starting from the value the service derives for the case as it is. */
   switchFluid(by) {
     const fluid = (this.spec.fluid ??= {});
-    const {re, nu} = reynolds(this.spec);
-    if (by === "reynolds") {
-      delete fluid.viscosity;
-      fluid.reynolds = isNum(re) ? Number(re.toPrecision(4)) : 100;
-    } else {
-      delete fluid.reynolds;
-      fluid.viscosity = isNum(nu) ? Number(nu.toPrecision(4)) : DEFAULTS.fluid.viscosity;
-    }
+    const other = by === "reynolds" ? "viscosity" : "reynolds";
+    const value = this.derived(`fluid.${by}`);
+    delete fluid[other];
+    fluid[by] = isNum(value) ? Number(value.toPrecision(4)) : undefined;
     this.renderFields();
     this.update();
   }
 
+  /** Give the inflow by its peak or its mean, starting from the service's value for the case as it is. */
   switchInflow(by) {
     const inflow = (this.spec.inflow ??= {});
-    const factor = (inflow.profile ?? "parabolic") === "parabolic" ? 1.5 : 1;
-    const mean = nominalVelocity({...this.spec, inflow: {...inflow, time_law: {}}});
-    if (by === "mean") {
-      delete inflow.peak_velocity;
-      inflow.mean_velocity = Number(mean.toPrecision(4));
-    } else {
-      delete inflow.mean_velocity;
-      inflow.peak_velocity = Number((mean * factor).toPrecision(4));
-    }
+    const [field, other] = by === "mean" ? ["mean_velocity", "peak_velocity"] : ["peak_velocity", "mean_velocity"];
+    const value = this.derived(`inflow.${field}`);
+    delete inflow[other];
+    inflow[field] = isNum(value) ? Number(value.toPrecision(4)) : undefined;
     this.renderFields();
     this.update();
   }
@@ -398,7 +421,7 @@ export class CaseForm {
   addBody(shape) {
     const bodies = (this.spec.bodies ??= []);
     const used = new Set(bodies.map((b) => b.name));
-    const body = newBody(shape, channelOf(this.spec), bodies.length);
+    const body = newBody(shape, this.channel(), bodies.length);
     let k = bodies.length + 1;
     while (used.has(body.name)) body.name = `body${++k}`;
     bodies.push(body);
@@ -446,16 +469,13 @@ export class CaseForm {
 
   update() {
     const spec = this.currentSpec();
-    const warnings = geometryWarnings(spec);
-    this.drawing.draw(spec, new Set(warnings.map((w) => w.index)));
-    this.localWarnings = warnings;
     this.showFigures(spec);
     this.schedulePreview(spec);
     if (!this.jsonDirty && document.activeElement !== this.json) this.json.value = JSON.stringify(spec, null, 2);
   }
 
   /** Ask the service for the preview (the solver's own figures) once typing pauses for PREVIEW_DELAY ms. */
-  schedulePreview(spec) {
+  schedulePreview(spec, delay = PREVIEW_DELAY) {
     clearTimeout(this.previewTimer);
     this.previewTimer = setTimeout(async () => {
       this.previewAbort?.abort();
@@ -468,18 +488,27 @@ export class CaseForm {
         if (err.name === "AbortError") return;
         this.preview = {asked: JSON.stringify(spec), failed: err.message};
       }
+      const p = this.preview;
+      if (p.outlines?.length) this.drawn = {bodies: clone(spec.bodies ?? []), outlines: p.outlines};
+      if (p.spec) {
+        this.normal = p.spec;
+        this.lastGood = p;
+      }
+      // the service's problems go beside their fields while typing, as a submit would put them
+      if (p.problems && p.asked === JSON.stringify(this.currentSpec())) this.showErrors(p.problems, {summarise: false});
+      this.showDefaults();
       this.showFigures(this.currentSpec());
-    }, PREVIEW_DELAY);
+    }, delay);
   }
 
-  /** The live figures from the latest preview; marked as updating while the spec has changed since. */
+  /** The live figures, warnings and drawing from the latest preview; marked as updating while the spec has changed
+   * since. */
   showFigures(spec) {
-    const warnings = [...(this.localWarnings ?? [])];
     const p = this.preview;
     const stale = !p || p.asked !== JSON.stringify(spec);
-    if (!stale && p.spec) this.showDefaults(p.spec);
+    const warnings = [];
     const e = p?.estimate;
-    const transient = (spec.analysis?.mode ?? "steady") === "transient";
+    const transient = this.valueOf("analysis.mode") === "transient";
     const items = [
       ["Reynolds number", isNum(p?.reynolds) ? num(p.reynolds, 4) : "—", "U·L/ν on the reference scales"],
       ["Blockage ratio", isNum(p?.blockage) ? `${num(100 * p.blockage, 3)} %` : "—", "share of the channel height the bodies cover"],
@@ -487,17 +516,10 @@ export class CaseForm {
         ? "from a dry run of the mesher" : "estimated (too big to mesh for a preview)"}` : ""],
     ];
     if (transient) {
-      items.push(e?.steps
-        ? ["Time steps", integer(e.steps), `${num(spec.analysis?.end_time ?? 1)} s in steps of ${num(spec.analysis?.time_step)} s`]
-        : ["Time steps", e ? "chosen while it runs" : "—", "by the error control, for the accuracy asked"]);
-      const peak = nominalVelocity(spec) * ((spec.inflow?.profile ?? "parabolic") === "parabolic" ? 1.5 : 1);
-      if (isNum(e?.body_cell_size) && e.steps && isNum(peak)) {
-        const cfl = (peak * spec.analysis.time_step) / e.body_cell_size;
-        items.push(["CFL near the bodies", `≈ ${num(cfl, 2)}`, "peak speed × Δt / cell size"]);
-        if (cfl > 1 && spec.analysis?.scheme !== "bdf2-implicit") {
-          warnings.push({message: "The CFL number is above 1 with explicit convection: the solver will split the steps. Use a smaller time step or error-controlled steps."});
-        }
-      }
+      items.push(!e ? ["Time steps", "—", ""] : e.steps_method === "counted"
+        ? ["Time steps", integer(e.steps), `${num(this.valueOf("analysis.end_time"))} s in steps of ${num(this.valueOf("analysis.time_step"))} s`]
+        : ["Time steps", `about ${integer(e.steps)}`, "an estimate: the error control chooses them while it runs"]);
+      if (isNum(e?.cfl)) items.push(["CFL near the bodies", `≈ ${num(e.cfl, 2)}`, "fastest inflow × Δt on the smallest cells"]);
     }
     if (e?.pictures) {
       const {snapshots, drawn, every, cap} = e.pictures;
@@ -505,34 +527,42 @@ export class CaseForm {
         ? `every ${ordinal(every)} of ${integer(snapshots)} snapshots: at most ${cap} per field, evenly spread`
         : `one per snapshot (at most ${cap} per field)`]);
     }
-    const seconds = roughSeconds(e, transient);
-    if (seconds !== null) {
-      items.push(["Run time, roughly", duration(seconds), `from ${calibration.jobs} succeeded job(s) on this server`]);
-    }
-    if (isNum(p?.blockage) && p.blockage > 0.5) {
-      warnings.push({message: `The bodies block ${num(100 * p.blockage, 3)} % of the channel: the walls will dominate the forces.`});
-    }
-    if (p?.failed) warnings.push({message: `No preview: ${p.failed}`});
-    for (const problem of p?.problems ?? []) warnings.push({message: `${readable(problem.field)}: ${problem.message}`});
-    // the bodies the service finds fault with (overlaps, walls) are marked on the drawing too
-    const faulty = new Set((this.localWarnings ?? []).map((w) => w.index));
+    if (isNum(e?.seconds)) items.push(["Run time, roughly", duration(e.seconds), "an estimate from the unknowns and steps"]);
+    if (p?.failed) warnings.push(`No preview: ${p.failed}`);
+    for (const w of [...(p?.problems ?? []), ...(p?.warnings ?? [])]) warnings.push(`${readable(w.field)}: ${w.message}`);
+    // the bodies the service finds fault with (overlaps, walls) are marked on the drawing
+    const faulty = new Set();
     if (!stale) for (const problem of p.problems ?? []) {
       const m = /^bodies\.(\d+)/.exec(problem.field);
       if (m) faulty.add(Number(m[1]));
     }
-    if ([...faulty].some((i) => !this.drawing.warned.has(i)) || faulty.size !== this.drawing.warned.size) this.drawing.draw(spec, faulty);
+    this.drawing.draw(spec, stale ? this.drawing.warned : faulty,
+      {channel: this.channel(), profile: this.valueOf("inflow.profile"), outlines: this.outlines(spec)});
     this.figures.setAttribute("aria-busy", String(stale));
     fill(this.figures, items.map(([k, v, note]) => h("div", {class: "figure"},
       h("dt", {}, k), h("dd", {dataset: {figure: k}}, v, note ? h("small", {}, note) : null))));
-    fill(this.warnings, warnings.map((w) => h("li", {}, w.message)));
+    fill(this.warnings, warnings.map((w) => h("li", {}, w)));
   }
 
-  /** A blank field shows, as its placeholder, the value the service will use for it: the preview's normalised spec
-   * (so what the form shows and what is submitted agree; the page guesses no default of its own). */
-  showDefaults(normal) {
-    for (const input of this.root.querySelectorAll('input[data-kind="number"]')) {
-      const value = getPath(normal, input.dataset.path);
-      if (input.value.trim() === "" && typeof value === "number") input.placeholder = String(value);
+  /** The outline of each body: the solver's, from the latest preview; a body only moved since is drawn moved with
+   * it (a translation of the solver's outline), one changed otherwise once the service has answered. */
+  outlines(spec) {
+    return (spec.bodies ?? []).map((body, i) => {
+      const was = this.drawn?.bodies[i];
+      const outline = this.drawn?.outlines[i];
+      const shift = was && outline ? moved(was, body) : null;
+      return shift ? outline.points.map(([x, y]) => [x + shift[0], y + shift[1]]) : null;
+    });
+  }
+
+  /** A blank field shows, as its placeholder, the value the service will use for it: the latest preview's
+   * normalised spec (so what the form shows and what is submitted agree; the page guesses no default of its own). */
+  showDefaults() {
+    if (!this.normal) return;
+    for (const input of this.root.querySelectorAll('input[data-kind="number"], input[data-kind="text"]')) {
+      if (input.dataset.path === "title") continue;
+      const value = getPath(this.normal, input.dataset.path);
+      input.placeholder = typeof value === "number" || typeof value === "string" ? String(value) : "";
     }
   }
 
@@ -637,7 +667,9 @@ export class CaseForm {
     return slot;
   }
 
-  showErrors(problems) {
+  /** Put ``problems`` beside their fields (and the local ones); ``summarise``: list them above the form too and
+   * move the focus there (after a submit, not while typing). */
+  showErrors(problems, {summarise = true} = {}) {
     this.serverErrors = problems.length ? problems : null;
     for (const slot of this.root.querySelectorAll("[data-error-for]")) {
       slot.replaceChildren();
@@ -647,7 +679,8 @@ export class CaseForm {
     for (const [path, message] of this.localErrors) {
       if (!problems.some((p) => p.field === path)) this.putError(path, message);
     }
-    this.placeErrors(problems, true);
+    this.placeErrors(problems, summarise);
+    if (!summarise && !problems.length) this.summary.hidden = true;
   }
 
   placeErrors(problems, summarise) {
@@ -804,8 +837,7 @@ function formatPoints(pts) {
   return Array.isArray(pts) ? pts.map((p) => (Array.isArray(p) ? p.join(", ") : String(p))).join("\n") : "";
 }
 
-function defaultProbes(spec) {
-  const {length: L, height: H} = channelOf(spec);
+function defaultProbes({length: L, height: H}) {
   const r = (v) => Number(v.toPrecision(3));
   return [[r(L * 0.1), r(H / 2)], [r(L * 0.6), r(H / 2)]];
 }
@@ -818,6 +850,25 @@ function stripNulls(value) {
     return out;
   }
   return value;
+}
+
+/** Where a body's anchor (centre, leading edge or first corner) is. */
+function anchor(body) {
+  const a = body?.center ?? body?.leading_edge ?? body?.points?.[0];
+  return Array.isArray(a) && isNum(a[0]) && isNum(a[1]) ? a : null;
+}
+
+/** [dx, dy] when body ``now`` is body ``was`` moved by it and otherwise the same shape, else null. */
+function moved(was, now) {
+  const [a, b] = [anchor(was), anchor(now)];
+  if (!a || !b) return null;
+  const shape = (body, [x0, y0]) => {
+    const {center, leading_edge, points, name, thermal, spin, mount, ...rest} = body;
+    const round = (v) => Math.round(v * 1e9) / 1e9;
+    const corners = Array.isArray(points) ? points.map((p) => [round(p[0] - x0), round(p[1] - y0)]) : null;
+    return JSON.stringify({...rest, corners});
+  };
+  return shape(was, a) === shape(now, b) ? [b[0] - a[0], b[1] - a[1]] : null;
 }
 
 /** "bodies.0.radius" → "Body 1 › radius" for people. */

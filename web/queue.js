@@ -1,7 +1,6 @@
 // The queue: every job of the team, a page at a time, with filters, progress and actions.
 
 import {ACTIVE, STATES, api} from "./api.js";
-import {calibration} from "./form.js";
 import {Poller} from "./poller.js";
 import {jobTitle, stateBadge} from "./results.js";
 import {confirmCancel, duration, fill, h, num, secondsBetween, shortId, toast, when} from "./util.js";
@@ -125,7 +124,6 @@ export class QueueView {
     if (changed) {
       this.signature = signature;
       this.render();
-      learnSpeed(this.jobs);
     }
     return {active: this.jobs.some((j) => ACTIVE.has(j.state)), changed};
   }
@@ -228,19 +226,4 @@ export class QueueView {
     }
     this.load();
   }
-}
-
-/** Learn seconds per (unknown × step) from succeeded jobs, for the form's run-time estimate. */
-function learnSpeed(jobs) {
-  const rates = [];
-  for (const j of jobs) {
-    const s = j.summary;
-    if (j.state !== "succeeded" || !s?.mesh?.dofs || !s.wall_time_seconds) continue;
-    const steps = s.steps ?? s.newton?.iterations ?? 15;
-    rates.push(s.wall_time_seconds / (s.mesh.dofs * Math.max(steps, 1)));
-  }
-  if (!rates.length) return;
-  rates.sort((a, b) => a - b);
-  calibration.rate = rates[Math.floor(rates.length / 2)];
-  calibration.jobs = rates.length;
 }

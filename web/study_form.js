@@ -3,7 +3,7 @@
 // (the job preview's `sweepable`, POST /api/v1/studies/previews): the page expands nothing itself.
 
 import {api} from "./api.js";
-import {readable, roughSeconds} from "./form.js";
+import {readable} from "./form.js";
 import {duration, fill, h, integer, num} from "./util.js";
 
 /** "points.1.fluid.viscosity" → "Point 2 › fluid › viscosity"; "vary.0.range.count" → "Field 1 › range › count". */
@@ -104,7 +104,8 @@ export class StudyBuilder {
     for (const a of this.axes) {
       const keep = a.field.value;
       const options = this.fields.map((f) => h("option", {value: f.path},
-        `${readable(f.path)} (now ${num(f.value)}${f.unit === "1" ? "" : ` ${f.unit}`})`));
+        `${readable(f.path)} (now ${f.derived ? "about " : ""}${num(f.value)}${f.unit === "1" ? "" : ` ${f.unit}`}${
+          f.derived ? ", derived" : ""})`));
       fill(a.field, a.optional ? h("option", {value: ""}, "— none —") : null, ...options);
       if (this.fields.some((f) => f.path === keep) || (a.optional && keep === "")) a.field.value = keep;
     }
@@ -153,7 +154,7 @@ export class StudyBuilder {
     try {
       const p = await api.previewStudy(study);
       this.previewed = JSON.stringify(study);
-      this.showPreview(study, p);
+      this.showPreview(p);
     } catch (err) {
       this.showProblems(problemText(err));
     }
@@ -164,12 +165,11 @@ export class StudyBuilder {
     fill(this.out, h("ul", {class: "warnings study-problems"}, ...messages.map((m) => h("li", {}, m))));
   }
 
-  showPreview(study, p) {
-    const transient = (study.base.analysis?.mode ?? "steady") === "transient";
+  showPreview(p) {
     const paths = Object.keys(p.points[0]?.values ?? {});
-    const secs = p.points.map((pt) => roughSeconds(pt.estimate, transient));
-    const time = secs.every((x) => x !== null) ? `, roughly ${duration(secs.reduce((a, b) => a + b, 0))} of solving` : "";
-    const steps = transient ? (p.total.steps === null ? ", time steps chosen while each runs" : `, ${integer(p.total.steps)} time steps`) : "";
+    const time = p.total.seconds ? `, roughly ${duration(p.total.seconds)} of running (an estimate)` : "";
+    const about = p.points.some((pt) => pt.estimate.steps_method === "estimated") ? "about " : "";
+    const steps = p.total.steps !== null ? `, ${about}${integer(p.total.steps)} time steps` : "";
     fill(this.out,
       h("p", {class: "study-total", id: "study-total"}, h("strong", {}, `${integer(p.count)} points`),
         `: ${integer(p.total.cells)} cells and ${integer(p.total.dofs)} unknowns in all${steps}${time}.`),

@@ -16,7 +16,8 @@ def test_a_valid_spec_gets_figures_from_the_mesher(offline: TestClient) -> None:
     # 20 mm of the 100 mm channel; Re as in solver.load's doctest
     assert round(p["blockage"], 9) == 0.2 and round(p["reynolds"], 1) == 19.9
     assert p["estimate"]["method"] == "mesher" and p["estimate"]["cells"] > 100
-    assert p["estimate"]["steps"] is None and p["estimate"]["seconds"] is None
+    assert p["estimate"]["steps"] is None and p["estimate"]["seconds"] > 0  # steady: no steps; seconds estimated
+    assert p["warnings"] == []
     assert len(p["outlines"][0]["points"]) == 96
 
 
@@ -45,3 +46,11 @@ def test_openapi_documents_the_preview(offline: TestClient) -> None:
     op = offline.get("/openapi.json").json()["paths"]["/api/v1/previews"]["post"]
     assert op["requestBody"]["content"]["application/json"]["schema"]["$ref"] == "#/components/schemas/JobSpec"
     assert "problems" in op["description"] and "bdf2-adaptive" in op["description"]
+    assert "estimate" in op["description"] and "warnings" in op["description"]
+
+
+def test_a_fixed_step_past_the_cfl_limit_is_warned_about(offline: TestClient) -> None:
+    analysis = {"mode": "transient", "scheme": "bdf2-imex", "time_step": 2.0, "end_time": 20.0}
+    p = offline.post("/api/v1/previews", json={**POST, "mesh": {"preset": "coarse"}, "analysis": analysis}).json()
+    assert p["problems"] == [] and p["estimate"]["cfl"] > 1
+    assert [w["field"] for w in p["warnings"]] == ["analysis.time_step"]

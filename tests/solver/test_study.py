@@ -4,7 +4,7 @@ import pytest
 
 from wakeyard.solver import SpecError, load
 from wakeyard.solver.results import SteadySummary, TransientSummary
-from wakeyard.solver.study import expand, summary_values
+from wakeyard.solver.study import expand, summary_values, sweepable
 from wakeyard.solver.units import labelled, number_paths, spec_unit, value_unit
 
 PIER = {
@@ -155,3 +155,18 @@ def test_summary_values_carry_the_nusselt_number():
         "rod.nu_mean": 5.1,
         "rod.nu_amplitude": 0.2,
     }
+
+
+def test_empty_fields_a_sweep_can_set_are_offered_with_the_value_in_use():
+    spec = load({"bodies": [{"shape": "circle", "center": [0.1, 0.05], "radius": 0.01}], "fluid": {"viscosity": 1e-6}})
+    fields = {f["path"]: f for f in sweepable(spec)}
+    assert fields["fluid.viscosity"] == {"path": "fluid.viscosity", "value": 1e-6, "unit": "m^2/s"}
+    assert fields["fluid.reynolds"]["derived"] and fields["fluid.reynolds"]["value"] == pytest.approx(spec.reynolds())
+    assert fields["mesh.body_size"]["derived"] and fields["mesh.body_size"]["value"] == pytest.approx(0.02 / 40)
+    assert "analysis.time_step" not in fields  # under bdf2-adaptive only the first step: no knob to sweep
+    assert "fluid.reference.velocity" not in fields and "inflow.time_law.period" not in fields
+    # sweeping the Reynolds number of a case given by its viscosity: each point is given by its Reynolds number
+    points = expand({"base": spec.model_dump(mode="json"), "vary": [{"path": "fluid.reynolds", "values": [30, 60]}]})
+    assert [(p.fluid.viscosity, p.reynolds()) for _, p in points] == [(None, 30), (None, 60)]
+    sized = expand({"base": spec.model_dump(mode="json"), "vary": [{"path": "mesh.body_size", "values": [1e-3]}]})
+    assert sized[0][1].mesh.body_size == 1e-3

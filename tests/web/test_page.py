@@ -363,8 +363,9 @@ def test_json_spec_round_trip_and_upload(page, base_url, tmp_path) -> None:
     assert json.loads(box.input_value()) == pier
 
 
-def test_live_figures_come_from_the_services_preview(page) -> None:
-    """Cells and unknowns are the solver's (a dry run of its mesher), not a copy of its rules in the page."""
+def test_live_figures_come_from_the_services_preview(page, api) -> None:
+    """Cells, unknowns, steps and warnings are the solver's (a dry run of its mesher, its rules), not a copy of its
+    rules in the page."""
     page.goto("/#/new")
     mesh = page.locator('dd[data-figure="Mesh"]')
     spec = json.loads(page.locator("#spec-json").input_value())
@@ -373,13 +374,29 @@ def test_live_figures_come_from_the_services_preview(page) -> None:
         case = Case.build(load({**spec, "mesh": {**spec.get("mesh", {}), "preset": preset}}))
         expect(mesh).to_contain_text(f"{case.cells:,} cells")
         expect(mesh).to_contain_text(f"{case.th.ndofs:,} unknowns")
-    expect(page.locator('dd[data-figure="Time steps"]')).to_contain_text("chosen while it runs")  # bdf2-adaptive
+    # bdf2-adaptive: the service's estimate of the steps
+    spec = json.loads(page.locator("#spec-json").input_value())
+    steps = api.post("/previews", json=spec).json()["estimate"]["steps"]
+    expect(page.locator('dd[data-figure="Time steps"]')).to_contain_text(f"about {steps:,}")
+    # a fixed step far past the CFL limit of explicit convection: the service's CFL number and warning
+    page.locator("#f-analysis-scheme").select_option("bdf2-imex")
+    fill(page, "analysis.time_step", 10)
+    spec = json.loads(page.locator("#spec-json").input_value())
+    served = api.post("/previews", json=spec).json()
+    assert served["estimate"]["cfl"] > 1
+    expect(page.locator("ul.warnings")).to_contain_text(served["warnings"][0]["message"])
+    expect(page.locator('dd[data-figure="CFL near the bodies"]')).to_contain_text(f"≈ {served['estimate']['cfl']:.2g}")
+    fill(page, "analysis.time_step", 0.1)
+    expect(page.locator("ul.warnings")).not_to_contain_text("CFL")
+    page.locator("#f-analysis-scheme").select_option("bdf2-adaptive")
     # a second post on top of the first: the service's geometry problem is listed while typing, before any submit
     page.locator("#new-shape").select_option("circle")
     page.locator("#add-body").click()
     fill(page, "bodies.1.center.0", spec["bodies"][0]["center"][0])
     fill(page, "bodies.1.center.1", spec["bodies"][0]["center"][1])
     expect(page.locator("ul.warnings")).to_contain_text("overlaps")
+    expect(page.locator('[data-error-for="bodies.1"]')).to_contain_text("overlaps")  # beside the body, before a submit
+    expect(page.locator("#error-summary")).to_be_hidden()
     expect(page.locator(".case-svg .body-warn")).not_to_have_count(0)  # the drawing marks the body in fault
     expect(mesh).to_contain_text("—")
 
@@ -388,6 +405,7 @@ def test_bodies_move_with_the_keyboard(page) -> None:
     page.goto("/#/new")
     page.locator("#f-bodies-0-center-0").fill("0.2")
     body = page.locator(".case-svg g.body").first
+    expect(body).to_be_visible()  # drawn from the service's outline
     body.focus()
     page.keyboard.press("ArrowRight")
     page.keyboard.press("Shift+ArrowUp")
@@ -580,29 +598,63 @@ def test_study_view_shows_points_plot_and_links(page, api) -> None:
     shot(page, "09-studies")
 
 
-def test_placeholders_drawing_and_footer_follow_the_service(page) -> None:
+def test_placeholders_drawing_and_footer_follow_the_service(page, api) -> None:
     page.goto("/#/new")
-    # the page's copy of the spec defaults (placeholders, drawing fallbacks) is the solver's
-    defaults = page.evaluate("import('/defaults.js').then((m) => m.DEFAULTS)")
+    # the examples are the service's (examples/), the page keeps no copy of them nor of the spec's defaults
+    served = api.get("/examples").json()["examples"]
+    expect(page.locator("#example option")).to_have_count(1 + len(served))
+    offered = page.locator("#example option").evaluate_all("os => os.slice(1).map(o => [o.value, o.textContent])")
+    assert offered == [[e["name"], e["title"]] for e in served]
+    for dead in ("defaults.js", "geometry.js", "examples.js"):
+        assert api.get(f"{page.url.split('/#')[0]}/{dead}").status_code == 404
+    page.locator("#example").select_option("bridge_pier")
+    expect(page.locator("#f-title")).to_have_value(next(e["title"] for e in served if e["name"] == "bridge_pier"))
     spec = JobSpec()
-    assert defaults["channel"] == {
-        "length": spec.channel.length,
-        "height": spec.channel.height,
-        "walls": spec.channel.walls,
-    }
-    assert defaults["fluid"] == {"density": spec.fluid.density, "viscosity": spec.viscosity()}
-    assert defaults["inflow"] == {"peak_velocity": spec.inflow.peak()}
-    assert defaults["analysis"] == {
-        "newton_tolerance": spec.analysis.newton_tolerance,
-        "accuracy": spec.analysis.accuracy,
-    }
-    assert page.evaluate("import('/defaults.js').then((m) => m.ADAPTIVE)") == spec.analysis.scheme
-    circle = JobSpec.model_validate({"bodies": [{"shape": "circle"}]}).bodies[0]
-    assert defaults["circle"] == {"center": list(circle.center), "radius": circle.radius}
-    page.locator("#example").select_option("pier")
     expect(page.locator("#f-analysis-newton_tolerance")).to_have_attribute("placeholder", "1e-8")
-    expect(page.locator("#f-channel-length")).to_have_attribute("placeholder", "0.4")
+    # a blank field shows the value the service will use for it, and the drawing uses that same value
+    page.locator("#f-channel-height").fill("")
+    expect(page.locator("#f-channel-height")).to_have_attribute("placeholder", str(spec.channel.height))
+    assert "height" not in json.loads(page.locator("#spec-json").input_value())["channel"]
+    bbox = "e => { const b = e.getBBox(); return {width: b.width, height: b.height}; }"
+    channel = page.locator(".case-svg .fluid-area").evaluate(bbox)
+    assert channel["height"] / channel["width"] == pytest.approx(spec.channel.height / 0.4, rel=0.01)
     expect(page.locator("#caution-foot")).to_have_text(CAUTION)
+
+
+def test_the_drawing_shows_the_solvers_outline(page, api) -> None:
+    """The guide vane's airfoil is drawn from the outline the service's preview returns (the page has no airfoil
+    formula): the same points, scaled to the drawing."""
+    page.goto("/#/new")
+    page.locator("#example").select_option("guide_vane")
+    vane = next(e["spec"] for e in api.get("/examples").json()["examples"] if e["name"] == "guide_vane")
+    outline = api.post("/previews", json=vane).json()["outlines"][0]["points"]
+    path = page.locator(".case-svg g.body path").first
+    expect(page.locator(".case-svg g.body").first).to_have_attribute("aria-label", re.compile(r"^vane, naca4"))
+    drawn = [[float(v) for v in xy.split(",")] for xy in re.findall(r"[-\d.]+,[-\d.]+", path.get_attribute("d"))]
+    assert len(drawn) == len(outline)
+
+    def unit(points: list[list[float]], flip: bool) -> list[tuple[float, float]]:
+        xs, ys = [p[0] for p in points], [p[1] for p in points]
+        sx, sy = max(xs) - min(xs), max(ys) - min(ys)
+        return [((x - min(xs)) / sx, (max(ys) - y if flip else y - min(ys)) / sy) for x, y in points]
+
+    # the SVG's y axis points down
+    for (x0, y0), (x1, y1) in zip(unit(drawn, True), unit(outline, False)):
+        assert abs(x0 - x1) < 0.01 and abs(y0 - y1) < 0.01
+    # moving it by the keyboard moves the solver's outline with it before the service answers again
+    channel = page.locator(".case-svg .fluid-area")
+
+    def place() -> tuple[float, float]:  # the outline's left end and width, as shares of the channel's length
+        bbox = "e => { const b = e.getBBox(); return {x: b.x, width: b.width}; }"
+        box, ch = path.evaluate(bbox), channel.evaluate(bbox)
+        return (box["x"] - ch["x"]) / ch["width"], box["width"] / ch["width"]
+
+    before = place()
+    path.locator("xpath=..").focus()
+    page.keyboard.press("Shift+ArrowRight")  # a tenth of the 0.05 m channel height: 0.005 m of its 0.2 m length
+    expect(page.locator("#f-bodies-0-leading_edge-0")).to_have_value("0.045")
+    after = place()
+    assert after[1] == pytest.approx(before[1], rel=0.01) and after[0] - before[0] == pytest.approx(0.025, rel=0.05)
 
 
 def test_a_quantity_not_computed_is_shown_with_its_reason(page, api) -> None:

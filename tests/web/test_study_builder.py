@@ -37,6 +37,8 @@ def test_a_sweep_is_built_previewed_and_queued_from_the_page(page, api) -> None:
     offered = field.locator("option").evaluate_all("os => os.map(o => o.value)")
     served = [f["path"] for f in api.post("/previews", json=PIER).json()["sweepable"]]
     assert offered == served
+    # a field the case leaves empty but a sweep can set is offered with the value the run derives for it
+    expect(field.locator('option[value="fluid.reynolds"]')).to_contain_text("derived")
     field.select_option("inflow.peak_velocity")
 
     # a value the solver refuses is named in the preview's problems; nothing can be queued
