@@ -27,6 +27,7 @@ router = APIRouter(prefix="/api/v1/worker", tags=["worker"])
 LeaseHeader = Annotated[str, Header(alias="Lease", description="the lease from the claim", max_length=64)]
 _RANGE = re.compile(r"^bytes (\d+)-(\d+)/(\d+)$")
 _SHA = re.compile(r"^[0-9a-f]{64}$")
+RESTART_FILES = ("checkpoint.npz", "heat_checkpoint.npz")  # the solver's restart state, as it names it
 
 
 class BadRequest(Problem):
@@ -234,7 +235,8 @@ def finish(
         job_id, lease, outcome.state, finite(outcome.summary), outcome.error, finite(_progress(outcome.progress))
     ):
         raise Conflict("Lease", f"job {job_id} is not running under this lease: its outcome is not recorded")
-    uploads.discard_parts(job_id)
+    restart = RESTART_FILES if outcome.state == JobState.SUCCEEDED else ()  # a finished run resumes no more
+    uploads.discard(job_id, restart)
     return {"job_id": job_id, "state": outcome.state}
 
 

@@ -91,13 +91,19 @@ class Uploads:
         except FileNotFoundError:
             return {}
 
-    def discard_parts(self, job_id: str) -> None:
-        """Drop unfinished parts (the job ended); the manifest stays."""
+    def discard(self, job_id: str, paths: tuple[str, ...] = ()) -> None:
+        """The job ended: drop unfinished parts and the uploaded ``paths`` no longer needed (the restart state of a
+        finished run); the manifest keeps the rest."""
         stage = self.jobs_dir / job_id / STAGE
         if stage.is_dir():
             for entry in stage.iterdir():
                 if entry.is_dir():
                     shutil.rmtree(entry, ignore_errors=True)
+        if paths:
+            with self._manifest(job_id) as files:
+                for path in paths:
+                    (self.jobs_dir / job_id / path).unlink(missing_ok=True)
+                    files.pop(path, None)
 
     @contextmanager
     def _manifest(self, job_id: str) -> Iterator[dict[str, dict[str, Any]]]:

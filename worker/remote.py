@@ -234,7 +234,8 @@ def main() -> None:
     from wakeyard.core.blas import one_blas_thread
 
     one_blas_thread()
-    logging.basicConfig(level=logging.INFO, format="%(asctime)s %(name)s %(levelname)s: %(message)s")
+    logging.basicConfig(level=logging.WARNING, format="%(asctime)s %(name)s %(levelname)s: %(message)s")
+    log.setLevel(logging.INFO)  # what this worker does with its jobs; the libraries only when they warn
     settings = Settings()
     poll = float(os.environ.get(POLL_VARIABLE, "1.0"))
     client = ServiceClient(os.environ[URL_VARIABLE], os.environ[TOKEN_VARIABLE])

@@ -165,6 +165,8 @@ def test_an_expired_lease_can_neither_upload_nor_finish_and_the_next_claim_gets_
     assert done.status_code == 200, done.text
     job = offline.get(f"/api/v1/jobs/{job_id}", headers=user).json()
     assert job["state"] == "succeeded" and job["attempts"] == 2 and job["error"] is None
+    folder = offline.app.state.settings.jobs_dir / job_id  # type: ignore[attr-defined]
+    assert not (folder / "checkpoint.npz").exists()  # a finished run's restart state is not kept
     assert problem(box.finish(job_id, again["lease"], state="failed", error="twice"), 409)[0] == "Lease"
     files = offline.get(f"/api/v1/jobs/{job_id}/files", headers=user).json()
     assert "summary.json" in json.dumps(files) and "manifest" not in json.dumps(files)
