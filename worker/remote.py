@@ -56,14 +56,18 @@ class Uploader:
         self.thread.start()
 
     def checkpoint(self, step: int) -> None:
-        """Called by the solver right after checkpoint ``step``: copy its restart files (the solver replaces them
-        at the next checkpoint), list its finished snapshots, and leave both to the upload thread."""
+        """Called by the solver right after checkpoint ``step``: keep its restart files (hard links, so no copying
+        stalls the solver: it replaces them by renaming at the next checkpoint), list its finished snapshots, and
+        leave both to the upload thread."""
         stage = self.out / STAGING / f"{step:09d}"
         stage.mkdir(parents=True, exist_ok=True)
         restart = []
         for name in CHECKPOINTS:
             if (self.out / name).exists():
-                shutil.copy2(self.out / name, stage / name)
+                try:
+                    os.link(self.out / name, stage / name)
+                except OSError:  # a file system without hard links
+                    shutil.copy2(self.out / name, stage / name)
                 restart.append((stage / name, name))
         snapshots = [(p, f"fields/{p.name}") for p in sorted((self.out / "fields").glob("step_*.*"))]
         done = [(p, r) for p, r in snapshots if _step_of(p) <= step and p.suffix in (".npz", ".vtu")]
