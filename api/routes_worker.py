@@ -27,6 +27,7 @@ router = APIRouter(prefix="/api/v1/worker", tags=["worker"])
 LeaseHeader = Annotated[str, Header(alias="Lease", description="the lease from the claim", max_length=64)]
 _RANGE = re.compile(r"^bytes (\d+)-(\d+)/(\d+)$")
 _SHA = re.compile(r"^[0-9a-f]{64}$")
+CLASH = (IsADirectoryError, NotADirectoryError, FileExistsError)  # "a/b" where "a" is a file, or the reverse
 RESTART_FILES = ("checkpoint.npz", "heat_checkpoint.npz")  # the solver's restart state, as it names it
 
 
@@ -187,7 +188,10 @@ async def upload(
     have = uploads.received(job_id, lease, path)
     if start not in (0, have):
         raise Conflict("Content-Range", f"the service has {have} bytes of {path}: continue from byte {have}")
-    f = await run_in_threadpool(uploads.open_part, job_id, lease, path, start)
+    try:
+        f = await run_in_threadpool(uploads.open_part, job_id, lease, path, start)
+    except CLASH:
+        raise Conflict("path", f"{path} clashes with a file or folder of the same name in the upload") from None
     got = 0
     try:
         async for chunk in request.stream():
@@ -203,7 +207,10 @@ async def upload(
     if have < total:
         return JSONResponse({"path": path, "received": have}, status_code=202)
     await _hold(store, job_id, lease)  # a lease lost during the transfer: the file does not go into the job
-    found = await run_in_threadpool(uploads.publish, job_id, lease, path, sha256)
+    try:
+        found = await run_in_threadpool(uploads.publish, job_id, lease, path, sha256)
+    except CLASH:
+        raise Conflict("path", f"{path} clashes with a file or folder of the same name in the job") from None
     if found is not None:
         raise Unprocessable(
             "Content-SHA256", f"the {have} bytes received hash to {found}, not {sha256}: discarded, send it again"

@@ -132,6 +132,10 @@ def test_an_upload_resumes_from_what_arrived_and_is_checked_by_size_and_hash(off
     assert not (folder / "forces.csv").exists() and box.received(job_id, lease, "forces.csv") == 0
     assert problem(box.put(job_id, lease, ".uploads/manifest.json", b"{}", sha(b"{}")), 422)[0] == "path"
     assert problem(box.put(job_id, lease, "forces.csv", bad, "nothex"), 400)[0] == "Content-SHA256"
+    field, message = problem(box.put(job_id, lease, "fields", b"x", sha(b"x")), 409)  # a folder of the job
+    assert field == "path" and "clashes" in message
+    field, message = problem(box.put(job_id, lease, "fields/step_000005.npz/x", b"x", sha(b"x")), 409)
+    assert field == "path" and "clashes" in message
     manifest = json.loads((folder / ".uploads" / "manifest.json").read_text())
     assert manifest == {"fields/step_000005.npz": {"size": len(data), "sha256": sha(data)}}
 
