@@ -67,11 +67,11 @@ class Claim(BaseModel):
 
 
 class Progress(BaseModel):
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
     fraction: float = Field(ge=0, le=1)
-    step: int = Field(ge=0)
+    step: int = Field(ge=0, le=2**31 - 1)  # the job store's integer column
     time: float
-    eta_seconds: float | None = None
+    eta_seconds: float | None = Field(None, ge=0)
 
 
 class Beat(BaseModel):

@@ -10,6 +10,7 @@ the outcome. Started by the supervisor (``python -m wakeyard.worker.remote``), o
 from __future__ import annotations
 
 import logging
+import math
 import os
 import shutil
 import signal
@@ -130,15 +131,7 @@ class RemoteLedger:
         self.client, self.uploader = client, uploader
 
     def heartbeat(self, job_id: str, claim: str, values: dict[str, Any]) -> tuple[bool, bool]:
-        progress = None
-        if values:
-            progress = {
-                "fraction": values["progress_fraction"],
-                "step": values["progress_step"],
-                "time": values["progress_time"],
-                "eta_seconds": values["eta_seconds"],
-            }
-        return self.client.heartbeat(job_id, claim, progress)
+        return self.client.heartbeat(job_id, claim, _progress(values))
 
     def finish(
         self,
@@ -151,14 +144,7 @@ class RemoteLedger:
     ) -> bool:
         try:
             self.uploader.results()
-            outcome = {"state": str(state), "summary": summary, "error": error}
-            if progress:
-                outcome["progress"] = {
-                    "fraction": progress["progress_fraction"],
-                    "step": progress["progress_step"],
-                    "time": progress["progress_time"],
-                    "eta_seconds": progress.get("eta_seconds"),
-                }
+            outcome = {"state": str(state), "summary": summary, "error": error, "progress": _progress(progress or {})}
             self.client.finish(job_id, claim, outcome)
         except LeaseLost:
             return False
@@ -171,6 +157,25 @@ class RemoteLedger:
         except LeaseLost:
             return False
         return True
+
+
+def _progress(values: dict[str, Any]) -> dict[str, Any] | None:
+    """The attempt's progress as the service takes it: within its bounds, so that a heartbeat is never refused
+    for an odd value (a refused heartbeat would let the lease run out)."""
+    if not values:
+        return None
+
+    def number(key: str) -> float | None:
+        value = values.get(key)
+        return float(value) if value is not None and math.isfinite(value) else None
+
+    eta = number("eta_seconds")
+    return {
+        "fraction": min(1.0, max(0.0, number("progress_fraction") or 0.0)),
+        "step": min(2**31 - 1, max(0, int(values.get("progress_step") or 0))),
+        "time": number("progress_time") or 0.0,
+        "eta_seconds": eta if eta is not None and eta >= 0 else None,
+    }
 
 
 def prepare(client: ServiceClient, job: Claimed, files: list[dict[str, Any]], out: Path) -> int | None:
