@@ -77,6 +77,7 @@ class Progress(BaseModel):
 class Beat(BaseModel):
     model_config = ConfigDict(extra="forbid")
     progress: Progress | None = None
+    worker: str | None = Field(None, min_length=1, max_length=100, description="as in the claim: counts as alive")
 
 
 class BeatAnswer(BaseModel):
@@ -132,8 +133,10 @@ def claim(wanted: ClaimRequest, store: StoreDep, settings: SettingsDep, worker: 
 
 
 @router.post("/jobs/{job_id}/heartbeat", response_model=BeatAnswer, summary="Extend the lease, report progress")
-def heartbeat(job_id: str, beat: Beat, lease: LeaseHeader, store: StoreDep, _: WorkerDep) -> BeatAnswer:
+def heartbeat(job_id: str, beat: Beat, lease: LeaseHeader, store: StoreDep, worker: WorkerDep) -> BeatAnswer:
     ours, cancel = store.heartbeat(job_id, lease, finite(_progress(beat.progress)))
+    if ours and beat.worker:  # a busy remote worker is alive too (health, the lease's wake-ups)
+        store.worker_alive(f"{worker.name}/{beat.worker}")
     return BeatAnswer(lease_held=ours, cancel=cancel)
 
 

@@ -100,6 +100,8 @@ def main(argv: list[str] | None = None) -> int:
     if args.command == "migrate":
         return service.migrate()
     if args.command == "worker" and args.url:
+        if args.check:
+            parser.error("--check asks the job store: it works without --url only")
         if not args.token:
             parser.error("--url needs --token (or WAKEYARD_WORKER_TOKEN): a worker token")
         if args.poll <= 0:

@@ -55,6 +55,7 @@ class Attempt:
         self.first: tuple[float, float] | None = None
         self.stop = threading.Event()
         self.done = threading.Event()
+        self.finishing = threading.Event()  # the outcome is being recorded: a lease that ends now ended by it
         self.lost = False
 
     def progress(self, p: solver.Progress) -> None:
@@ -87,6 +88,8 @@ class Attempt:
             ours, cancel = self.ledger.heartbeat(self.job.id, self.job.claim, values)
         except Exception:  # keep computing through a database or network hiccup; the lease decides
             log.exception("heartbeat of %s failed", self.job.id)
+            return
+        if not ours and self.finishing.is_set():
             return
         if not ours:
             log.warning("job %s is no longer ours (lease expired): stopping", self.job.id)
@@ -136,6 +139,7 @@ class Attempt:
             state, error = JobState.FAILED, _unexpected(self.job.id, err)
         if self.lost:
             return
+        self.finishing.set()
         if state == JobState.CANCELLED and not self.stop.is_set():  # stopped by SIGTERM, not by a cancel request
             if self.ledger.release(self.job.id, self.job.claim):
                 log.warning("job %s handed back to the queue: this worker is stopping", self.job.id)

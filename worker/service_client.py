@@ -60,6 +60,7 @@ class ServiceClient:
             headers={"Authorization": f"Bearer {token}"},
             timeout=timeout,
         )
+        self.worker: str | None = None  # this process, as its claims name it (heartbeats say it too)
 
     def close(self) -> None:
         self.http.close()
@@ -85,12 +86,14 @@ class ServiceClient:
 
     def claim(self, worker: str) -> dict[str, Any] | None:
         """The next job (id, lease, attempts, spec, files uploaded so far), or None when none is waiting."""
+        self.worker = worker
         r = self._checked(self._retried(lambda: self.http.post("/claim", json={"worker": worker}), "claim"))
         return None if r.status_code == 204 else r.json()
 
     def heartbeat(self, job_id: str, lease: str, progress: dict[str, Any] | None) -> tuple[bool, bool]:
         """(lease still held, cancel requested); one try: the next beat comes soon."""
-        r = self.http.post(f"/jobs/{job_id}/heartbeat", json={"progress": progress}, headers={"Lease": lease})
+        beat = {"progress": progress, "worker": self.worker}
+        r = self.http.post(f"/jobs/{job_id}/heartbeat", json=beat, headers={"Lease": lease})
         answer = self._checked(r).json()
         return bool(answer["lease_held"]), bool(answer["cancel"])
 

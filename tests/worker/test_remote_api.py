@@ -91,12 +91,15 @@ def test_a_claim_carries_the_spec_and_a_lease_that_heartbeats_extend(offline: Te
     assert job["job_id"] == job_id and job["attempts"] == 1 and job["files"] == []
     assert job["spec"]["analysis"]["end_time"] == tiny()["analysis"]["end_time"]
     assert box.claim().status_code == 204  # nothing else waits
+    store: Store = offline.app.state.store  # type: ignore[attr-defined]
+    store.worker_gone("box-2/box:1")  # seen at its claim: now its heartbeats alone must keep it counted
     beat = offline.post(
         f"/api/v1/worker/jobs/{job_id}/heartbeat",
-        json={"progress": {"fraction": 0.25, "step": 7, "time": 0.07}},
+        json={"progress": {"fraction": 0.25, "step": 7, "time": 0.07}, "worker": "box:1"},
         headers={**box.headers, "Lease": job["lease"]},
     )
     assert beat.json() == {"lease_held": True, "cancel": False}
+    assert store.workers_seen(within=60) == 1  # the busy box counts as a live worker (health)
     seen = offline.get(f"/api/v1/jobs/{job_id}", headers=user).json()
     assert seen["state"] == "running" and seen["progress"]["step"] == 7
     assert offline.post(f"/api/v1/jobs/{job_id}/cancel", headers=user).status_code == 200
