@@ -8,6 +8,7 @@ Every call about a job names its lease (the claim's fencing token, header ``Leas
 from __future__ import annotations
 
 import re
+from functools import partial
 from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Header, Request, Response
@@ -21,7 +22,7 @@ from wakeyard.core.store import finite
 
 from .deps import SettingsDep, StoreDep, WorkerDep
 from .problems import Conflict, NotFound, Problem
-from .uploads import Uploads, path_problem
+from .uploads import LeaseEnded, Uploads, path_problem
 
 router = APIRouter(prefix="/api/v1/worker", tags=["worker"])
 LeaseHeader = Annotated[str, Header(alias="Lease", description="the lease from the claim", max_length=64)]
@@ -64,6 +65,8 @@ class Claim(BaseModel):
     attempts: int
     spec: dict[str, Any]
     files: list[UploadedFile] = Field(description="what earlier attempts uploaded: the checkpoint to resume from")
+    heartbeat_seconds: float = Field(description="send a heartbeat this often: the service's lease counts on it")
+    max_wall_time: float = Field(description="seconds this attempt may run, as on the service's own workers")
 
 
 class Progress(BaseModel):
@@ -129,6 +132,8 @@ def claim(wanted: ClaimRequest, store: StoreDep, settings: SettingsDep, worker: 
         attempts=job.attempts,
         spec=job.spec,
         files=[UploadedFile(path=p, **f) for p, f in sorted(files.items())],
+        heartbeat_seconds=settings.heartbeat_seconds,
+        max_wall_time=settings.max_wall_time,
     )
 
 
@@ -209,11 +214,13 @@ async def upload(
     have = uploads.received(job_id, lease, path)
     if have < total:
         return JSONResponse({"path": path, "received": have}, status_code=202)
-    await _hold(store, job_id, lease)  # a lease lost during the transfer: the file does not go into the job
-    try:
-        found = await run_in_threadpool(uploads.publish, job_id, lease, path, sha256)
+    try:  # a lease lost during the transfer: the file does not go into the job
+        held = partial(store.lease_held, job_id, lease)
+        found = await run_in_threadpool(uploads.publish, job_id, lease, path, sha256, held)
     except CLASH:
         raise Conflict("path", f"{path} clashes with a file or folder of the same name in the job") from None
+    except LeaseEnded:
+        raise Conflict("Lease", f"job {job_id} is no longer running under this lease: {path} was discarded") from None
     if found is not None:
         raise Unprocessable(
             "Content-SHA256", f"the {have} bytes received hash to {found}, not {sha256}: discarded, send it again"

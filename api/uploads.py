@@ -13,7 +13,7 @@ import json
 import os
 import re
 import shutil
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
@@ -42,6 +42,10 @@ def sha256_of(path: Path) -> str:
     return h.hexdigest()
 
 
+class LeaseEnded(Exception):
+    """The upload's lease ended before its file could move into the job's folder."""
+
+
 class Uploads:
     """The upload side of one data folder's jobs (``jobs_dir``)."""
 
@@ -67,9 +71,9 @@ class Uploads:
         f.seek(start)
         return f
 
-    def publish(self, job_id: str, lease: str, path: str, sha256: str) -> str | None:
+    def publish(self, job_id: str, lease: str, path: str, sha256: str, held: Callable[[], bool]) -> str | None:
         """Move the complete part into the job folder if its hash is ``sha256`` (else discard it and return the hash
-        it had); record it in the manifest."""
+        it had) and the lease is still ``held`` (else raise :class:`LeaseEnded`); record it in the manifest."""
         part = self.part(job_id, lease, path)
         found = sha256_of(part)
         if found != sha256:
@@ -78,7 +82,10 @@ class Uploads:
         target = self.jobs_dir / job_id / path
         target.parent.mkdir(parents=True, exist_ok=True)
         size = part.stat().st_size
-        with self._manifest(job_id) as files:
+        with self._manifest(job_id) as files:  # under the lock: no other upload to the job comes in between
+            if not held():
+                part.unlink(missing_ok=True)
+                raise LeaseEnded(job_id)
             os.replace(part, target)
             files[path] = {"size": size, "sha256": sha256}
         return None

@@ -220,8 +220,11 @@ def run_one(client: ServiceClient, settings: Settings, name: str) -> bool:
     else:
         log.info("job %s (attempt %d): resuming from the uploaded checkpoint of step %d", job.id, job.attempts, step)
     uploader = Uploader(client, job, out)
+    rules = settings.model_copy(  # the service's, as its own workers have them
+        update={"heartbeat_seconds": claimed["heartbeat_seconds"], "max_wall_time": claimed["max_wall_time"]}
+    )
     try:
-        Attempt(RemoteLedger(client, uploader), settings, job, SHUTDOWN, out, uploader.checkpoint).run()
+        Attempt(RemoteLedger(client, uploader), rules, job, SHUTDOWN, out, uploader.checkpoint).run()
     finally:
         uploader.close()
     log.info("job %s: done here", job.id)

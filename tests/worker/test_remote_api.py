@@ -89,6 +89,8 @@ def test_a_claim_carries_the_spec_and_a_lease_that_heartbeats_extend(offline: Te
     assert claimed.status_code == 200, claimed.text
     job = claimed.json()
     assert job["job_id"] == job_id and job["attempts"] == 1 and job["files"] == []
+    settings = offline.app.state.settings  # type: ignore[attr-defined]
+    assert (job["heartbeat_seconds"], job["max_wall_time"]) == (settings.heartbeat_seconds, settings.max_wall_time)
     assert job["spec"]["analysis"]["end_time"] == tiny()["analysis"]["end_time"]
     assert box.claim().status_code == 204  # nothing else waits
     store: Store = offline.app.state.store  # type: ignore[attr-defined]

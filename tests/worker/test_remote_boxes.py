@@ -157,7 +157,7 @@ def test_a_job_whose_box_vanishes_resumes_on_another_box_from_its_uploaded_check
     hosts.start(
         hosts.service,
         ["serve", "--host", "0.0.0.0", "--port", str(PORT), "--data", str(service_data), "--workers", "0"],
-        _clean_env(WAKEYARD_LEASE_SECONDS="4", WAKEYARD_REAPER_SECONDS="0.5"),
+        _clean_env(WAKEYARD_LEASE_SECONDS="4", WAKEYARD_REAPER_SECONDS="0.5", WAKEYARD_HEARTBEAT_SECONDS="0.5"),
         service_log,
     )
     api = httpx.Client(base_url=hosts.url(0) + "/api/v1", headers={"Authorization": f"Bearer {admin}"}, timeout=10)
@@ -172,7 +172,7 @@ def test_a_job_whose_box_vanishes_resumes_on_another_box_from_its_uploaded_check
     logs = {name: tmp_path / f"{name}.log" for name in hosts.boxes}
     for k, (name, ns) in enumerate(hosts.boxes.items(), start=1):
         secret = _token(service_data, name, "--worker")
-        env = _clean_env(WAKEYARD_WORKER_TOKEN=secret, WAKEYARD_WORKERS="1", WAKEYARD_HEARTBEAT_SECONDS="0.5")
+        env = _clean_env(WAKEYARD_WORKER_TOKEN=secret, WAKEYARD_WORKERS="1")
         hosts.start(ns, ["worker", "--url", hosts.url(k), "--data", str(tmp_path / name)], env, logs[name])
     every_log = [service_log, *logs.values()]
     for log in logs.values():

@@ -57,9 +57,10 @@ def test_a_stopped_box_hands_its_job_back_and_the_next_box_resumes_it(tmp_path: 
     admin, box = _token(data, "ana", "--admin"), _token(data, "box", "--worker")
     procs, logs = [], [tmp_path / "service.log", tmp_path / "box-1.log", tmp_path / "box-2.log"]
     serve = ["serve", "--port", str(port), "--data", str(data), "--workers", "0"]
-    procs.append(_start(serve, _env(WAKEYARD_LEASE_SECONDS="600"), logs[0]))  # only a hand-back re-queues quickly
+    service_env = _env(WAKEYARD_LEASE_SECONDS="600", WAKEYARD_HEARTBEAT_SECONDS="0.5")  # only a hand-back re-queues
+    procs.append(_start(serve, service_env, logs[0]))
     url = f"http://127.0.0.1:{port}"
-    worker_env = _env(WAKEYARD_WORKER_TOKEN=box, WAKEYARD_WORKERS="1", WAKEYARD_HEARTBEAT_SECONDS="0.5")
+    worker_env = _env(WAKEYARD_WORKER_TOKEN=box, WAKEYARD_WORKERS="1")
     api = httpx.Client(base_url=url + "/api/v1", headers={"Authorization": f"Bearer {admin}"}, timeout=10)
     try:
 
