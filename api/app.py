@@ -27,6 +27,7 @@ from . import (
     routes_study_previews,
     routes_tokens,
     routes_usage,
+    routes_worker,
 )
 from .dispatch import Dispatcher
 from .docs import install_docs
@@ -88,6 +89,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         routes_studies,
         routes_tokens,
         routes_usage,
+        routes_worker,
         routes_ops,
         routes_examples,
     ):

@@ -19,16 +19,18 @@ from wakeyard.core.store import Store, TokenRefused
 
 from .auth import digest
 from .dispatch import Dispatcher
-from .problems import Unauthorized
+from .problems import Forbidden, Unauthorized
 from .quota import Quota
 
 LOCAL_USER = "local"
+WORKER = "worker"  # the token kind of compute boxes (``wakeyard token create NAME --worker``)
 
 
 @dataclass(frozen=True)
 class User:
     name: str
     admin: bool
+    kind: str = "user"
 
 
 async def get_settings(request: Request) -> Settings:
@@ -63,6 +65,18 @@ bearer = HTTPBearer(
 )
 
 
+async def _token_holder(store: Store, token: str) -> User:
+    """The live token's holder (almost always from the cache; else the database, from the thread pool)."""
+    key = digest(token.strip())
+    user = store.known_token_user(key)
+    if user is None:
+        try:
+            user = await run_in_threadpool(store.token_user, key)
+        except TokenRefused as refused:  # unknown, expired or revoked
+            raise Unauthorized("Authorization", str(refused)) from None
+    return User(*user)
+
+
 async def current_user(
     request: Request,
     store: StoreDep,
@@ -71,17 +85,13 @@ async def current_user(
     """The caller; without any token configured the service is single-user (the CLI allows that only on loopback).
 
     Its answers are almost always cached; when the database must be asked, that happens in the thread pool, never
-    on the event loop."""
+    on the event loop. A worker token is refused here: a compute box may only use the worker endpoints."""
     field = "Authorization"
     if credentials is not None and credentials.credentials:
-        key = digest(credentials.credentials.strip())
-        user = store.known_token_user(key)
-        if user is None:
-            try:
-                user = await run_in_threadpool(store.token_user, key)
-            except TokenRefused as refused:  # unknown, expired or revoked
-                raise Unauthorized(field, str(refused)) from None
-        return User(*user)
+        user = await _token_holder(store, credentials.credentials)
+        if user.kind == WORKER:
+            raise Forbidden(field, f"{user.name} holds a worker token: it may only call /api/v1/worker")
+        return user
     if request.headers.get("authorization"):
         raise Unauthorized(field, "use the header Authorization: Bearer <token>")
     required = store.tokens_required_cached()
@@ -93,3 +103,19 @@ async def current_user(
 
 
 UserDep = Annotated[User, Depends(current_user)]
+
+
+async def current_worker(
+    store: StoreDep, credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(bearer)]
+) -> User:
+    """A compute box with a worker token: always needed, even on a service that has no user tokens."""
+    field = "Authorization"
+    if credentials is None or not credentials.credentials:
+        raise Unauthorized(field, "the worker endpoints need a worker token: Authorization: Bearer <token>")
+    user = await _token_holder(store, credentials.credentials)
+    if user.kind != WORKER:
+        raise Forbidden(field, f"{user.name} holds a {user.kind} token: only a worker token may call /api/v1/worker")
+    return user
+
+
+WorkerDep = Annotated[User, Depends(current_worker)]

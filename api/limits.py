@@ -13,11 +13,14 @@ from .problems import SpecProblems
 
 
 class BodyLimit:
-    def __init__(self, app: ASGIApp, max_bytes: int, max_seconds: float):
-        self.app, self.max_bytes, self.max_seconds = app, max_bytes, max_seconds
+    """``streamed``: the path prefix of PUT uploads, which check their own size (remote workers' result files)."""
+
+    def __init__(self, app: ASGIApp, max_bytes: int, max_seconds: float, streamed: str = "/api/v1/worker/jobs/"):
+        self.app, self.max_bytes, self.max_seconds, self.streamed = app, max_bytes, max_seconds, streamed
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
-        if scope["type"] != "http":
+        uploading = scope["type"] == "http" and scope["method"] == "PUT" and scope["path"].startswith(self.streamed)
+        if scope["type"] != "http" or uploading:
             await self.app(scope, receive, send)
             return
         declared = dict(scope["headers"]).get(b"content-length")

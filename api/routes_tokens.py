@@ -32,6 +32,7 @@ def view(token: Token) -> dict[str, Any]:
         "id": token.id,
         "name": token.name,
         "admin": token.admin,
+        "kind": token.kind,
         "state": token_state(token, utcnow()),
         **{k: v.isoformat() if v is not None else None for k, v in stamp.items()},
     }

@@ -30,9 +30,24 @@ def main(argv: list[str] | None = None) -> int:
         metavar="N",
         help="API processes sharing the port (default 1); the lease reaper runs in one of them",
     )
-    p_worker = sub.add_parser("worker", help="only workers (more boxes sharing the broker and database)")
-    p_worker.add_argument("--data", type=Path)
+    p_worker = sub.add_parser(
+        "worker",
+        help="only workers: with --url on a box that reaches the service over HTTP alone, else sharing the broker, "
+        "database and data folder",
+    )
+    p_worker.add_argument("--data", type=Path, help="data folder (with --url: this box's own, for running jobs)")
     p_worker.add_argument("--workers", type=int)
+    p_worker.add_argument(
+        "--url", help="the service (e.g. http://10.0.0.5:8000): claim jobs and upload results over HTTP"
+    )
+    p_worker.add_argument(
+        "--token",
+        default=os.environ.get("WAKEYARD_WORKER_TOKEN"),
+        help="with --url: a worker token (`wakeyard token create NAME --worker`; default: WAKEYARD_WORKER_TOKEN)",
+    )
+    p_worker.add_argument(
+        "--poll", type=float, default=1.0, metavar="SECONDS", help="with --url: how often an idle worker asks"
+    )
     p_worker.add_argument(
         "--check",
         action="store_true",
@@ -58,6 +73,9 @@ def main(argv: list[str] | None = None) -> int:
     p_create = token_sub.add_parser("create", help="create a token and print it (shown only once)")
     p_create.add_argument("name")
     p_create.add_argument("--admin", action="store_true", help="may change anyone's jobs and manage tokens")
+    p_create.add_argument(
+        "--worker", action="store_true", help="a compute box's token: only claims jobs and uploads their results"
+    )
     p_create.add_argument("--expires", type=int, metavar="DAYS", help="stops working after DAYS days (default: never)")
     p_create.add_argument("--data", type=Path)
     p_list = token_sub.add_parser("list", help="the tokens: id, name, state, expiry, last use (never the secrets)")
@@ -81,12 +99,20 @@ def main(argv: list[str] | None = None) -> int:
         return service.serve(args.host, args.port, args.api_processes)
     if args.command == "migrate":
         return service.migrate()
+    if args.command == "worker" and args.url:
+        if args.check:
+            parser.error("--check asks the job store: it works without --url only")
+        if not args.token:
+            parser.error("--url needs --token (or WAKEYARD_WORKER_TOKEN): a worker token")
+        if args.poll <= 0:
+            parser.error("--poll: more than 0 seconds")
+        return service.remote_worker(args.url, args.token, args.poll)
     if args.command == "worker":
         return service.check_worker() if args.check else service.worker()
     from . import tokens
 
     if args.token_command == "create":
-        return tokens.create(args.name, args.admin, args.expires)
+        return tokens.create(args.name, args.admin, args.expires, args.worker)
     return tokens.show() if args.token_command == "list" else tokens.revoke(args.id)
 
 

@@ -298,6 +298,33 @@ def worker() -> int:
     return 0
 
 
+def remote_worker(url: str, token: str, poll: float) -> int:
+    """``wakeyard worker --url``: worker processes on this box that reach the service over HTTP only (no database,
+    broker or shared folder); a running job is handed back to the service when they are stopped."""
+    from wakeyard.core.settings import Settings
+    from wakeyard.worker.remote import POLL_VARIABLE, TOKEN_VARIABLE, URL_VARIABLE
+    from wakeyard.worker.supervisor import Supervisor
+
+    _log_to_stderr()
+    settings = Settings()
+    settings.jobs_dir.mkdir(parents=True, exist_ok=True)
+    os.environ.update({URL_VARIABLE: url, TOKEN_VARIABLE: token, POLL_VARIABLE: str(poll)})  # the children's
+    count = settings.workers or os.cpu_count() or 1
+    supervisor = Supervisor(count, "info", module="wakeyard.worker.remote")
+    supervising = threading.Thread(target=supervisor.run, name="wakeyard-supervisor")
+
+    def stop(sig: int, _: FrameType | None) -> None:
+        supervisor.stopping.set()
+
+    for sig in (signal.SIGINT, signal.SIGTERM):
+        signal.signal(sig, stop)
+    print(f"{count} worker process(es) taking jobs from {url}, data in {settings.data_dir.resolve()}", flush=True)
+    supervising.start()
+    while supervising.is_alive():
+        supervising.join(0.5)
+    return 0
+
+
 def check_worker() -> int:
     """For container health checks: a worker process of this host has reported in within the lease."""
     import socket

@@ -56,6 +56,9 @@ class Settings(BaseSettings):
         description="field files, pictures and checkpoints of jobs finished longer ago are deleted (summary, forces "
         "and spec stay); 0: kept until the job is deleted",
     )
+    max_upload_mb: float = Field(
+        8192.0, gt=0, description="the largest file a remote worker (`wakeyard worker --url`) may upload"
+    )
     disk_sweep_seconds: float = Field(
         30.0, gt=0, description="how often job folders are measured (disk use per user) and the retention applied"
     )
@@ -63,6 +66,10 @@ class Settings(BaseSettings):
     @property
     def user_quota_bytes(self) -> int:
         return int(self.user_quota_mb * 2**20)
+
+    @property
+    def max_upload_bytes(self) -> int:
+        return int(self.max_upload_mb * 2**20)
 
     @property
     def jobs_dir(self) -> Path:

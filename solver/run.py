@@ -61,12 +61,15 @@ def run(
     should_stop: Callable[[], bool] | None = None,
     wall_time_limit: float | None = None,
     resume: bool = True,
+    on_checkpoint: Callable[[int], None] | None = None,
 ) -> dict[str, Any]:
     """Compute ``spec`` and write forces.csv, summary.json, fields/ and pictures to ``out``.
 
     ``should_stop`` is polled between steps (cancellation); a transient run
     checkpoints every ``analysis.checkpoint_interval`` steps and, with
-    ``resume``, continues from the last checkpoint in ``out``. status.json
+    ``resume``, continues from the last checkpoint in ``out``; ``on_checkpoint``
+    (step) is called, in the solver's thread, right after each checkpoint is
+    complete on disk (a remote worker copies and uploads it). status.json
     always tells how the run ended. Returns summary.json's content (a
     :mod:`solver.results` summary model, dumped).
 
@@ -96,7 +99,7 @@ def run(
         if spec.analysis.mode == "steady":
             summary = _steady(case, out, progress)
         else:
-            summary = _Transient(case, out, progress, should_stop, deadline, resume).run()
+            summary = _Transient(case, out, progress, should_stop, deadline, resume, on_checkpoint).run()
         summary.unavailable = dict(case.unavailable)
         summary.wall_time_seconds = time.perf_counter() - started
         summary.caution = CAUTION
@@ -246,9 +249,10 @@ class _Transient:
         should_stop: Callable[[], bool] | None,
         deadline: float,
         resume: bool,
+        on_checkpoint: Callable[[int], None] | None = None,
     ):
         self.case, self.out, self.progress, self.should_stop = case, out, progress, should_stop
-        self.deadline, self.resume = deadline, resume
+        self.deadline, self.resume, self.on_checkpoint = deadline, resume, on_checkpoint
         a = case.spec.analysis
         self.output_interval = picture_choice.interval(a.end_time, a.output_interval)
         self.columns = [*case.columns(), "time_step", *case.motion_columns()]
@@ -300,6 +304,8 @@ class _Transient:
                     self.snapshots.append(stepper.n)
                 if stepper.n % a.checkpoint_interval == 0:
                     self._checkpoint(stepper)
+                    if self.on_checkpoint:
+                        self.on_checkpoint(stepper.n)
                 if a.until_periodic and stepper.n % 20 == 0 and self._periodic():
                     ended_by = "periodic"
                     if self.snapshots[-1] != stepper.n:

@@ -25,8 +25,12 @@ MAX_BACKOFF = 60.0
 
 
 class Supervisor:
-    def __init__(self, count: int, loglevel: str = "info", keep_fds: Sequence[int] = ()):
-        self.count, self.loglevel, self.keep_fds = count, loglevel, tuple(keep_fds)
+    def __init__(
+        self, count: int, loglevel: str = "info", keep_fds: Sequence[int] = (), module: str = "wakeyard.worker.child"
+    ):
+        """``module``: what each process runs (``worker.child``, a Celery worker on the job store, or
+        ``worker.remote``, a worker that reaches only the service's HTTP endpoints)."""
+        self.count, self.loglevel, self.keep_fds, self.module = count, loglevel, tuple(keep_fds), module
         self.procs: list[subprocess.Popen[bytes] | None] = [None] * count
         self.born = [0.0] * count
         self.failures = [0] * count
@@ -66,7 +70,7 @@ class Supervisor:
         env = {**os.environ, "WAKEYARD_SUPERVISOR_PID": str(os.getpid())}
         try:  # a group of its own: a Ctrl-C in the terminal reaches only the supervisor, which stops the children
             proc = subprocess.Popen(
-                [sys.executable, "-m", "wakeyard.worker.child", self.loglevel],
+                [sys.executable, "-m", self.module, self.loglevel],
                 env=env,
                 pass_fds=self.keep_fds,
                 process_group=0,

@@ -95,6 +95,14 @@ class Leases(Repository):
             cancel = bool(s.scalar(select(Job.cancel_requested).where(Job.id == job_id)))
             return ours, cancel
 
+    def lease_held(self, job_id: str, claim: str) -> bool:
+        """The job is running under this claim (a remote worker's upload or download is its holder's)."""
+        with self.session() as s:
+            found = s.scalar(
+                select(func.count()).where(Job.id == job_id, Job.claim == claim, Job.state == JobState.RUNNING)
+            )
+            return bool(found)
+
     def finish(
         self,
         job_id: str,

@@ -107,6 +107,8 @@ class Token(Base):
     id: Mapped[str] = mapped_column(String(16), unique=True, index=True)  # what lists show and revoke takes
     digest: Mapped[str] = mapped_column(String(64), unique=True, index=True)
     admin: Mapped[bool] = mapped_column(Boolean, default=False)
+    # "user", or "worker": a compute box's token, good only for the worker endpoints (claim, report, upload)
+    kind: Mapped[str] = mapped_column(String(16), default="user", server_default="user")
     created_at: Mapped[datetime] = mapped_column(UTCDateTime)
     expires_at: Mapped[datetime | None] = mapped_column(UTCDateTime)
     last_used_at: Mapped[datetime | None] = mapped_column(UTCDateTime)

@@ -35,6 +35,7 @@ class TokenTaken(Exception):
 class _Checked:
     name: str
     admin: bool
+    kind: str
     expires_at: datetime | None
     checked: float  # monotonic time of the database check
 
@@ -53,8 +54,11 @@ class Tokens(Repository):
     _tokens_exist = False
     _token_users: dict[str, _Checked]
 
-    def add_token(self, name: str, digest: str, admin: bool, expires_at: datetime | None = None) -> Token:
-        """A new token; it replaces an expired or revoked one of the same name, never a live one (TokenTaken)."""
+    def add_token(
+        self, name: str, digest: str, admin: bool, expires_at: datetime | None = None, kind: str = "user"
+    ) -> Token:
+        """A new token (``kind`` "user" or "worker"); it replaces an expired or revoked one of the same name, never a
+        live one (TokenTaken)."""
         now = utcnow()
         with self.session.begin() as s:
             old = s.get(Token, name, with_for_update=True)
@@ -64,7 +68,13 @@ class Tokens(Repository):
                 s.delete(old)
                 s.flush()
             token = Token(
-                name=name, id=secrets.token_hex(6), digest=digest, admin=admin, created_at=now, expires_at=expires_at
+                name=name,
+                id=secrets.token_hex(6),
+                digest=digest,
+                admin=admin,
+                kind=kind,
+                created_at=now,
+                expires_at=expires_at,
             )
             s.add(token)
         return token
@@ -83,17 +93,18 @@ class Tokens(Repository):
             self._token_users.pop(token.digest, None)
         return token
 
-    def known_token_user(self, digest: str) -> tuple[str, bool] | None:
-        """(name, admin) for a token checked in the last few seconds and not expired since, without the database."""
+    def known_token_user(self, digest: str) -> tuple[str, bool, str] | None:
+        """(name, admin, kind) for a token checked in the last few seconds and not expired since, without the
+        database."""
         seen = self._token_users.get(digest)
         if seen is None or time.monotonic() - seen.checked > RECHECK_SECONDS:
             return None
         if seen.expires_at is not None and seen.expires_at <= utcnow():
             return None
-        return seen.name, seen.admin
+        return seen.name, seen.admin, seen.kind
 
-    def token_user(self, digest: str) -> tuple[str, bool]:
-        """(name, admin) for a live token, after a look in the database (which records its use); else
+    def token_user(self, digest: str) -> tuple[str, bool, str]:
+        """(name, admin, kind) for a live token, after a look in the database (which records its use); else
         :class:`TokenRefused`."""
         now = utcnow()
         with self.session.begin() as s:
@@ -105,8 +116,8 @@ class Tokens(Repository):
             if token.last_used_at is None or now - token.last_used_at >= LAST_USED_EVERY:
                 stale = or_(Token.last_used_at.is_(None), Token.last_used_at <= now - LAST_USED_EVERY)
                 s.execute(update(Token).where(Token.digest == digest, stale).values(last_used_at=now))
-        self._token_users[digest] = _Checked(token.name, token.admin, token.expires_at, time.monotonic())
-        return token.name, token.admin
+        self._token_users[digest] = _Checked(token.name, token.admin, token.kind, token.expires_at, time.monotonic())
+        return token.name, token.admin, token.kind
 
     def tokens_required(self) -> bool:
         """Once a token exists (even revoked or expired), tokens stay required; until then ask the database at

@@ -85,7 +85,7 @@ def test_token_store_lifecycle(store_url: str, monkeypatch: pytest.MonkeyPatch) 
     store = Store(store_url)
     try:
         token = store.add_token("ana", digest("s1"), True)
-        assert store.token_user(digest("s1")) == ("ana", True)
+        assert store.token_user(digest("s1")) == ("ana", True, "user")
         first = store.list_tokens()[0].last_used_at
         assert first is not None and abs((utcnow() - first).total_seconds()) < 5
         store.token_user(digest("s1"))
@@ -127,5 +127,5 @@ def test_tokens_made_before_ids_get_one(blank_store_url: str) -> None:
     assert migrate.migrate(blank_store_url) == ("0001", migrate.head())
     store = Store(blank_store_url)
     [token] = store.list_tokens()
-    assert len(token.id) == 12 and token.expires_at is None and store.token_user("d1") == ("ana", False)
+    assert len(token.id) == 12 and token.expires_at is None and store.token_user("d1") == ("ana", False, "user")
     store.engine.dispose()

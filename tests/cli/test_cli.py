@@ -94,11 +94,16 @@ def test_token_list_and_revoke(tmp_path: Path) -> None:
     secret = made.stdout.strip()
     assert made.returncode == 0 and secret.startswith("wy_") and "until " in made.stderr
     assert token("create", "ops", "--admin").returncode == 0
+    assert token("create", "box-2", "--worker").returncode == 0
+    both = token("create", "box-3", "--worker", "--admin")
+    assert both.returncode == 2 and "--worker: " in both.stderr and "admin" in both.stderr
     listed = token("list")
     header, *rows = listed.stdout.splitlines()
     assert header.split()[:4] == ["ID", "NAME", "ADMIN", "STATE"] and secret not in listed.stdout
+    assert header.split()[-1] == "KIND"
     ana = next(r.split() for r in rows if r.split()[1] == "ana")
-    assert ana[2:4] == ["no", "active"] and len(rows) == 2
+    assert ana[2:4] == ["no", "active"] and ana[-1] == "user" and len(rows) == 3
+    assert next(r.split() for r in rows if r.split()[1] == "box-2")[-1] == "worker"
     revoked = token("revoke", ana[0])
     assert revoked.returncode == 0 and f"revoked the token {ana[0]} of 'ana'" in revoked.stderr
     assert next(r.split() for r in token("list").stdout.splitlines() if " ana " in r)[3] == "revoked"

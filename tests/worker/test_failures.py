@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import threading
 from pathlib import Path
 
 from fastapi.testclient import TestClient
@@ -9,7 +10,7 @@ from fastapi.testclient import TestClient
 from tests.helpers import finished, settings_for, tiny, wait_for
 from tests.solver.test_post_processing import TANDEM
 from wakeyard.core.store import Store
-from wakeyard.worker.tasks import _Attempt
+from wakeyard.worker.attempt import Attempt
 
 
 def test_tandem_tubes_succeed_with_the_undefined_wake_length_explained(service: TestClient) -> None:
@@ -30,7 +31,7 @@ def test_an_unexpected_failure_is_recorded_with_its_stage(tmp_path: Path) -> Non
     folder = settings.jobs_dir / job_id
     folder.mkdir(parents=True)
     (folder / "fields").write_text("a file where the snapshot folder should go")
-    _Attempt(store, settings, claimed).run()
+    Attempt(store, settings, claimed, threading.Event()).run()
     job = store.get(job_id)
     assert job is not None and job.state == "failed"
     assert job.error.startswith("writing result files failed: FileExistsError")

@@ -1,0 +1,108 @@
+"""A remote worker's upload that a broken connection cuts off goes on from the bytes the service already has (it is
+not sent again from the start), and the file that lands in the job's folder is the whole file, by its hash."""
+
+from __future__ import annotations
+
+import contextlib
+import hashlib
+import os
+import socket
+import threading
+import time
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+import uvicorn
+
+from tests.helpers import settings_for, tiny
+from wakeyard.api.app import create_app
+from wakeyard.api.auth import create_token
+from wakeyard.core.store import Store
+from wakeyard.worker.service_client import ServiceClient
+
+
+class CuttingProxy:
+    """A TCP relay to the service that breaks its first connection after ``cut`` bytes from the client, as a
+    dropped link would; it counts every byte the client sends."""
+
+    def __init__(self, upstream: int, cut: int):
+        self.upstream, self.cut = upstream, cut
+        self.sent, self.connections = 0, 0
+        self.listener = socket.create_server(("127.0.0.1", 0))
+        self.port = self.listener.getsockname()[1]
+        threading.Thread(target=self._accept, daemon=True).start()
+
+    def _accept(self) -> None:
+        while True:
+            try:
+                client, _ = self.listener.accept()
+            except OSError:
+                return
+            self.connections += 1
+            server = socket.create_connection(("127.0.0.1", self.upstream))
+            limit = self.cut if self.connections == 1 else None
+            threading.Thread(target=self._pipe, args=(client, server, limit), daemon=True).start()
+            threading.Thread(target=self._pipe, args=(server, client, None, False), daemon=True).start()
+
+    def _pipe(self, src: socket.socket, dst: socket.socket, limit: int | None, count: bool = True) -> None:
+        passed = 0
+        try:
+            while block := src.recv(65536):
+                if limit is not None and passed + len(block) >= limit:
+                    dst.sendall(block[: limit - passed])
+                    self.sent += limit - passed
+                    time.sleep(0.3)  # let the service take in what arrived before the line goes dead
+                    break
+                dst.sendall(block)
+                passed += len(block)
+                if count:
+                    self.sent += len(block)
+        except OSError:
+            pass
+        for s in (src, dst):
+            with contextlib.suppress(OSError):
+                s.shutdown(socket.SHUT_RDWR)
+            s.close()
+
+    def close(self) -> None:
+        self.listener.close()
+
+
+@pytest.fixture
+def service(tmp_path: Path) -> Iterator[tuple[int, Store, Path]]:
+    """A real HTTP server (uvicorn in a thread) with the API, on the embedded broker, no worker."""
+    settings = settings_for(tmp_path / "service", "wakeyard-upload", broker="")
+    server = uvicorn.Server(uvicorn.Config(create_app(settings), host="127.0.0.1", port=0, log_level="warning"))
+    thread = threading.Thread(target=server.run, daemon=True)
+    thread.start()
+    while not server.started:
+        time.sleep(0.05)
+    port = server.servers[0].sockets[0].getsockname()[1]
+    try:
+        yield port, server.config.app.state.store, settings.jobs_dir
+    finally:
+        server.should_exit = True
+        thread.join(10)
+
+
+def test_a_cut_upload_continues_from_what_arrived(service: tuple[int, Store, Path], tmp_path: Path) -> None:
+    port, store, jobs = service
+    job_id = store.create("ana", tiny(), []).id
+    size = 6 * 2**20
+    proxy = CuttingProxy(port, cut=size // 2)
+    client = ServiceClient(f"http://127.0.0.1:{proxy.port}", create_token(store, "box", kind="worker"))
+    try:
+        claimed = client.claim("box:1")
+        assert claimed is not None and claimed["job_id"] == job_id
+        local = tmp_path / "big.npz"
+        local.write_bytes(os.urandom(size))
+        digest = client.upload(job_id, claimed["lease"], local, "fields/step_000010.npz")
+    finally:
+        client.close()
+        proxy.close()
+    landed = jobs / job_id / "fields" / "step_000010.npz"
+    assert digest == hashlib.sha256(local.read_bytes()).hexdigest() == hashlib.sha256(landed.read_bytes()).hexdigest()
+    assert proxy.connections >= 2  # the first one was cut
+    # sent again from the start it would be half the file more: 1.5 times its size; continued, about its size
+    assert proxy.sent < 1.2 * size, proxy.sent
