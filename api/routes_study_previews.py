@@ -28,8 +28,9 @@ router = APIRouter(prefix="/api/v1/studies/previews", tags=["studies"])
         "Expands the study exactly as `POST /api/v1/studies` would and returns `count`, the `points` "
         "(`{values, reynolds, estimate}`, the estimate as in `POST /api/v1/previews`) and the `total` "
         "`{cells, dofs, steps, seconds}` over all points (`steps` null unless every point has a count or an "
-        "estimate of one; `seconds` the sum of the points' rough estimates). A study that would be refused is refused here with the same 422 problems, and "
-        "with the same 429 when its points would take the caller over the per-user cap of queued and running jobs."
+        "estimate of one; `seconds` the sum of the points' rough estimates). A study that would be refused is "
+        "refused here with the same 422 problems, and with the same 429 when its points would take the caller "
+        "over the per-user cap of queued and running jobs."
     ),
 )
 def create_study_preview(
