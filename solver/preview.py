@@ -23,6 +23,7 @@ from . import meshing, picture_choice
 from .errors import SpecError
 from .limits import Limits, check_limits
 from .spec import ADAPTIVE, JobSpec, _check_geometry, _check_scales, _message, _path
+from .spring_room import room_warnings
 from .study import sweepable
 from .thermal import check as check_heat
 
@@ -122,9 +123,11 @@ def _renumber(field: str, dropped: list[int]) -> str:
 
 def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
     """The preview of a checked ``spec`` (``None`` when it has ``problems``); ``sweepable`` lists the numeric fields
-    a study of it can vary (:func:`solver.study.sweepable`)."""
+    a study of it can vary (:func:`solver.study.sweepable`); ``warnings`` what the spec allows but may still stop
+    the run (a spring-mounted body with little room to swing, :mod:`solver.spring_room`), each ``{field, message}``."""
     out: dict[str, Any] = {
         "problems": [{"field": f, "message": m} for f, m in problems],
+        "warnings": [],
         "spec": None,
         "reynolds": None,
         "blockage": None,
@@ -136,6 +139,7 @@ def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
         return out
     out.update(
         spec=spec.model_dump(mode="json"),
+        warnings=[{"field": f, "message": m} for f, m in room_warnings(spec)],
         reynolds=spec.reynolds(),
         blockage=blockage(spec),
         outlines=[{"name": b.name, "points": b.outline(96).round(9).tolist()} for b in spec.bodies],
