@@ -10,7 +10,9 @@ driven body's (:func:`solver.spec._check_motion`). This module assumes a conserv
 - along the stream (``x``), the springs' static give under the drag ``F = C_D rho U^2 L / 2`` with
   :data:`ASSUMED_DRAG_COEFFICIENT` (a laminar circle's drag coefficient is about 1.3 to 2 from Re 20 to 200, common
   practice; more at lower Re and with blockage), and at least :data:`IN_LINE_REACH` reference lengths for the
-  in-line swing (a project choice).
+  in-line swing (a project choice);
+- along either free axis, at least the undamped swing from the body's initial displacement and velocity,
+  ``sqrt(s0^2 + (v0 / (2 pi f_n))^2)``.
 
 The body then warns when, at those extremes, it keeps less than :data:`solver.spec.KEEP_CLEARANCE` of a gap it has
 at rest: the rule the spec applies to driven bodies, beyond which cells may turn over (:class:`solver.ale.MeshTangled`).
@@ -49,7 +51,9 @@ def expected_reach(spec: JobSpec, i: int) -> np.ndarray:
         reach[0] = max(give, IN_LINE_REACH * L)
     if free[1]:
         reach[1] = CROSS_FLOW_REACH * L
-    return reach
+    s0, v0 = mount.start()[:2], mount.start()[2:]
+    released = np.hypot(s0, v0 / (2 * math.pi * mount.frequency(U, L)))  # a free swing's amplitude from its start
+    return np.maximum(reach, released)
 
 
 def _shifts(spec: JobSpec, i: int) -> list[np.ndarray]:
