@@ -27,8 +27,9 @@ router = APIRouter(prefix="/api/v1/previews", tags=["previews"])
     description=(
         "Returns `problems` (every field and geometry problem at once, `{field, message}`; empty when the spec "
         "would be accepted), `warnings` (allowed but risky, such as a spring-mounted body with little room to "
-        "swing; `{field, message}`) and, when there are none: the normalised `spec`, the `reynolds` number, the `blockage` "
-        "ratio, the body `outlines` to draw and an `estimate` `{cells, dofs, steps, seconds, method, note}`. "
+        "swing; `{field, message}`) and, when there are none: the normalised `spec`, the `reynolds` number, the "
+        "`blockage` ratio, the body `outlines` to draw and an `estimate` "
+        "`{cells, dofs, steps, seconds, method, note}`. "
         "Cells and dofs come from a dry run of the mesher (`method: mesher`) or, for a mesh too big to generate "
         "quickly, from the size rule (`method: rule`). `steps` is null for steady runs and for the error-controlled "
         "scheme bdf2-adaptive, whose steps are chosen while it runs; `seconds` is null (no server-side calibration)."
