@@ -43,6 +43,12 @@ def gap(a: np.ndarray, b: np.ndarray) -> float:
     return float(first.distance(second))
 
 
+def area(polygon: np.ndarray) -> float:
+    """The area a closed polygon encloses (the shoelace formula, either orientation)."""
+    x, y = polygon[:, 0], polygon[:, 1]
+    return 0.5 * abs(float(x @ np.roll(y, -1) - y @ np.roll(x, -1)))
+
+
 def is_simple(polygon: np.ndarray) -> bool:
     """True when no two edges of the closed polygon cross or touch, except neighbours at their common corner.
 

@@ -110,6 +110,7 @@ class AdaptiveBDF2:
         self.factored_alpha: float | None = None  # None: factor before the next solve
         self.extra_corrections = 0
         self.trial_springs = np.zeros(0)  # the spring-mounted bodies' state of the step being tried
+        self.coupling_failed = False  # the last attempt failed because the bodies' repeats did not settle
 
     @property
     def x(self) -> np.ndarray:
@@ -127,10 +128,8 @@ class AdaptiveBDF2:
         while True:
             h = self._clipped(self.h, stop)
             if h < SMALLEST_STEP * self.scales.time:
-                raise StepTooSmall(
-                    f"the error control could not meet analysis.accuracy = {self.accuracy:g} at t = {self.t:.6g} s "
-                    f"with steps above {h:.3g} s: check the inflow's time law for jumps, or try a larger accuracy"
-                )
+                raise StepTooSmall(self._too_small(h))
+            self.coupling_failed = False
             attempt = self._attempt(h) if self.springs is None else self._coupled_attempt(h)
             if attempt is None:  # the linear solve failed, or the body coupling did not settle
                 self.stats.rejected += 1
@@ -147,6 +146,23 @@ class AdaptiveBDF2:
             if stop < t_end and self.t >= stop - SMALLEST_STEP * self.scales.time:
                 self._restart(stop)
             return result
+
+    def _too_small(self, h: float) -> str:
+        """Why the steps shrank to nothing: the spring coupling's repeats when those failed last, else the error."""
+        if self.coupling_failed and self.springs is not None:
+            bodies = ", ".join(
+                f"{b.name} (mass ratio {b.mount.mass_ratio:g}, damping ratio {b.mount.damping_ratio:g})"
+                for b in self.springs.bodies
+            )
+            return (
+                f"the spring-mounted bodies' coupling with the flow did not converge in {MAX_REPEATS} repeats at "
+                f"t = {self.t:.6g} s, even with steps of {h:.3g} s: {bodies}. A light or undamped body on a coarse "
+                "mesh is the usual cause: try a larger mass_ratio or damping_ratio, or a finer mesh"
+            )
+        return (
+            f"the error control could not meet analysis.accuracy = {self.accuracy:g} at t = {self.t:.6g} s "
+            f"with steps above {h:.3g} s: check the inflow's time law for jumps, or try a larger accuracy"
+        )
 
     def _restart(self, t: float) -> None:
         """Start afresh from the newest level, as at a breakpoint: one backward Euler step, a short step."""
@@ -210,6 +226,8 @@ class AdaptiveBDF2:
                 return result, err
             omega = aitken(omega, previous, change)
             guess, previous = guess + omega * change, change
+        else:
+            self.coupling_failed = True
         springs.restore_current()
         return None
 

@@ -9,7 +9,7 @@ from functools import cached_property
 import numpy as np
 import scipy.sparse as sp
 
-from . import meshing
+from . import _polygons, meshing
 from .ale import Law, MeshMotion, MovingBody, MovingNavierStokes
 from .boundary import body_dofs, channel_conditions
 from .forces import BodyForces
@@ -50,9 +50,9 @@ class Case:
         for i, b in enumerate(spec.bodies):
             law: Law
             if isinstance(b.mount, SpringMount):
-                outline = b.outline()
-                area = 0.5 * abs(float(np.cross(outline, np.roll(outline, -1, axis=0)).sum()))
-                law = SpringBody(b.name, b.mount, rho * area, b.mount.frequency(U, spec.reference_length(i)))
+                law = SpringBody(
+                    b.name, b.mount, rho * _polygons.area(b.outline()), b.mount.frequency(U, spec.reference_length(i))
+                )
                 springs.append(law)
             elif b.mount is not None:
                 law = b.mount

@@ -5,8 +5,10 @@ body's meshed position with its full velocity ``2 pi f A`` (an impulsive start, 
 so the mean position is the meshed one and no start-up offset drifts into the statistics.
 
 A spring mount holds the body on linear springs and dampers along one or both axes; the body's motion comes from
-the fluid's force (:mod:`solver.spring`). Its stiffness and damping follow from the natural frequency in vacuum
-``f_n`` (the body's own, without the fluid's added mass) and the damping ratio: ``k = m (2 pi f_n)^2``,
+the fluid's force (:mod:`solver.spring`), from the drawn position at rest or from a given initial displacement
+and velocity (a body released from a displaced position, "plucked", rings at its natural frequency). Its stiffness
+and damping follow from the natural frequency in vacuum ``f_n`` (the body's own, without the fluid's added mass)
+and the damping ratio: ``k = m (2 pi f_n)^2``,
 ``c = 2 zeta m 2 pi f_n``, with ``m`` the mass ratio times the displaced fluid's mass (per unit length).
 """
 
@@ -21,6 +23,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from .analysis import find_cycles, time_mean
 
 AXES = {"x": 0, "y": 1}
+_Component = Annotated[float, Field(ge=-1e6, le=1e6)]
 
 
 class DrivenMount(BaseModel):
@@ -77,6 +80,12 @@ class SpringMount(BaseModel):
         description="U / (f_n L): reference velocity over natural frequency (in vacuum) times length",
     )
     natural_frequency: float | None = Field(None, gt=0, le=1e6, description="in vacuum, Hz")
+    initial_displacement: tuple[_Component, _Component] = Field(
+        (0.0, 0.0), description="(dx, dy) from the drawn position at the start, m; 0 along a held axis"
+    )
+    initial_velocity: tuple[_Component, _Component] = Field(
+        (0.0, 0.0), description="(vx, vy) at the start, m/s; 0 along a held axis"
+    )
 
     def frequency(self, velocity: float, length: float) -> float:
         """The natural frequency in vacuum f_n, Hz (the spec makes sure exactly one way to it is given)."""
@@ -92,9 +101,13 @@ class SpringMount(BaseModel):
             e[AXES[axis]] = 1.0
         return e
 
+    def start(self) -> np.ndarray:
+        """``(sx, sy, vx, vy)`` at the start: the initial displacement and velocity."""
+        return np.r_[self.initial_displacement, self.initial_velocity].astype(float)
+
     def reach(self) -> float:
-        """No excursion is known before the run: the body starts at rest where it is meshed."""
-        return 0.0
+        """The excursion the spec checks for room: where the body starts (its swing comes out of the run)."""
+        return float(np.hypot(*self.initial_displacement))
 
 
 Mount = Annotated[DrivenMount | SpringMount, Field(discriminator="kind")]

@@ -27,6 +27,7 @@ from .limits import Limits, check_limits
 from .shapes import Body
 from .sizing import mesh_size
 from .spec import ADAPTIVE, MAX_BODIES, JobSpec, _check_geometry, _check_scales, _message, _path
+from .spring_room import room_warnings
 from .study import sweepable
 from .thermal import check as check_heat
 
@@ -147,7 +148,8 @@ def _renumber(field: str, dropped: list[int]) -> str:
 
 def answer(spec: JobSpec | None, problems: Problems) -> dict[str, Any]:
     """The preview of a checked ``spec`` (``None`` when it has ``problems``); ``sweepable`` lists the numeric fields
-    a study of it can vary (:func:`solver.study.sweepable`)."""
+    a study of it can vary (:func:`solver.study.sweepable`); ``warnings`` what the spec allows but deserves a look
+    (:func:`warnings`), each ``{field, message}``."""
     out: dict[str, Any] = {
         "problems": [{"field": f, "message": m} for f, m in problems],
         "spec": None,
@@ -179,8 +181,9 @@ HIGH_BLOCKAGE = 0.5
 
 def warnings(spec: JobSpec, shortest_edge: float) -> Problems:
     """What would not stop the run but deserves a look: a fixed step past the CFL limit of explicit convection
-    (:func:`solver.run_cost.step_warnings`), bodies that block most of the channel."""
-    out = run_cost.step_warnings(spec, shortest_edge)
+    (:func:`solver.run_cost.step_warnings`), bodies that block most of the channel, a spring-mounted body with
+    little room to swing (:mod:`solver.spring_room`)."""
+    out = run_cost.step_warnings(spec, shortest_edge) + room_warnings(spec)
     if (share := blockage(spec)) > HIGH_BLOCKAGE:
         message = f"the bodies block {100 * share:.3g} % of the channel: the walls will dominate the forces"
         out.append(("bodies", message))

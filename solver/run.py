@@ -430,7 +430,13 @@ class _Transient:
             for b in spec.bodies
             if b.mount and b.mount.kind == "driven"
         ]
-        limit = 100 * max(spec.inflow.peak() * spec.inflow.time_law.nominal(), *moving, 1e-12)
+        released = [  # a spring-mounted body's fastest undamped swing from its initial state
+            float(np.hypot(*start[2:]) + 2 * math.pi * law.natural_frequency * np.hypot(*start[:2]))
+            for law in (self.case.springs.bodies if self.case.springs else [])
+            for start in [law.mount.start()]
+        ]
+        inflow = spec.inflow.peak() * spec.inflow.time_law.nominal()
+        limit = 100 * max(inflow, spec.reference_velocity(), *moving, *released, 1e-12)
         return bool(np.abs(ux).max() > limit or np.abs(uy).max() > limit)
 
     def _diverged(self, stepper: Stepper | AdaptiveBDF2, x: np.ndarray, t: float, n: int) -> None:

@@ -22,7 +22,7 @@ from pydantic_core import ErrorDetails
 
 from . import _polygons
 from .errors import SpecError
-from .motion import DrivenMount, SpringMount
+from .motion import AXES, DrivenMount, SpringMount
 from .shapes import Body, Point
 from .thermal import Heat
 from .thermal import check as check_heat
@@ -332,7 +332,9 @@ def _check_motion(spec: JobSpec, outlines: list[np.ndarray]) -> list[tuple[str, 
         problems.append(("heat", "heat transfer is not yet available with moving bodies (a mount)"))
     for i in moving:
         mount = spec.bodies[i].mount
-        if isinstance(mount, SpringMount) and (mount.reduced_velocity is None) == (mount.natural_frequency is None):
+        if not isinstance(mount, SpringMount):
+            continue
+        if (mount.reduced_velocity is None) == (mount.natural_frequency is None):
             given = "both" if mount.reduced_velocity is not None else "neither"
             problems.append(
                 (
@@ -340,10 +342,26 @@ def _check_motion(spec: JobSpec, outlines: list[np.ndarray]) -> list[tuple[str, 
                     f"give exactly one of reduced_velocity and natural_frequency (got {given})",
                 )
             )
+        for name, pair in (
+            ("initial_displacement", mount.initial_displacement),
+            ("initial_velocity", mount.initial_velocity),
+        ):
+            for axis, c in AXES.items():
+                if pair[c] != 0 and axis not in mount.directions:
+                    problems.append(
+                        (
+                            f"bodies.{i}.mount.{name}.{c}",
+                            f"{spec.bodies[i].name} is held along {axis} (directions {mount.directions}): its {axis} "
+                            f"part must be 0 (got {pair[c]:g})",
+                        )
+                    )
     L, H = spec.channel.length, spec.channel.height
 
     def extremes(i: int) -> list[np.ndarray]:
+        """Where a body is checked: a driven one at both ends of its stroke, a spring-mounted one where it starts."""
         mount = spec.bodies[i].mount
+        if isinstance(mount, SpringMount):
+            return [outlines[i] + np.array(mount.initial_displacement)]
         if not isinstance(mount, DrivenMount):
             return [outlines[i]]
         shift = mount.amplitude * mount.unit()
@@ -355,19 +373,24 @@ def _check_motion(spec: JobSpec, outlines: list[np.ndarray]) -> list[tuple[str, 
 
     sides = ("the inlet", "the lower wall", "the outlet", "the upper wall")
     for i in moving:
-        field = f"bodies.{i}.mount.amplitude"
-        name, amplitude = spec.bodies[i].name, spec.bodies[i].mount.reach()  # type: ignore[union-attr]
-        if amplitude == 0:  # a spring-mounted body starts at rest where it is meshed
+        mount = spec.bodies[i].mount
+        name, amplitude = spec.bodies[i].name, mount.reach()  # type: ignore[union-attr]
+        if amplitude == 0:  # a spring-mounted body starting where it is meshed: its swing comes out of the run
             continue
+        if isinstance(mount, SpringMount):
+            field, at = f"bodies.{i}.mount.initial_displacement", f"starting {amplitude:g} m from where it is drawn"
+            noun = "an initial displacement"
+        else:
+            field, at, noun = f"bodies.{i}.mount.amplitude", f"at amplitude {amplitude:g} m", "amplitude"
         rest = wall_gaps(outlines[i])
         moved = np.min([wall_gaps(p) for p in extremes(i)], axis=0)
         for k in np.nonzero(moved < KEEP_CLEARANCE * rest)[0]:
             problems.append(
                 (
                     field,
-                    f"at amplitude {amplitude:g} m {name} would come within {max(moved[k], 0):.3g} m of "
+                    f"{at}, {name} would come within {max(moved[k], 0):.3g} m of "
                     f"{sides[k]}; it must keep at least {KEEP_CLEARANCE:g} of its {rest[k]:.3g} m gap at rest "
-                    f"(amplitude up to {amplitude - (KEEP_CLEARANCE * rest[k] - moved[k]):.3g} m)",
+                    f"({noun} up to {amplitude - (KEEP_CLEARANCE * rest[k] - moved[k]):.3g} m)",
                 )
             )
         for j in range(len(spec.bodies)):
@@ -379,7 +402,7 @@ def _check_motion(spec: JobSpec, outlines: list[np.ndarray]) -> list[tuple[str, 
                 problems.append(
                     (
                         field,
-                        f"at amplitude {amplitude:g} m {name} would come within {gap_moved:.3g} m of "
+                        f"{at}, {name} would come within {gap_moved:.3g} m of "
                         f"{spec.bodies[j].name}; it must keep at least {KEEP_CLEARANCE:g} of the {gap_rest:.3g} m "
                         "gap at rest",
                     )

@@ -34,7 +34,7 @@ class SpringBody:
         self.damping = 2 * mount.damping_ratio * self.mass * omega
         self.natural_frequency = natural_frequency
         self.free = mount.free()
-        self.state = np.zeros(4)  # sx, sy, vx, vy: the newest accepted, or the trial while a step is tried
+        self.state = mount.start()  # sx, sy, vx, vy: the newest accepted, or the trial while a step is tried
 
     def offset(self, t: float) -> np.ndarray:
         """The displacement the mesh takes (the state's time is the stepper's business)."""
@@ -55,7 +55,7 @@ class SpringCoupling:
 
     def __init__(self, bodies: list[SpringBody], forces: BodyForces):
         self.bodies, self.forces = bodies, forces
-        self.levels = [np.zeros(4 * len(bodies))]
+        self.levels = [np.concatenate([b.state for b in bodies])]
         self.coefficients = (1.0, -1.0, 0.0, 1.0)  # a0, a1, a2 and the step of the current attempt
         lightest = min(b.mount.mass_ratio for b in bodies)
         self.first_relaxation = lightest / (lightest + 1.0)

@@ -19,7 +19,7 @@ from pydantic import Field, ValidationError, model_validator
 
 from . import meshing
 from .errors import SpecError
-from .results import Stats, SteadySummary, TransientSummary
+from .results import Stats, SteadySummary, TransientBody, TransientSummary
 from .spec import JobSpec, _message, _Model, _path, load
 from .units import spec_unit
 from .verification import grid_convergence
@@ -245,9 +245,20 @@ def _with_leaf(data: Any, path: str, value: float | None) -> Any:
 
 
 def summary_values(summary: SteadySummary | TransientSummary) -> dict[str, float]:
-    """Flat numeric values of a job summary for tables and plots (transient: means and amplitudes)."""
+    """Flat numeric values of a job summary for tables and plots (transient: means and amplitudes).
+
+    A moving body's response leads its values (the page plots the first by default): the amplitude ratio along each
+    axis it moves on (a held axis, exactly still, is left out) and the frequency ratio, the amplitude response
+    of a sweep over a spring's reduced velocity."""
     out: dict[str, float] = {}
     for body in summary.bodies:
+        motion = body.motion if isinstance(body, TransientBody) else None
+        if motion is not None:
+            for axis, response in (("y", motion.y), ("x", motion.x)):
+                if response.amplitude != 0:
+                    out[f"{body.name}.{axis}_amplitude_ratio"] = response.amplitude_ratio
+            if motion.frequency_ratio is not None:
+                out[f"{body.name}.frequency_ratio"] = motion.frequency_ratio
         for short, v in (("cd", body.drag_coefficient), ("cl", body.lift_coefficient), ("nu", body.nusselt_number)):
             if isinstance(v, Stats):
                 out[f"{body.name}.{short}_mean"] = v.mean

@@ -349,7 +349,59 @@ export class CaseForm {
           this.spec.bodies[i] = fresh;
         }})),
       make(),
+      this.mountFields(p, body),
       sp.heat ? thermalField(`${p}.thermal`, "Surface", sp, (v) => this.set(`${p}.thermal`, v === "insulated" ? undefined : v, true)) : null);
+  }
+
+  /** How the body is held: fixed, driven (a prescribed harmonic translation) or on springs the flow moves it on.
+   * The service judges the values (the preview lists its problems and warnings); the form only edits them. */
+  mountFields(p, body) {
+    const sp = this.spec;
+    const m = `${p}.mount`;
+    const kind = body.mount?.kind ?? "fixed";
+    const fresh = {
+      driven: () => ({kind: "driven", direction: "y"}),
+      spring: () => ({kind: "spring", directions: ["y"], mass_ratio: 10, damping_ratio: 0, reduced_velocity: 5}),
+    };
+    const select = h("select", {id: `${idOf(m)}-kind`, onchange: (e) => this.set(m, fresh[e.target.value]?.(), true)},
+      [["fixed", "Fixed"], ["driven", "Driven: moved back and forth (harmonic)"], ["spring", "On springs: moved by the flow"]]
+        .map(([value, text]) => h("option", {value, selected: value === kind}, text)));
+    const parts = [field(m, "Mount", select, {hint: kind === "fixed" ? null
+      : "A moving body needs a transient run with error-controlled steps; the mesh follows the body."})];
+    if (kind === "driven") {
+      parts.push(h("div", {class: "row"},
+        selectField(`${m}.direction`, "Direction", sp, [["y", "Across the stream (y)"], ["x", "Along the stream (x)"]], "y"),
+        numberField(`${m}.amplitude`, "Amplitude", sp, {unit: "m", hint: "Half the stroke."}),
+        numberField(`${m}.frequency`, "Frequency", sp, {unit: "Hz"})));
+    }
+    if (kind === "spring") {
+      const dirs = (body.mount.directions ?? ["y"]).join(",");
+      const dirSelect = h("select", {id: idOf(`${m}.directions`), dataset: {path: `${m}.directions`, kind: "select"}},
+        [["y", "Across the stream (y)"], ["x", "Along the stream (x)"], ["x,y", "Both (x and y)"]]
+          .map(([value, text]) => h("option", {value, selected: value === dirs}, text)));
+      dirSelect._onchange = (v) => setPath(this.spec, `${m}.directions`, v.split(","));
+      const byFrequency = body.mount.natural_frequency !== undefined && body.mount.reduced_velocity === undefined;
+      parts.push(
+        h("div", {class: "row"},
+          field(`${m}.directions`, "Free to move", dirSelect),
+          numberField(`${m}.mass_ratio`, "Mass ratio m*", sp, {hint: "Body mass over the mass of fluid it displaces."}),
+          numberField(`${m}.damping_ratio`, "Damping ratio ζ", sp, {placeholder: "0", hint: "Share of critical damping."})),
+        radioGroup(`${idOf(m)}-by`, "Give the springs' stiffness as", [["reduced_velocity", "Reduced velocity U* = U / (f_n L)"],
+          ["natural_frequency", "Natural frequency f_n (in vacuum)"]], byFrequency ? "natural_frequency" : "reduced_velocity",
+        (v) => {
+          const mount = this.spec.bodies[Number(p.split(".")[1])].mount;
+          delete mount.reduced_velocity;
+          delete mount.natural_frequency;
+          this.set(`${m}.${v}`, null, true); // null: chosen, not yet given (the service says so)
+        }),
+        byFrequency ? numberField(`${m}.natural_frequency`, "Natural frequency f_n", sp, {unit: "Hz"})
+          : numberField(`${m}.reduced_velocity`, "Reduced velocity U*", sp),
+        h("details", {class: "more", open: !!(body.mount.initial_displacement || body.mount.initial_velocity)},
+          h("summary", {}, "Start displaced or moving (optional)"),
+          pointField(`${m}.initial_displacement`, "Initial displacement", sp, "m"),
+          pointField(`${m}.initial_velocity`, "Initial velocity", sp, "m/s")));
+    }
+    return h("div", {class: "mount"}, parts);
   }
 
   // ---------- editing ----------
@@ -528,8 +580,10 @@ export class CaseForm {
         : `one per snapshot (at most ${cap} per field)`]);
     }
     if (isNum(e?.seconds)) items.push(["Run time, roughly", duration(e.seconds), "an estimate from the unknowns and steps"]);
-    if (p?.failed) warnings.push(`No preview: ${p.failed}`);
-    for (const w of [...(p?.problems ?? []), ...(p?.warnings ?? [])]) warnings.push(`${readable(w.field)}: ${w.message}`);
+    if (p?.failed) warnings.push({message: `No preview: ${p.failed}`});
+    for (const w of p?.problems ?? []) warnings.push({message: `${readable(w.field)}: ${w.message}`});
+    // what the service allows but warns about (a fixed step past the CFL limit, a spring body with little room)
+    for (const w of p?.warnings ?? []) warnings.push({message: `${readable(w.field)}: ${w.message}`, service: true});
     // the bodies the service finds fault with (overlaps, walls) are marked on the drawing
     const faulty = new Set();
     if (!stale) for (const problem of p.problems ?? []) {
@@ -541,7 +595,7 @@ export class CaseForm {
     this.figures.setAttribute("aria-busy", String(stale));
     fill(this.figures, items.map(([k, v, note]) => h("div", {class: "figure"},
       h("dt", {}, k), h("dd", {dataset: {figure: k}}, v, note ? h("small", {}, note) : null))));
-    fill(this.warnings, warnings.map((w) => h("li", {}, w)));
+    fill(this.warnings, warnings.map((w) => h("li", {class: w.service ? "service-warning" : null}, w.message)));
   }
 
   /** The outline of each body: the solver's, from the latest preview; a body only moved since is drawn moved with
@@ -785,12 +839,12 @@ function radioGroup(name, legend, options, value, onPick) {
         onchange: (e) => e.target.checked && onPick(v)}), text)));
 }
 
-function pointField(path, label, spec) {
+function pointField(path, label, spec, unit = "m") {
   const v = getPath(spec, path);
   const input = (k, axis) => h("input", {id: idOf(`${path}.${k}`), type: "text", inputmode: "decimal", autocomplete: "off",
     value: Array.isArray(v) && v[k] !== undefined && v[k] !== null ? String(v[k]) : "",
     "aria-describedby": `err-${idOf(path)}`, dataset: {path: `${path}.${k}`, kind: "number"}});
-  return h("fieldset", {class: "field point"}, h("legend", {}, `${label} (m)`),
+  return h("fieldset", {class: "field point"}, h("legend", {}, `${label} (${unit})`),
     h("div", {class: "row"},
       h("div", {class: "input-wrap"}, h("label", {for: idOf(`${path}.0`), class: "axis"}, "x"), input(0, "x")),
       h("div", {class: "input-wrap"}, h("label", {for: idOf(`${path}.1`), class: "axis"}, "y"), input(1, "y"))),

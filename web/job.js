@@ -4,6 +4,7 @@
 import {ACTIVE, api} from "./api.js";
 import {LineChart, PALETTE} from "./chart.js";
 import {LiveForces} from "./live_forces.js";
+import {orbitCard} from "./orbit.js";
 import {Poller} from "./poller.js";
 import {picked, progressCell, savePicked} from "./queue.js";
 import {spectrumCard} from "./spectrum.js";
@@ -193,6 +194,7 @@ export class JobView {
       ["forces", "Forces Fx, Fy (N per metre of span)", (c) => c.quantity === "fx" || c.quantity === "fy"],
       ["pressure", "Pressure drop Δp (Pa)", (c) => c.key === "pressure_drop"],
       ["probes", "Probe velocities (m/s)", (c) => c.quantity === "ux" || c.quantity === "uy"],
+      ["motion", "Displacement dx, dy (m) of the moving bodies", (c) => c.quantity === "dx" || c.quantity === "dy"],
       ["steps", "Time step Δt (s)", (c) => c.key === "time_step"],
     ].filter(([, , pick]) => forces.columns.some(pick));
     const host = h("div", {class: "chart-host", id: "force-chart"});
@@ -205,14 +207,31 @@ export class JobView {
       chart.setSeries(forces.columns.filter(pick).map((c) => ({
         id: c.key, label: c.label, x: forces.time, y: c.values,
         color: PALETTE[owners.indexOf(c.owner) % PALETTE.length],
-        dash: ["cl", "fy", "uy"].includes(c.quantity) ? "6 4" : "",
+        dash: ["cl", "fy", "uy", "dy"].includes(c.quantity) ? "6 4" : "",
       })));
     };
     choose.addEventListener("change", show);
     card.append(h("div", {class: "field inline"}, h("label", {for: "force-quantity"}, "Show"), choose), host);
     show();
     this.chart = chart;
+    const motion = groups.some(([key]) => key === "motion") ? this.motionCard(forces, owners) : null;
+    if (motion) (card.closest(".results-grid") ?? card).after(motion);
     if (forces.columns.some((c) => c.quantity === "cl")) (card.closest(".results-grid") ?? card).after(await spectrumCard(this.job.id));
+  }
+
+  /** Displacement histories of the moving bodies beside the forces, and each two-way mover's orbit. */
+  motionCard(forces, owners) {
+    const host = h("div", {class: "chart-host", id: "motion-chart"});
+    const card = h("section", {class: "card chart-card", id: "motion-card", "aria-labelledby": "motion-heading"},
+      h("h3", {id: "motion-heading"}, "Body motion"),
+      h("p", {class: "hint"}, "Displacement from the drawn position: dx along the stream (solid), dy across it (dashed)."), host);
+    const chart = new LineChart(host, {label: "Displacement of the moving bodies over simulated time", yLabel: "dx, dy (m)"});
+    chart.setSeries(forces.columns.filter((c) => c.quantity === "dx" || c.quantity === "dy").map((c) => ({
+      id: c.key, label: c.label, x: forces.time, y: c.values,
+      color: PALETTE[owners.indexOf(c.owner) % PALETTE.length], dash: c.quantity === "dy" ? "6 4" : "",
+    })));
+    const orbit = orbitCard(forces, owners);
+    return orbit ? h("div", {class: "motion-cards"}, card, orbit) : card;
   }
 
   renderPictures(card, files) {

@@ -29,6 +29,7 @@ export function summaryRows(job) {
       rows.push([`${n}: cL mean`, num(stat(b.lift_coefficient, "mean"), 4)]);
       rows.push([`${n}: cL amplitude`, num(stat(b.lift_coefficient, "amplitude"), 4)]);
       rows.push([`${n}: Strouhal number`, num(typeof b.strouhal_number === "object" ? b.strouhal_number?.strouhal_number : b.strouhal_number, 4)]);
+      if (b.motion) rows.push(...motionRows(n, b.motion));
     } else {
       rows.push([`${n}: cD`, num(stat(b.drag_coefficient, "mean"), 5)]);
       rows.push([`${n}: cL`, num(stat(b.lift_coefficient, "mean"), 4)]);
@@ -73,6 +74,22 @@ export function summaryRows(job) {
   return rows;
 }
 
+/** A moving body's response (summary.json's motion block): swing per axis it moved along, and frequencies. */
+function motionRows(n, motion) {
+  const rows = [];
+  for (const axis of ["x", "y"]) {
+    const m = motion[axis];
+    if (!m || m.amplitude === 0) continue;
+    rows.push([`${n}: amplitude along ${axis} (m)`, num(m.amplitude, 4)]);
+    rows.push([`${n}: amplitude ratio A/L along ${axis}`, num(m.amplitude_ratio, 4)]);
+    if (Math.abs(m.mean) > 1e-3 * m.amplitude) rows.push([`${n}: mean displacement along ${axis} (m)`, num(m.mean, 4)]);
+  }
+  rows.push([`${n}: response frequency (Hz)`, num(motion.frequency, 4)]);
+  rows.push([`${n}: frequency ratio`, num(motion.frequency_ratio, 4),
+    "response over driving frequency (driven) or over natural frequency in vacuum (spring-mounted)"]);
+  return rows;
+}
+
 /** A summary path such as "bodies.0.recirculation_length" in words: "upstream: recirculation length". */
 function unavailableLabel(key, bodies) {
   const m = /^bodies\.(\d+)\.(.+)$/.exec(key);
@@ -85,17 +102,17 @@ export function summaryTable(job) {
   if (!rows.length) return h("p", {class: "hint"}, "No summary yet.");
   return h("table", {class: "summary-table"},
     h("caption", {class: "visually-hidden"}, "Summary of results"),
-    h("tbody", {}, rows.map(([k, v]) => h("tr", {}, h("th", {scope: "row"}, k), h("td", {}, v)))));
+    h("tbody", {}, rows.map(([k, v, title]) => h("tr", {}, h("th", {scope: "row", title: title ?? ""}, k), h("td", {}, v)))));
 }
 
-const QUANTITY = {cd: "cD", cl: "cL", fx: "Fx (N/m)", fy: "Fy (N/m)", ux: "ux (m/s)", uy: "uy (m/s)"};
+const QUANTITY = {cd: "cD", cl: "cL", fx: "Fx (N/m)", fy: "Fy (N/m)", ux: "ux (m/s)", uy: "uy (m/s)", dx: "dx (m)", dy: "dy (m)"};
 
 /** Turn forces.csv into {time, columns: [{key, owner, quantity, label, values}]}. */
 export function forceColumns(text) {
   const {columns, rows} = parseCsv(text);
   const t = rows.map((r) => r[0]);
   const out = columns.slice(1).map((name, j) => {
-    const m = /^(.*)_(cd|cl|fx|fy|ux|uy)$/.exec(name);
+    const m = /^(.*)_(cd|cl|fx|fy|ux|uy|dx|dy)$/.exec(name);
     const owner = m ? m[1] : "";
     const quantity = m ? m[2] : name;
     const label = m ? `${owner} ${QUANTITY[quantity]}` : {pressure_drop: "Δp (Pa)", time_step: "Δt (s)"}[name] ?? name;

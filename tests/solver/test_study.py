@@ -170,3 +170,46 @@ def test_empty_fields_a_sweep_can_set_are_offered_with_the_value_in_use():
     assert [(p.fluid.viscosity, p.reynolds()) for _, p in points] == [(None, 30), (None, 60)]
     sized = expand({"base": spec.model_dump(mode="json"), "vary": [{"path": "mesh.body_size", "values": [1e-3]}]})
     assert sized[0][1].mesh.body_size == 1e-3
+
+
+def test_every_mount_field_has_a_unit_and_a_sweep_can_vary_the_reduced_velocity():
+    spring = {"kind": "spring", "directions": ["x", "y"], "mass_ratio": 10, "damping_ratio": 0.01}
+    spec = load(
+        {
+            "channel": {"length": 0.6, "height": 0.3},
+            "bodies": [
+                {
+                    "name": "tube",
+                    "shape": "circle",
+                    "center": [0.1, 0.15],
+                    "radius": 0.01,
+                    "mount": {**spring, "reduced_velocity": 5, "initial_displacement": [0.001, 0.002]},
+                },
+                {
+                    "name": "rod",
+                    "shape": "circle",
+                    "center": [0.3, 0.15],
+                    "radius": 0.01,
+                    "mount": {"kind": "driven", "direction": "y", "amplitude": 0.002, "frequency": 0.1},
+                },
+            ],
+            "analysis": {"mode": "transient"},
+        }
+    )
+    data = spec.model_dump(mode="json")
+    assert [p for p in number_paths(data) if spec_unit(p) is None] == []
+    offered = {f["path"]: f["unit"] for f in sweepable(spec)}
+    assert offered["bodies.0.mount.reduced_velocity"] == "1" and offered["bodies.0.mount.mass_ratio"] == "1"
+    assert offered["bodies.0.mount.initial_velocity.1"] == "m/s" and offered["bodies.1.mount.frequency"] == "1/s"
+    points = expand({"base": data, "vary": [{"path": "bodies.0.mount.reduced_velocity", "values": [3, 8]}]})
+    assert [p.bodies[0].mount.reduced_velocity for _, p in points] == [3, 8]
+
+
+def test_a_moving_body_s_response_leads_its_summary_values_and_a_held_axis_is_left_out():
+    still = {"mean": 0.0, "min": 0.0, "max": 0.0, "amplitude": 0.0, "amplitude_ratio": 0.0}
+    swing = {"mean": 0.0, "min": -0.01, "max": 0.01, "amplitude": 0.01, "amplitude_ratio": 0.5}
+    motion = {"x": still, "y": swing, "frequency": 1.0, "frequency_ratio": 0.95}
+    values = summary_values(_transient({"name": "tube", "motion": motion}))
+    assert list(values)[:2] == ["tube.y_amplitude_ratio", "tube.frequency_ratio"]
+    assert values["tube.y_amplitude_ratio"] == 0.5 and values["tube.frequency_ratio"] == 0.95
+    assert "tube.x_amplitude_ratio" not in values
