@@ -60,7 +60,8 @@ def steps(spec: JobSpec, shortest_edge: float) -> int | None:
         assert a.time_step is not None  # the spec requires one for the fixed schemes
         return math.ceil(a.end_time / a.time_step - 1e-9)
     tc = spec.reference_length() / spec.reference_velocity()
-    cap = MAX_CFL / cfl_number(spec, shortest_edge, 1.0)
+    unit_cfl = cfl_number(spec, shortest_edge, 1.0)
+    cap = MAX_CFL / unit_cfl if unit_cfl > 0 else math.inf  # no inflow (a body swinging in still fluid): no cap
     h = min(cap, ACCURACY_STEP * math.sqrt(a.accuracy / 1e-3) * tc)
     start = min(START_UP * tc, a.end_time)
     first = a.time_step or FIRST_STEP * tc

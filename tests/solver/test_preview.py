@@ -147,3 +147,17 @@ def test_a_huge_mesh_is_estimated_not_built() -> None:
     assert p["estimate"]["cells"] > 1_000_000
     over = preview(data)  # over the service's default limit: a problem naming the mesh, as at job creation
     assert [q["field"] for q in over["problems"]] == ["mesh"]
+
+
+def test_a_case_with_no_inflow_gets_an_accuracy_step_estimate() -> None:
+    """Still water (a table law that keeps the inflow at zero): no CFL cap to divide by, the accuracy step rules."""
+    spec = copy.deepcopy(TINY)
+    spec["fluid"]["reference"] = {"velocity": 0.1}
+    spec["analysis"] = {"mode": "transient", "end_time": 0.3}  # bdf2-adaptive
+    spec["inflow"] = {
+        "profile": "uniform",
+        "mean_velocity": 0.1,
+        "time_law": {"kind": "table", "points": [[0, 0], [9, 0]]},
+    }
+    p = preview(spec)
+    assert p["problems"] == [] and p["estimate"]["steps"] > 0
