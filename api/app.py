@@ -63,6 +63,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         yield
         reaper.close()
         dispatch.close()
+        if store.async_engine is not None:  # its connections belong to this event loop
+            await store.async_engine.dispose()
 
     app = FastAPI(
         title="wakeyard",

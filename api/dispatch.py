@@ -1,9 +1,9 @@
 """Wake-ups for workers, sent from a background thread so a request never waits on the broker.
 
-Wake-ups queued while the thread was publishing go out together: one producer taken from the pool per batch, and
-kombu's publish batch (``Producer.batch``), which on Redis sends the whole batch as one pipeline, one round trip
-(other transports publish each message at once, as before). A burst of creations costs one broker round trip, not
-one per job.
+Wake-ups queued while the thread was publishing go out together: on the one producer the thread keeps (taking one
+from the pool for each batch cost about as much CPU as publishing a few messages), in kombu's publish batch
+(``Producer.batch``), which on Redis sends the whole batch as one pipeline, one round trip (other transports
+publish each message at once, as before). A burst of creations costs one broker round trip, not one per job.
 
 A wake-up that is lost (broker down, process killed before sending) costs only time: the job is already
 in the store, and the reaper re-sends wake-ups for queued jobs when the workers sit idle.
@@ -14,6 +14,7 @@ from __future__ import annotations
 import logging
 import queue
 import threading
+from typing import Any
 
 from celery import Celery
 
@@ -26,6 +27,7 @@ MAX_BATCH = 256
 class Dispatcher:
     def __init__(self, celery: Celery, queue_name: str):
         self.celery, self.queue_name = celery, queue_name
+        self.producer: Any = None  # kept between batches; handed back to the pool after a failure and at the end
         self.pending: queue.SimpleQueue[str | None] = queue.SimpleQueue()
         self.thread = threading.Thread(target=self._loop, name="wakeyard-dispatch", daemon=True)
         self.thread.start()
@@ -49,15 +51,24 @@ class Dispatcher:
                     break
             stopping = None in batch
             self._send([job_id for job_id in batch if job_id is not None])
+        self._hand_back()
+
+    def _hand_back(self) -> None:
+        if self.producer is not None:
+            self.producer.release()
+            self.producer = None
 
     def _send(self, batch: list[str]) -> None:
         if not batch:
             return
         sent = 0
         try:
-            with self.celery.producer_or_acquire() as producer, producer.batch(max_size=MAX_BATCH):
+            if self.producer is None:
+                self.producer = self.celery.producer_pool.acquire(block=True)
+            with self.producer.batch(max_size=MAX_BATCH):
                 for job_id in batch:
-                    self.celery.send_task(TASK, args=[job_id], queue=self.queue_name, producer=producer)
+                    self.celery.send_task(TASK, args=[job_id], queue=self.queue_name, producer=self.producer)
                     sent += 1
         except Exception:  # the broker is away: the rest would fail the same way, each after its own retries
+            self._hand_back()  # the next batch takes a producer afresh
             log.exception("could not send %d of %d wake-up(s); the reaper will retry", len(batch) - sent, len(batch))

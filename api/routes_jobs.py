@@ -185,10 +185,10 @@ def list_jobs(
 
 
 @router.get("/{job_id}", summary="Read one job", response_model=JobView)
-def read_job(store: StoreDep, job_id: str, _: UserDep) -> JSONResponse:
-    """In the thread pool like every database call: a read can wait on a lock (a PostgreSQL table lock, a busy
-    SQLite file), and on the event loop that wait would stall every other request."""
-    job = store.read(job_id)
+async def read_job(store: StoreDep, job_id: str, _: UserDep) -> JSONResponse:
+    """On the event loop, awaiting the store (status reads are the hottest path: no thread hand-off); a read that
+    waits on a lock (a PostgreSQL table lock, a busy SQLite file) stalls no other request."""
+    job = await store.read_on_loop(job_id)
     if job is None:
         raise NotFound("job_id", f"no job {job_id}")
     return JSONResponse(view(job))  # already JSON types: skip FastAPI's re-validation (status reads are hot)

@@ -44,8 +44,9 @@ def revision(url: str) -> str | None:
         engine.dispose()
 
 
-def migrate(url: str) -> tuple[str | None, str]:
-    """Bring the store at ``url`` to the newest revision; returns (revision before, revision after)."""
+def migrate(url: str, target: str = "head") -> tuple[str | None, str]:
+    """Bring the store at ``url`` to the newest revision (or ``target``, for tests of a later revision's upgrade);
+    returns (revision before, revision after)."""
     engine = make_engine(url)
     try:
         with engine.begin() as conn:
@@ -54,7 +55,7 @@ def migrate(url: str) -> tuple[str | None, str]:
             before = current(conn)
             config = _config()
             config.attributes["connection"] = conn
-            command.upgrade(config, "head")
+            command.upgrade(config, target)
             return before, current(conn) or ""
     finally:
         engine.dispose()

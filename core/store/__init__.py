@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from sqlalchemy.orm import sessionmaker
 
-from .engine import make_engine
+from .engine import make_async_engine, make_engine
 from .jobs import Jobs, OverCap, Provenance
 from .leases import Claimed, Leases
 from .models import Base, Job, JobTag, Study, Token, WorkerSeen
@@ -24,6 +24,7 @@ class Store(Jobs, Studies, Tokens, Leases, Usage):
     def __init__(self, url: str):
         """Connect only: the schema is brought up to date once, by ``core.migrate`` (``wakeyard migrate``)."""
         self.engine = make_engine(url)
+        self.async_engine = make_async_engine(url)
         self.session = sessionmaker(self.engine, expire_on_commit=False)
         self._token_users = {}
 

@@ -1,4 +1,4 @@
-"""What every part of the job store works with: the engine and a session factory."""
+"""What every part of the job store works with: the engines and a session factory."""
 
 from __future__ import annotations
 
@@ -6,6 +6,7 @@ from typing import Any, cast
 
 from sqlalchemy import text
 from sqlalchemy.engine import CursorResult, Engine, Result
+from sqlalchemy.ext.asyncio import AsyncEngine
 from sqlalchemy.orm import Session, sessionmaker
 
 
@@ -17,6 +18,7 @@ def changed(result: Result[Any]) -> int:
 
 class Repository:
     engine: Engine
+    async_engine: AsyncEngine | None  # PostgreSQL's, for the event loop (status reads)
     session: sessionmaker[Session]
 
     def ping(self) -> None:

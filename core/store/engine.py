@@ -1,15 +1,24 @@
-"""The database engine: SQLite tuned for several processes, PostgreSQL with a pool for every request thread."""
+"""The database engine: SQLite tuned for several processes, PostgreSQL with a steady pool for every request thread."""
 
 from __future__ import annotations
 
+import time
 from typing import Any
 
-from sqlalchemy import create_engine, event
+from sqlalchemy import create_engine, event, exc
 from sqlalchemy.engine import Engine
+from sqlalchemy.ext.asyncio import AsyncEngine, create_async_engine
+from sqlalchemy.pool import ConnectionPoolEntry, PoolProxiedConnection
 
-# Every request thread (anyio's default limit is 40), the event loop (status reads) and the reaper may each hold a
-# connection at once: with a smaller pool the event loop could wait for one, stalling every request.
-MAX_CONNECTIONS = 48
+# Every request thread (anyio's default limit is 40) and the reaper may each hold a connection at once. The pool
+# keeps POOL_SIZE of them open: a connection beyond the pool is closed when returned, so a pool smaller than the
+# usual number of concurrent requests would open (a PostgreSQL backend, a login) and close one per request.
+MAX_CONNECTIONS, POOL_SIZE = 48, 24
+# The event loop's own connections (status reads with PostgreSQL): a read waiting for one awaits, blocking nothing.
+ASYNC_POOL_SIZE = 8
+# A connection unused for this long is pinged before use (a restarted server drops them all). A busy pool skips
+# the round trip; a connection lost all the same fails its one request and invalidates the rest of the pool.
+PING_AFTER_IDLE_SECONDS = 2.0
 
 
 def make_engine(url: str) -> Engine:
@@ -33,4 +42,35 @@ def make_engine(url: str) -> Engine:
             cur.close()
 
         return engine
-    return create_engine(url, pool_pre_ping=True, max_overflow=MAX_CONNECTIONS - 5)
+    engine = create_engine(url, pool_size=POOL_SIZE, max_overflow=MAX_CONNECTIONS - POOL_SIZE)
+    _ping_when_idle(engine)
+    return engine
+
+
+def make_async_engine(url: str) -> AsyncEngine | None:
+    """PostgreSQL's engine for the event loop (psycopg's async connections); None for SQLite, whose reads stay in
+    threads (its driver has no async side)."""
+    if url.startswith("sqlite"):
+        return None
+    engine = create_async_engine(url, pool_size=ASYNC_POOL_SIZE, max_overflow=0)
+    _ping_when_idle(engine.sync_engine)
+    return engine
+
+
+def _ping_when_idle(engine: Engine) -> None:
+    """SQLAlchemy's ``pool_pre_ping``, but only for a connection idle over PING_AFTER_IDLE_SECONDS: under load
+    the ping was one extra round trip per request."""
+
+    @event.listens_for(engine, "checkin")
+    def _returned(_conn: Any, record: ConnectionPoolEntry) -> None:
+        record.info["returned"] = time.monotonic()
+
+    @event.listens_for(engine, "checkout")
+    def _taken(conn: Any, record: ConnectionPoolEntry, _proxy: PoolProxiedConnection) -> None:
+        returned = record.info.get("returned")
+        if returned is None or time.monotonic() - returned < PING_AFTER_IDLE_SECONDS:
+            return  # new, or in use a moment ago
+        try:
+            engine.dialect.do_ping(conn)
+        except Exception as err:  # the pool discards it and checks out (or opens) another
+            raise exc.DisconnectionError(f"a pooled connection was lost: {err}") from err

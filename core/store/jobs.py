@@ -1,22 +1,28 @@
 """Jobs: creation (queued, or succeeded at once by reusing a result), reads, lists, cancel and delete.
 
 Every state change is a compare-and-set ``UPDATE ... WHERE state = ...`` so that concurrent API calls and workers
-never overwrite each other. The per-user cap is checked in the creating transaction, after the insert and under a
-per-owner lock, so concurrent creations never take an owner over it.
+never overwrite each other. The per-user cap is a unique index: a capped queued job takes a free slot number below
+the cap, and an owner's queued and running jobs hold distinct slots (``ux_jobs_owner_slot``), so concurrent
+creations never take an owner over the cap, yet wait for each other only when two pick the same slot. A job frees
+its slot by leaving those states, whichever way it leaves (finish, failure, cancel, the reaper) or by its deletion.
 """
 
 from __future__ import annotations
 
+import asyncio
+import random
 import uuid
 from dataclasses import dataclass
 from typing import Any, cast
 
-from sqlalchemy import Table, bindparam, delete, func, insert, select, text, update
+from sqlalchemy import Table, bindparam, delete, func, insert, select, update
+from sqlalchemy.dialects import postgresql, sqlite
 from sqlalchemy.engine import Connection, Row
+from sqlalchemy.sql.dml import ReturningInsert
 
 from ..states import ACTIVE, JobState
 from .base import Repository, changed
-from .models import Job, JobTag
+from .models import HOLDS_SLOT, Job, JobTag
 from .values import utcnow
 
 
@@ -46,9 +52,23 @@ _RESULT = (
     .limit(1)
 )
 _ACTIVE = select(func.count()).where(Job.owner == bindparam("owner"), Job.state.in_(ACTIVE))
-# PostgreSQL: a transaction-scoped advisory lock per owner (the two-key form: a key space apart from the migration
-# lock's); a hash collision between two owners only makes them wait for each other, never lets one over its cap.
-_OWNER_LOCK = text("SELECT pg_advisory_xact_lock(1, hashtext(:owner))")
+_SLOTS = select(JOBS.c.slot).where(JOBS.c.owner == bindparam("owner"), HOLDS_SLOT)  # from the unique index alone
+# a creation that keeps meeting others on the slots it picks gives up (each such meeting is another job created)
+SLOT_TRIES = 64
+
+
+def _into_free_slot(new: postgresql.Insert | sqlite.Insert) -> ReturningInsert[Any]:
+    """INSERT that does nothing if the owner's slot is held (waiting, if its holder has not committed yet, to see
+    whether it does), returning the new job's key if it was inserted."""
+    return new.on_conflict_do_nothing(index_elements=[JOBS.c.owner, JOBS.c.slot], index_where=HOLDS_SLOT).returning(
+        JOBS.c.seq
+    )
+
+
+_INTO_FREE_SLOT = {
+    "postgresql": _into_free_slot(postgresql.insert(JOBS)),
+    "sqlite": _into_free_slot(sqlite.insert(JOBS)),
+}
 
 
 class OverCap(Exception):
@@ -59,11 +79,31 @@ class OverCap(Exception):
         self.owner, self.active, self.cap = owner, active, cap
 
 
-def _lock_owner(conn: Connection, owner: str) -> None:
-    """Serialise the creations of one owner until this transaction ends. SQLite needs nothing here: the insert
-    that comes first takes its one write lock, held until commit, so the count after it sees every other job."""
-    if conn.dialect.name == "postgresql":
-        conn.execute(_OWNER_LOCK, {"owner": owner})
+def _free_slot(held: set[int], cap: int) -> int:
+    """A random slot below ``cap`` not in ``held`` (random, so that concurrent creations rarely pick the same)."""
+    if 2 * len(held) < cap:
+        while (slot := random.randrange(cap)) in held:
+            pass
+        return slot
+    return random.choice([slot for slot in range(cap) if slot not in held])
+
+
+def _insert_capped(conn: Connection, values: dict[str, Any], cap: int) -> int:
+    """Insert a queued job into a free slot of its owner's; its key, or :class:`OverCap` if all ``cap`` are held.
+
+    The first try picks a slot blind (one round trip when the owner has room to spare); after a miss, the slots
+    held now are read and a free one is picked among them. Each miss is a slot another creation took meanwhile;
+    after SLOT_TRIES of them the owner counts as full."""
+    statement, held = _INTO_FREE_SLOT[conn.dialect.name], set[int]()
+    for _ in range(SLOT_TRIES):
+        key = conn.execute(statement, {**values, "slot": _free_slot(held, cap)}).scalar()
+        if key is not None:
+            return key
+        slots = conn.scalars(_SLOTS, {"owner": values["owner"]}).all()  # None: an active job of no cap's
+        if len(slots) >= cap:
+            raise OverCap(values["owner"], len(slots), cap)
+        held = set(slots)
+    raise OverCap(values["owner"], len(held), cap)
 
 
 class Jobs(Repository):
@@ -79,7 +119,8 @@ class Jobs(Repository):
         """A queued job, or with ``new.source`` one that is succeeded at once with the source's result.
 
         With ``cap``, a queued job is created only if its owner then has at most ``cap`` queued or running jobs,
-        else :class:`OverCap` is raised and nothing is created."""
+        else :class:`OverCap` is raised and nothing is created. Without it the job holds no slot: every creation
+        of a service passes its cap."""
         job = Job(
             id=job_id or uuid.uuid4().hex,
             state=JobState.QUEUED,
@@ -102,16 +143,14 @@ class Jobs(Repository):
             job.state, job.reused_from, job.summary = JobState.SUCCEEDED, src.id, src.summary
             job.started_at = job.finished_at = now
             job.progress_fraction, job.progress_step, job.progress_time = 1.0, src.progress_step, src.progress_time
-        values = {c.key: getattr(job, c.key) for c in JOBS.columns if c.key != "seq"}
-        limit = cap if job.state == JobState.QUEUED else None
+        values = {c.key: getattr(job, c.key) for c in JOBS.columns if c.key not in ("seq", "slot")}
         with self.engine.begin() as conn:  # Core, not the unit of work: creation is a hot path
-            if limit is not None:
-                _lock_owner(conn, owner)
-            key = conn.execute(insert(JOBS), values).inserted_primary_key
-            assert key is not None  # a one-row INSERT always has its key
-            job.seq = key[0]
-            if limit is not None and (active := conn.scalar(_ACTIVE, {"owner": owner}) or 0) > limit:
-                raise OverCap(owner, active - 1, limit)  # rolls the insert back
+            if cap is not None and job.state == JobState.QUEUED:
+                job.seq = _insert_capped(conn, values, cap)
+            else:  # uncapped (a reused result, or a caller that checks no cap): holds no slot
+                key = conn.execute(insert(JOBS), values).inserted_primary_key
+                assert key is not None  # a one-row INSERT always has its key
+                job.seq = key[0]
             if tags:
                 conn.execute(insert(cast(Table, JobTag.__table__)), [{"job_seq": job.seq, "tag": t} for t in set(tags)])
         return job
@@ -130,6 +169,14 @@ class Jobs(Repository):
         path, and a prepared Core statement costs about a third of an ORM session."""
         with self.engine.connect() as conn:
             return conn.execute(_READ, {"job_id": job_id}).first()
+
+    async def read_on_loop(self, job_id: str) -> Row[Any] | None:
+        """:meth:`read` for the event loop: awaiting PostgreSQL (a status read needs no thread, nor the hand-offs
+        to and from one), or with SQLite in a thread (a busy file must not stall the loop)."""
+        if self.async_engine is None:
+            return await asyncio.to_thread(self.read, job_id)
+        async with self.async_engine.connect() as conn:
+            return (await conn.execute(_READ, {"job_id": job_id})).first()
 
     def list_jobs(
         self, state: str | None, owner: str | None, tag: str | None, limit: int, before_seq: int | None

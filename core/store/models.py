@@ -17,8 +17,14 @@ from sqlalchemy import (
     String,
     Text,
     TypeDecorator,
+    text,
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
+
+from ..states import ACTIVE
+
+# The rows the per-user cap counts: a job holds its slot while queued or running, and frees it by leaving those states.
+HOLDS_SLOT = text("state IN ({})".format(", ".join(f"'{state.value}'" for state in ACTIVE)))
 
 
 class UTCDateTime(TypeDecorator[datetime]):
@@ -43,6 +49,9 @@ class Job(Base):
     __table_args__ = (  # the two look-ups every creation makes, answered from the index alone
         Index("ix_jobs_owner_state", "owner", "state"),
         Index("ix_jobs_hash_state", "spec_hash", "state"),
+        # the per-user cap as a constraint: an owner's queued and running jobs hold distinct slots below the cap
+        # (core.store.jobs), so they never outnumber it, and every way out of those states frees the slot
+        Index("ux_jobs_owner_slot", "owner", "slot", unique=True, postgresql_where=HOLDS_SLOT, sqlite_where=HOLDS_SLOT),
     )
 
     seq: Mapped[int] = mapped_column(Integer, primary_key=True, autoincrement=True)
@@ -73,6 +82,7 @@ class Job(Base):
     # bytes of the job's folder as last measured by the disk sweep (core.usage); None: not measured since it finished
     disk_bytes: Mapped[int | None] = mapped_column(BigInteger)
     trimmed_at: Mapped[datetime | None] = mapped_column(UTCDateTime)  # when the retention rule removed its fields
+    slot: Mapped[int | None] = mapped_column(Integer)  # 0 to cap - 1 for a capped queued job; see ux_jobs_owner_slot
 
 
 class Study(Base):

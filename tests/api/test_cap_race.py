@@ -81,3 +81,95 @@ def test_a_study_that_meets_the_cap_midway_cancels_the_points_it_made(
     assert "the limit per user is 3" in message and "the 3 points of study" in message
     jobs = offline.get("/api/v1/jobs").json()["jobs"]
     assert len(jobs) == 3 and {j["state"] for j in jobs} == {"cancelled"}
+
+
+def _refused(store: Store, owner: str, cap: int) -> bool:
+    try:
+        store.create(owner, tiny(), [], cap=cap)
+    except OverCap:
+        return True
+    return False
+
+
+def test_every_way_out_of_queued_or_running_frees_a_slot_once(store_url: str) -> None:
+    """Finish, failure, cancel (queued or via its stopped worker), the reaper giving up, and delete each make room
+    for exactly one more job; a job handed back to the queue keeps its slot."""
+    store, cap = Store(store_url), 2
+    try:
+
+        def fill() -> None:
+            while not _refused(store, "ana", cap):
+                pass
+            assert store.active_count("ana") == cap
+
+        def running() -> tuple[str, str]:
+            claimed = store.claim_next("host:1")
+            assert claimed is not None
+            return claimed.id, claimed.claim
+
+        def frees_one(way_out: object) -> None:
+            fill()
+            way_out()  # type: ignore[operator]
+            assert store.active_count("ana") == cap - 1
+            assert not _refused(store, "ana", cap) and _refused(store, "ana", cap)  # room for one, not two
+
+        def cancel_queued() -> None:
+            queued = store.queued_ids()[0]
+            assert store.cancel(queued) == "cancelled" and store.cancel(queued) == "cancelled"  # twice: one slot
+
+        frees_one(lambda: store.finish(*running(), "succeeded", {"bodies": []}))
+        frees_one(lambda: store.finish(*running(), "failed", error="diverged"))
+        frees_one(cancel_queued)
+        frees_one(lambda: store.delete(store.queued_ids()[0]))
+
+        def worker_stopped_after_cancel() -> None:
+            job_id, _ = running()
+            store.cancel(job_id)  # flags it; still running
+            assert store.active_count("ana") == cap
+            store.release_hosts(["host:1"])
+
+        frees_one(worker_stopped_after_cancel)
+        frees_one(lambda: (running(), store.expire_leases(lease_seconds=-1, max_attempts=1)))
+
+        fill()
+        job_id, claim = running()
+        assert store.release(job_id, claim)  # back in the queue: still holds its slot
+        store.expire_leases(lease_seconds=-1, max_attempts=1)  # nothing running to expire
+        assert _refused(store, "ana", cap) and store.active_count("ana") == cap
+    finally:
+        store.engine.dispose()
+
+
+def test_creations_racing_with_ends_never_pass_the_cap(store_url: str) -> None:
+    """Creations from many threads while other threads finish and cancel jobs: at every look, at most the cap."""
+    store, cap, rounds = Store(store_url), 3, 12
+    seen: list[int] = []
+    stop = threading.Event()
+
+    def watch() -> None:
+        while not stop.is_set():
+            seen.append(store.active_count("ana"))
+
+    def end_some() -> None:
+        for _ in range(rounds):
+            if claimed := store.claim_next("host:2"):
+                store.finish(claimed.id, claimed.claim, "succeeded", {"bodies": []})
+            for job_id in store.queued_ids()[:1]:
+                store.cancel(job_id)
+
+    watcher = threading.Thread(target=watch)
+    watcher.start()
+    try:
+        for _ in range(3):
+            ender = threading.Thread(target=end_some)
+            ender.start()
+            results = _race(lambda: store.create("ana", tiny(), [], cap=cap), tries=12)
+            ender.join()
+            assert all(isinstance(r, OverCap) or getattr(r, "owner", None) == "ana" for r in results), results
+            assert store.active_count("ana") <= cap
+    finally:
+        stop.set()
+        watcher.join()
+        store.engine.dispose()
+    assert seen and max(seen) <= cap
+    assert max(seen) == cap  # the races did fill the room
