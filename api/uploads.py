@@ -8,7 +8,6 @@ job). A part belongs to one lease: a worker that lost its job cannot continue an
 from __future__ import annotations
 
 import fcntl
-import hashlib
 import json
 import os
 import re
@@ -18,11 +17,12 @@ from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
+from wakeyard.core.digest import sha256_of
+
 # a relative path of plain names: letters, digits and _ . - ; no empty, hidden (".x") or parent ("..") part
 _PATH = re.compile(r"^[A-Za-z0-9_-][A-Za-z0-9_.-]*(/[A-Za-z0-9_-][A-Za-z0-9_.-]*)*$")
 MAX_PATH = 200
 STAGE = ".uploads"
-CHUNK = 1 << 20
 
 
 def path_problem(path: str) -> str | None:
@@ -32,14 +32,6 @@ def path_problem(path: str) -> str | None:
     if not _PATH.match(path):
         return "a relative path of names made of letters, digits, '_', '.' and '-' (no hidden or parent parts)"
     return None
-
-
-def sha256_of(path: Path) -> str:
-    h = hashlib.sha256()
-    with open(path, "rb") as f:
-        while block := f.read(CHUNK):
-            h.update(block)
-    return h.hexdigest()
 
 
 class LeaseEnded(Exception):

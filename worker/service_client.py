@@ -7,7 +7,6 @@ refusal that names the lease raises :class:`LeaseLost` at once.
 
 from __future__ import annotations
 
-import hashlib
 import logging
 import os
 import time
@@ -16,6 +15,8 @@ from pathlib import Path
 from typing import Any, TypeVar
 
 import httpx
+
+from wakeyard.core.digest import sha256_of
 
 log = logging.getLogger(__name__)
 
@@ -43,14 +44,6 @@ class Refused(Exception):
         except (ValueError, KeyError, TypeError):
             text = response.text[:500]
         super().__init__(f"{response.request.method} {response.request.url.path}: {self.status} {text}")
-
-
-def sha256_of(path: Path) -> str:
-    h = hashlib.sha256()
-    with open(path, "rb") as f:
-        while block := f.read(CHUNK):
-            h.update(block)
-    return h.hexdigest()
 
 
 class ServiceClient:
