@@ -49,8 +49,24 @@ class NotFound(Problem):
     status = 404
 
 
+class BadRequest(Problem):
+    status = 400
+
+
 class Conflict(Problem):
     status = 409
+
+
+class LengthRequired(Problem):
+    status = 411
+
+
+class TooLarge(Problem):
+    status = 413
+
+
+class Unprocessable(Problem):
+    status = 422
 
 
 class TooManyJobs(Problem):

@@ -21,7 +21,7 @@ from wakeyard.core.states import JobState
 from wakeyard.core.store import finite
 
 from .deps import SettingsDep, StoreDep, WorkerDep
-from .problems import Conflict, NotFound, Problem
+from .problems import BadRequest, Conflict, LengthRequired, NotFound, TooLarge, Unprocessable
 from .uploads import LeaseEnded, Uploads, path_problem
 
 router = APIRouter(prefix="/api/v1/worker", tags=["worker"])
@@ -30,22 +30,6 @@ _RANGE = re.compile(r"^bytes (\d+)-(\d+)/(\d+)$")
 _SHA = re.compile(r"^[0-9a-f]{64}$")
 CLASH = (IsADirectoryError, NotADirectoryError, FileExistsError)  # "a/b" where "a" is a file, or the reverse
 RESTART_FILES = ("checkpoint.npz", "heat_checkpoint.npz")  # the solver's restart state, as it names it
-
-
-class BadRequest(Problem):
-    status = 400
-
-
-class LengthRequired(Problem):
-    status = 411
-
-
-class TooLarge(Problem):
-    status = 413
-
-
-class Unprocessable(Problem):
-    status = 422
 
 
 class ClaimRequest(BaseModel):

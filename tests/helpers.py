@@ -134,5 +134,16 @@ def wait_for(
         time.sleep(0.2)
 
 
+def wait_until(what: str, check: Callable[[], Any], timeout: float, logs: list[Path]) -> Any:
+    """``check()``'s first truthy answer; on timeout fail with the tails of ``logs`` (the processes' own words)."""
+    deadline = time.monotonic() + timeout
+    while time.monotonic() < deadline:
+        if found := check():
+            return found
+        time.sleep(0.1)
+    shown = "\n".join(f"--- {log.name}\n{log.read_text()[-3000:]}" for log in logs)
+    raise AssertionError(f"timed out waiting for {what}\n{shown}")
+
+
 def finished(job: dict[str, Any]) -> bool:
     return job["state"] in ("succeeded", "failed", "cancelled")

@@ -13,7 +13,6 @@ import shutil
 import signal
 import subprocess
 import sys
-import time
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
@@ -22,7 +21,7 @@ import httpx
 import numpy as np
 import pytest
 
-from tests.helpers import tiny
+from tests.helpers import tiny, wait_until
 from wakeyard import solver
 from wakeyard.solver.output import read_forces
 
@@ -126,16 +125,6 @@ def _clean_env(**values: str) -> dict[str, str]:
     return {**env, **values}
 
 
-def _wait(what: str, check: Any, timeout: float, logs: list[Path]) -> Any:
-    deadline = time.monotonic() + timeout
-    while time.monotonic() < deadline:
-        if found := check():
-            return found
-        time.sleep(0.2)
-    shown = "\n".join(f"--- {log.name}\n{log.read_text()[-3000:]}" for log in logs)
-    raise AssertionError(f"timed out waiting for {what}\n{shown}")
-
-
 def _token(data: Path, name: str, *flags: str) -> str:
     made = subprocess.run(
         [sys.executable, "-c", MAIN, "token", "create", name, *flags, "--data", str(data)],
@@ -168,7 +157,7 @@ def test_a_job_whose_box_vanishes_resumes_on_another_box_from_its_uploaded_check
         except httpx.TransportError:
             return False
 
-    _wait("the service", answers, 60, [service_log])
+    wait_until("the service", answers, 60, [service_log])
     logs = {name: tmp_path / f"{name}.log" for name in hosts.boxes}
     for k, (name, ns) in enumerate(hosts.boxes.items(), start=1):
         secret = _token(service_data, name, "--worker")
@@ -176,7 +165,7 @@ def test_a_job_whose_box_vanishes_resumes_on_another_box_from_its_uploaded_check
         hosts.start(ns, ["worker", "--url", hosts.url(k), "--data", str(tmp_path / name)], env, logs[name])
     every_log = [service_log, *logs.values()]
     for log in logs.values():
-        _wait(f"{log.stem} polling", lambda log=log: "polling" in log.read_text(), 60, every_log)
+        wait_until(f"{log.stem} polling", lambda log=log: "polling" in log.read_text(), 60, every_log)
 
     job_id = api.post("/jobs", json=SPEC).json()["id"]
     manifest = service_data / "jobs" / job_id / ".uploads" / "manifest.json"
@@ -186,11 +175,11 @@ def test_a_job_whose_box_vanishes_resumes_on_another_box_from_its_uploaded_check
         files = json.loads(manifest.read_text()) if manifest.exists() else {}
         return job if job["state"] == "running" and "checkpoint.npz" in files else None
 
-    running = _wait("a checkpoint uploaded", checkpointed, 120, every_log)
+    running = wait_until("a checkpoint uploaded", checkpointed, 120, every_log)
     first = running["worker_host"].split("/")[0]
     other = next(name for name in hosts.boxes if name != first)
     assert hosts.kill(hosts.boxes[first])  # the whole box: supervisor and worker process
-    job = _wait(
+    job = wait_until(
         "the job to finish on the other box",
         lambda: (j := api.get(f"/jobs/{job_id}").json())["state"] in ("succeeded", "failed", "cancelled") and j,
         240,

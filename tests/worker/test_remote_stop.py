@@ -10,11 +10,10 @@ import subprocess
 import sys
 import time
 from pathlib import Path
-from typing import Any
 
 import httpx
 
-from tests.helpers import tiny
+from tests.helpers import tiny, wait_until
 
 MAIN = "import sys; from wakeyard.cli.main import main; sys.exit(main())"
 SPEC = tiny(end_time=3.0, output_interval=0.5, checkpoint_interval=10)
@@ -32,16 +31,6 @@ def _start(args: list[str], env: dict[str, str], log: Path) -> subprocess.Popen[
         stderr=subprocess.STDOUT,
         start_new_session=True,
     )
-
-
-def _wait(what: str, check: Any, timeout: float, logs: list[Path]) -> Any:
-    deadline = time.monotonic() + timeout
-    while time.monotonic() < deadline:
-        if found := check():
-            return found
-        time.sleep(0.1)
-    shown = "\n".join(f"--- {log.name}\n{log.read_text()[-3000:]}" for log in logs)
-    raise AssertionError(f"timed out waiting for {what}\n{shown}")
 
 
 def _token(data: Path, name: str, *flags: str) -> str:
@@ -70,11 +59,11 @@ def test_a_stopped_box_hands_its_job_back_and_the_next_box_resumes_it(tmp_path: 
             except httpx.TransportError:
                 return False
 
-        _wait("the service", answers, 60, logs[:1])
+        wait_until("the service", answers, 60, logs[:1])
         first = _start(["worker", "--url", url, "--data", str(tmp_path / "box-1")], worker_env, logs[1])
         procs.append(first)
         job_id = api.post("/jobs", json=SPEC).json()["id"]
-        _wait("a checkpoint uploaded", lambda: "checkpoint of step" in logs[1].read_text(), 120, logs)
+        wait_until("a checkpoint uploaded", lambda: "checkpoint of step" in logs[1].read_text(), 120, logs)
 
         stopped = time.monotonic()
         os.killpg(first.pid, signal.SIGTERM)
@@ -85,7 +74,7 @@ def test_a_stopped_box_hands_its_job_back_and_the_next_box_resumes_it(tmp_path: 
         assert "handed back to the queue" in logs[1].read_text()
 
         procs.append(_start(["worker", "--url", url, "--data", str(tmp_path / "box-2")], worker_env, logs[2]))
-        done = _wait(
+        done = wait_until(
             "the job on the next box",
             lambda: (j := api.get(f"/jobs/{job_id}").json())["state"] in ("succeeded", "failed") and j,
             240,
