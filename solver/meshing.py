@@ -7,6 +7,7 @@ parent (for locating points) and boundary facets by name ("inlet", "outlet",
 
 from __future__ import annotations
 
+import ctypes
 import math
 import signal
 import threading
@@ -134,13 +135,29 @@ def _sorted_quadratic(t: np.ndarray) -> np.ndarray:
 
 def _initialize_keeping_signal_handlers(gmsh: Any) -> None:
     """gmsh.initialize resets SIGTERM and SIGINT to the default action in C; put back the process's own handlers,
-    so a worker asked to stop can still hand its job back instead of dying on the spot."""
-    main = threading.current_thread() is threading.main_thread()  # handlers can only be set from the main thread
-    handlers = {sig: signal.getsignal(sig) for sig in (signal.SIGINT, signal.SIGTERM)} if main else {}
+    so a worker asked to stop can still hand its job back instead of dying on the spot, and a service that meshes
+    in its thread pool (previews, the unknowns limit) still stops cleanly on SIGTERM.
+
+    The handlers are saved and restored at the C level (``sigaction``): Python's own table is untouched by gmsh,
+    and Python may set handlers only from the main thread, while the API meshes in worker threads."""
+    saved = {sig: _sigaction(sig, None) for sig in (signal.SIGINT, signal.SIGTERM)}
     gmsh.initialize(interruptible=False)
-    for sig, handler in handlers.items():
-        if handler is not None:
-            signal.signal(sig, handler)
+    for sig, action in saved.items():
+        _sigaction(sig, action)
+
+
+_SIGACTION_BYTES = 256  # larger than glibc's struct sigaction on every Linux architecture (152 bytes on x86-64)
+
+
+def _sigaction(sig: int, action: ctypes.Array[ctypes.c_char] | None) -> ctypes.Array[ctypes.c_char]:
+    """Install ``action`` for ``sig`` (None: leave it) and return the action that was in place, as opaque bytes."""
+    previous = ctypes.create_string_buffer(_SIGACTION_BYTES)
+    if _libc.sigaction(sig, action, previous) != 0:
+        raise OSError(ctypes.get_errno(), f"sigaction({sig}) failed")
+    return previous
+
+
+_libc = ctypes.CDLL(None, use_errno=True)
 
 
 def counts(spec: JobSpec) -> tuple[int, int, int, float]:

@@ -324,6 +324,7 @@ def test_json_spec_round_trip_and_upload(page, base_url, tmp_path) -> None:
     page.context.grant_permissions(["clipboard-read", "clipboard-write"], origin=base_url)
     page.goto("/#/new")
     box = page.locator("#spec-json")
+    expect(page.locator("#f-bodies-0-radius")).to_have_value("0.01")  # the starting example has loaded
     # copy puts the spec on the clipboard; paste reads one back into the form
     page.get_by_role("button", name="Copy").click()
     page.wait_for_function("async () => (await navigator.clipboard.readText()).includes('water channel')")
