@@ -15,6 +15,7 @@ from fastapi.responses import FileResponse, StreamingResponse
 from wakeyard.core.settings import Settings
 from wakeyard.core.store import Store
 from wakeyard.solver.caution import CAUTION, caution_lines
+from wakeyard.solver.restart import RESTART_FILES
 
 from .deps import SettingsDep, StoreDep, UserDep
 from .problems import NotFound
@@ -23,7 +24,6 @@ router = APIRouter(prefix="/api/v1/jobs", tags=["files"])
 ARCHIVE = "fields.zip"
 EVERYTHING = "all-files.zip"  # every result file of the job in one download (not listed: it holds the list)
 ARCHIVE_NOTE = "CAUTION.txt"  # the caution travels inside the archive with the fields
-HIDDEN = {"checkpoint.npz"}  # the solver's restart state, not a result
 TYPES = {
     ".csv": "text/csv",
     ".json": "application/json",
@@ -56,7 +56,7 @@ def _shown(folder: Path, path: Path) -> bool:
         return (
             path.is_file()
             and path.resolve().is_relative_to(folder)
-            and path.name not in HIDDEN
+            and path.name not in RESTART_FILES
             and not any(part.startswith(".") for part in path.relative_to(folder).parts)
         )
     except BAD_PATH:

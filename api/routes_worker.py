@@ -19,6 +19,7 @@ from starlette.requests import ClientDisconnect
 
 from wakeyard.core.states import JobState
 from wakeyard.core.store import finite
+from wakeyard.solver.restart import RESTART_FILES
 
 from .deps import SettingsDep, StoreDep, WorkerDep
 from .problems import BadRequest, Conflict, LengthRequired, NotFound, TooLarge, Unprocessable
@@ -29,7 +30,6 @@ LeaseHeader = Annotated[str, Header(alias="Lease", description="the lease from t
 _RANGE = re.compile(r"^bytes (\d+)-(\d+)/(\d+)$")
 _SHA = re.compile(r"^[0-9a-f]{64}$")
 CLASH = (IsADirectoryError, NotADirectoryError, FileExistsError)  # "a/b" where "a" is a file, or the reverse
-RESTART_FILES = ("checkpoint.npz", "heat_checkpoint.npz")  # the solver's restart state, as it names it
 
 
 class ClaimRequest(BaseModel):

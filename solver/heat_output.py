@@ -19,6 +19,7 @@ from . import analysis, heat_pictures, output, picture_choice, pictures
 from .case import Case
 from .errors import Diverged
 from .heat_transfer import HeatTransfer
+from .restart import HEAT_CHECKPOINT
 from .results import ForceHistory, HeatNumbers, Stats, SteadySummary, TransientSummary
 
 log = logging.getLogger(__name__)
@@ -58,7 +59,7 @@ class HeatRun:
     def checkpoint(self, step: int) -> None:
         """Save the temperature state beside the flow's checkpoint (same step)."""
         h = self.heat
-        tmp = self.out / ".heat_checkpoint.npz"
+        tmp = self.out / f".{HEAT_CHECKPOINT}"
         with open(tmp, "wb") as f:
             np.savez(
                 f,
@@ -69,12 +70,12 @@ class HeatRun:
                 last_dt=h.last_dt or 0.0,
                 rows=np.array(self.rows).reshape(-1, len(self.columns)),
             )
-        tmp.replace(self.out / "heat_checkpoint.npz")
+        tmp.replace(self.out / HEAT_CHECKPOINT)
         self.write()
 
     def resume(self, step: int) -> None:
         """Continue from the heat checkpoint of flow step ``step``; restart the temperature (and say so) without one."""
-        path = self.out / "heat_checkpoint.npz"
+        path = self.out / HEAT_CHECKPOINT
         if path.exists():
             ck = np.load(path, allow_pickle=False)
             if int(ck["step"]) == step:
@@ -99,7 +100,7 @@ class HeatRun:
         """heat.csv, local_nusselt.csv and the plots; per body ``nusselt_number``, ``outlet_temperature``."""
         h = self.heat
         self.write()
-        (self.out / "heat_checkpoint.npz").unlink(missing_ok=True)
+        (self.out / HEAT_CHECKPOINT).unlink(missing_ok=True)
         history = ForceHistory.of_rows(self.columns, self.rows)
         t = history.time
         window = np.ones(len(t), dtype=bool)

@@ -22,6 +22,7 @@ from .heat_output import HeatRun
 from .mesh_picture import mesh_picture
 from .motion import DrivenMount, motion_summary
 from .recirculation import recirculation_length
+from .restart import FLOW_CHECKPOINT
 from .results import ForceHistory, Motion, Stats, SteadyBody, SteadySummary, TransientBody, TransientSummary
 from .spec import ADAPTIVE, JobSpec, load
 from .spring import SpringBody
@@ -353,7 +354,7 @@ class _Transient:
         summary.timings.update(
             {"solve": solve, "seconds_per_step": solve / max(stepper.n, 1), "output": time.perf_counter() - t_out}
         )
-        (self.out / "checkpoint.npz").unlink(missing_ok=True)
+        (self.out / FLOW_CHECKPOINT).unlink(missing_ok=True)
         return summary
 
     def _new_stepper(self) -> Stepper | AdaptiveBDF2:
@@ -379,7 +380,7 @@ class _Transient:
 
     def _start(self) -> Stepper | AdaptiveBDF2:
         stepper = self._new_stepper()
-        path = self.out / "checkpoint.npz"
+        path = self.out / FLOW_CHECKPOINT
         if self.resume and path.exists():
             with np.load(path, allow_pickle=False) as ck:
                 if str(ck["fingerprint"]) == self.fingerprint:
@@ -399,7 +400,7 @@ class _Transient:
     def _checkpoint(self, stepper: Stepper | AdaptiveBDF2) -> None:
         if self.heat:
             self.heat.checkpoint(stepper.n)
-        tmp = self.out / ".checkpoint.npz"
+        tmp = self.out / f".{FLOW_CHECKPOINT}"
         arrays: dict[str, Any] = {
             **stepper.state(),
             "rows": np.array(self.rows),
@@ -408,7 +409,7 @@ class _Transient:
         }
         with open(tmp, "wb") as f:
             np.savez(f, **arrays)
-        tmp.replace(self.out / "checkpoint.npz")
+        tmp.replace(self.out / FLOW_CHECKPOINT)
         stepper.renew_factorisation()
         output.write_forces(self.out / "forces.csv", self.columns, self.rows)
         self.rows_written = len(self.rows)

@@ -26,6 +26,7 @@ import numpy as np
 from wakeyard.core.settings import Settings
 from wakeyard.core.states import JobState
 from wakeyard.core.store import Claimed
+from wakeyard.solver.restart import FLOW_CHECKPOINT, RESTART_FILES
 
 from .attempt import Attempt
 from .service_client import LeaseLost, ServiceClient
@@ -35,7 +36,6 @@ log = logging.getLogger("wakeyard.remote")
 URL_VARIABLE = "WAKEYARD_SERVICE_URL"
 TOKEN_VARIABLE = "WAKEYARD_WORKER_TOKEN"
 POLL_VARIABLE = "WAKEYARD_POLL_SECONDS"
-CHECKPOINTS = ("checkpoint.npz", "heat_checkpoint.npz")  # the solver's restart state, flow and temperature
 STAGING = ".staging"  # copies of a checkpoint waiting to be uploaded (hidden: never a result file)
 
 SHUTDOWN = threading.Event()  # SIGTERM: the running job stops at its next step and is handed back
@@ -63,7 +63,7 @@ class Uploader:
         stage = self.out / STAGING / f"{step:09d}"
         stage.mkdir(parents=True, exist_ok=True)
         restart = []
-        for name in CHECKPOINTS:
+        for name in RESTART_FILES:
             if (self.out / name).exists():
                 try:
                     os.link(self.out / name, stage / name)
@@ -119,7 +119,7 @@ class Uploader:
         self.close()
         for path in sorted(self.out.rglob("*")):
             rel = path.relative_to(self.out)
-            if path.is_file() and not any(part.startswith(".") for part in rel.parts) and rel.name not in CHECKPOINTS:
+            if path.is_file() and not any(part.startswith(".") for part in rel.parts) and rel.name not in RESTART_FILES:
                 self._send(path, rel.as_posix())
 
 
@@ -184,12 +184,12 @@ def prepare(client: ServiceClient, job: Claimed, files: list[dict[str, Any]], ou
     shutil.rmtree(out, ignore_errors=True)  # what this box may have left of an earlier attempt is not the service's
     out.mkdir(parents=True)
     uploaded = {f["path"]: f for f in files}
-    if "checkpoint.npz" not in uploaded:
+    if FLOW_CHECKPOINT not in uploaded:
         return None
-    for name in CHECKPOINTS:
+    for name in RESTART_FILES:
         if name in uploaded:
             client.download(job.id, job.claim, name, out / name, uploaded[name]["sha256"])
-    with np.load(out / "checkpoint.npz", allow_pickle=False) as ck:
+    with np.load(out / FLOW_CHECKPOINT, allow_pickle=False) as ck:
         snapshots = [int(k) for k in ck["snapshots"]]
         step = int(ck["step"])
     for k in snapshots:

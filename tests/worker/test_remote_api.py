@@ -5,7 +5,9 @@ old job nor record its outcome."""
 from __future__ import annotations
 
 import hashlib
+import io
 import json
+import zipfile
 from typing import Any
 
 from fastapi.testclient import TestClient
@@ -191,3 +193,28 @@ def test_a_stopping_box_hands_its_job_back(offline: TestClient) -> None:
         problem(offline.post(f"/api/v1/worker/jobs/{job_id}/release", headers={**box.headers, "Lease": lease}), 409)[0]
         == "Lease"
     )
+
+
+def test_a_running_jobs_restart_state_is_never_listed_or_served_as_a_result(offline: TestClient) -> None:
+    """A heat-transfer run checkpoints the flow and the temperature; a box uploads both while the job runs."""
+    user, box, job_id = setup(offline)
+    lease = box.claim().json()["lease"]
+    uploaded = {
+        "checkpoint.npz": b"flow state",
+        "heat_checkpoint.npz": b"temperature state",
+        "forces.csv": b"time,fx\n0,1\n",
+        "heat.csv": b"time,nusselt\n0,2\n",
+    }
+    for path, data in uploaded.items():
+        assert box.put(job_id, lease, path, data, sha(data)).status_code == 201
+    assert offline.get(f"/api/v1/jobs/{job_id}", headers=user).json()["state"] == "running"
+    base = f"/api/v1/jobs/{job_id}/files"
+    assert [f["path"] for f in offline.get(base, headers=user).json()["files"]] == ["forces.csv", "heat.csv"]
+    for internal in ("checkpoint.npz", "heat_checkpoint.npz"):
+        assert problem(offline.get(f"{base}/{internal}", headers=user), 404)[0] == "path"
+    everything = offline.get(f"{base}/all-files.zip", headers=user)
+    assert sorted(zipfile.ZipFile(io.BytesIO(everything.content)).namelist()) == [
+        "CAUTION.txt",
+        "forces.csv",
+        "heat.csv",
+    ]
