@@ -61,6 +61,10 @@ class LengthRequired(Problem):
     status = 411
 
 
+class TimedOut(Problem):
+    status = 408
+
+
 class TooLarge(Problem):
     status = 413
 

@@ -22,7 +22,8 @@ from wakeyard.core.store import finite
 from wakeyard.solver.restart import RESTART_FILES
 
 from .deps import SettingsDep, StoreDep, WorkerDep
-from .problems import BadRequest, Conflict, LengthRequired, NotFound, TooLarge, Unprocessable
+from .problems import BadRequest, Conflict, LengthRequired, NotFound, Problem, TooLarge, Unprocessable
+from .upload_stream import timed
 from .uploads import LeaseEnded, Uploads, path_problem
 
 router = APIRouter(prefix="/api/v1/worker", tags=["worker"])
@@ -144,7 +145,9 @@ async def received(
     description="Headers: `Content-Length`, `Content-SHA256` (hex digest of the whole file) and, to continue an "
     "upload, `Content-Range: bytes START-END/TOTAL` with START the bytes the service has (GET "
     "`/uploads/{path}`). 202 with `received` while incomplete; 201 once the whole file arrived with that hash and "
-    "is in the job's folder; 422 on a hash mismatch (the bytes are discarded).",
+    "is in the job's folder; 422 on a hash mismatch (the bytes are discarded). 413 over the per-file "
+    "(`MAX_UPLOAD_MB`) or per-job (`MAX_JOB_UPLOAD_MB`) limit, 408 when the body stalls (`UPLOAD_IDLE_SECONDS`) or "
+    "takes too long (`MAX_UPLOAD_SECONDS`); a refused upload's part is removed, the stored file stays as it was.",
 )
 async def upload(
     job_id: str,
@@ -173,26 +176,39 @@ async def upload(
             raise BadRequest("Content-Range", f"{content_range} does not match Content-Length {length}")
     elif length == 0:
         total = 0
+    sized = "Content-Range" if content_range is not None else "Content-Length"
     if total > settings.max_upload_bytes:
-        raise TooLarge("Content-Range", f"{total:,} bytes: over the upload limit of {settings.max_upload_bytes:,}")
+        raise TooLarge(sized, f"{total:,} bytes: over the per-file upload limit of {settings.max_upload_bytes:,} bytes")
     await _hold(store, job_id, lease)
     uploads = Uploads(settings.jobs_dir)
     have = uploads.received(job_id, lease, path)
     if start not in (0, have):
         raise Conflict("Content-Range", f"the service has {have} bytes of {path}: continue from byte {have}")
+    others = await run_in_threadpool(uploads.others, job_id, lease, path)
+    if others + total > settings.max_job_upload_bytes:
+        await run_in_threadpool(uploads.drop_part, job_id, lease, path)
+        raise TooLarge(
+            sized,
+            f"{total:,} bytes beside the {others:,} job {job_id} holds: over the per-job upload limit of "
+            f"{settings.max_job_upload_bytes:,} bytes",
+        )
     try:
         f = await run_in_threadpool(uploads.open_part, job_id, lease, path, start)
     except CLASH:
         raise Conflict("path", f"{path} clashes with a file or folder of the same name in the upload") from None
     got = 0
     try:
-        async for chunk in request.stream():
+        async for chunk in timed(request.stream(), settings.upload_idle_seconds, settings.max_upload_seconds):
             got += len(chunk)
             if got > length:
                 raise BadRequest("(body)", f"more than the {length} bytes Content-Length declared")
             await run_in_threadpool(f.write, chunk)
     except ClientDisconnect:  # the bytes so far stay: the worker continues from them
         pass
+    except Problem:  # refused on the way: nothing of it stays
+        f.close()
+        await run_in_threadpool(uploads.drop_part, job_id, lease, path)
+        raise
     finally:
         f.close()
     have = uploads.received(job_id, lease, path)

@@ -18,6 +18,7 @@ from pathlib import Path
 from typing import Any
 
 from wakeyard.core.digest import sha256_of
+from wakeyard.core.usage import folder_bytes
 
 # a relative path of plain names: letters, digits and _ . - ; no empty, hidden (".x") or parent ("..") part
 _PATH = re.compile(r"^[A-Za-z0-9_-][A-Za-z0-9_.-]*(/[A-Za-z0-9_-][A-Za-z0-9_.-]*)*$")
@@ -53,6 +54,18 @@ class Uploads:
             return self.part(job_id, lease, path).stat().st_size
         except FileNotFoundError:
             return 0
+
+    def drop_part(self, job_id: str, lease: str, path: str) -> None:
+        """Remove what arrived of a refused upload (a stored file of that path is left as it was)."""
+        self.part(job_id, lease, path).unlink(missing_ok=True)
+
+    def others(self, job_id: str, lease: str, path: str) -> int:
+        """Bytes the job's uploads take besides this lease's ``path``: the stored files (a new ``path`` replaces the
+        stored one, so that one does not count) and every part still arriving, whatever its lease."""
+        stored = sum(int(f["size"]) for p, f in self.files(job_id).items() if p != path)
+        stage = self.jobs_dir / job_id / STAGE
+        parts = sum(folder_bytes(d) for d in stage.iterdir() if d.is_dir()) if stage.is_dir() else 0
+        return stored + parts - self.received(job_id, lease, path)
 
     def open_part(self, job_id: str, lease: str, path: str, start: int) -> Any:
         """The part file, positioned to take the bytes from ``start`` (0 starts over)."""

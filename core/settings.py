@@ -59,6 +59,15 @@ class Settings(BaseSettings):
     max_upload_mb: float = Field(
         8192.0, gt=0, description="the largest file a remote worker (`wakeyard worker --url`) may upload"
     )
+    max_job_upload_mb: float = Field(
+        16384.0, gt=0, description="the bytes remote workers may upload into one job, its stored files and parts"
+    )
+    upload_idle_seconds: float = Field(
+        60.0, gt=0, description="an upload that sends nothing for this long is refused and its part removed"
+    )
+    max_upload_seconds: float = Field(
+        3600.0, gt=0, description="one upload request must arrive within this time (a broken-off one resumes)"
+    )
     disk_sweep_seconds: float = Field(
         30.0, gt=0, description="how often job folders are measured (disk use per user) and the retention applied"
     )
@@ -70,6 +79,10 @@ class Settings(BaseSettings):
     @property
     def max_upload_bytes(self) -> int:
         return int(self.max_upload_mb * 2**20)
+
+    @property
+    def max_job_upload_bytes(self) -> int:
+        return int(self.max_job_upload_mb * 2**20)
 
     @property
     def jobs_dir(self) -> Path:

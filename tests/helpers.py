@@ -8,12 +8,16 @@ import os
 import signal
 import subprocess
 import sys
+import threading
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
 import pytest
+import uvicorn
+from fastapi import FastAPI
 from fastapi.testclient import TestClient
 
 from wakeyard.core.migrate import migrate
@@ -119,6 +123,21 @@ class Worker:
                 self.proc.wait(10)
             except subprocess.TimeoutExpired:
                 self.kill()
+
+
+@contextmanager
+def served(app: FastAPI) -> Iterator[int]:
+    """``app`` behind a real HTTP server (uvicorn in a thread, its lifespan and reaper running); yields its port."""
+    server = uvicorn.Server(uvicorn.Config(app, host="127.0.0.1", port=0, log_level="warning"))
+    thread = threading.Thread(target=server.run, daemon=True)
+    thread.start()
+    while not server.started:
+        time.sleep(0.05)
+    try:
+        yield server.servers[0].sockets[0].getsockname()[1]
+    finally:
+        server.should_exit = True
+        thread.join(10)
 
 
 def wait_for(

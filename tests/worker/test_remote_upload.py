@@ -13,9 +13,8 @@ from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
-import uvicorn
 
-from tests.helpers import settings_for, tiny
+from tests.helpers import served, settings_for, tiny
 from wakeyard.api.app import create_app
 from wakeyard.api.auth import create_token
 from wakeyard.core.store import Store
@@ -73,17 +72,9 @@ class CuttingProxy:
 def service(tmp_path: Path) -> Iterator[tuple[int, Store, Path]]:
     """A real HTTP server (uvicorn in a thread) with the API, on the embedded broker, no worker."""
     settings = settings_for(tmp_path / "service", "wakeyard-upload", broker="")
-    server = uvicorn.Server(uvicorn.Config(create_app(settings), host="127.0.0.1", port=0, log_level="warning"))
-    thread = threading.Thread(target=server.run, daemon=True)
-    thread.start()
-    while not server.started:
-        time.sleep(0.05)
-    port = server.servers[0].sockets[0].getsockname()[1]
-    try:
-        yield port, server.config.app.state.store, settings.jobs_dir
-    finally:
-        server.should_exit = True
-        thread.join(10)
+    app = create_app(settings)
+    with served(app) as port:
+        yield port, app.state.store, settings.jobs_dir
 
 
 def test_a_cut_upload_continues_from_what_arrived(service: tuple[int, Store, Path], tmp_path: Path) -> None:
