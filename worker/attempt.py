@@ -17,6 +17,8 @@ from wakeyard.core.settings import Settings
 from wakeyard.core.states import JobState
 from wakeyard.core.store import Claimed, finite
 
+from .pulse import Pulse
+
 log = logging.getLogger(__name__)
 
 
@@ -54,7 +56,6 @@ class Attempt:
         self.latest: solver.Progress | None = None
         self.first: tuple[float, float] | None = None
         self.stop = threading.Event()
-        self.done = threading.Event()
         self.finishing = threading.Event()  # the outcome is being recorded: a lease that ends now ended by it
         self.lost = False
 
@@ -100,20 +101,11 @@ class Attempt:
     def _should_stop(self) -> bool:
         return self.stop.is_set() or self.shutdown.is_set()
 
-    def _beat_loop(self) -> None:
-        while not self.done.wait(self.settings.heartbeat_seconds):
-            self.beat()
-
     def run(self) -> None:
         """Run the job and record its outcome; heartbeats go on until it is recorded (a remote worker uploads its
         result files first, which may take a while)."""
-        beater = threading.Thread(target=self._beat_loop, name=f"heartbeat-{self.job.id}", daemon=True)
-        beater.start()
-        try:
+        with Pulse(self.beat, self.settings.heartbeat_seconds, f"heartbeat-{self.job.id}"):
             self._run()
-        finally:
-            self.done.set()
-            beater.join()
 
     def _run(self) -> None:
         summary = None

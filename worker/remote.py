@@ -29,6 +29,7 @@ from wakeyard.core.store import Claimed
 from wakeyard.solver.restart import FLOW_CHECKPOINT, RESTART_FILES
 
 from .attempt import Attempt
+from .pulse import Pulse
 from .service_client import LeaseLost, ServiceClient
 
 log = logging.getLogger("wakeyard.remote")
@@ -199,6 +200,23 @@ def prepare(client: ServiceClient, job: Claimed, files: list[dict[str, Any]], ou
     return step
 
 
+def fetch(client: ServiceClient, job: Claimed, files: list[dict[str, Any]], out: Path, every: float) -> int | None:
+    """:func:`prepare` with heartbeats every ``every`` seconds: a large checkpoint on a slow link can take longer
+    than the lease, and a job whose heartbeats stop is handed to another box."""
+
+    def beat() -> None:
+        try:
+            held, _ = client.heartbeat(job.id, job.claim, None)
+        except Exception:  # a hiccup: the next beat tries again, the lease decides
+            log.exception("job %s: heartbeat failed while fetching its checkpoint", job.id)
+            return
+        if not held:  # the next download is refused (LeaseLost)
+            log.warning("job %s: lease lost while fetching its checkpoint", job.id)
+
+    with Pulse(beat, every, f"fetch-{job.id}"):
+        return prepare(client, job, files, out)
+
+
 def run_one(client: ServiceClient, settings: Settings, name: str) -> bool:
     """Claim and run one job; False when none was waiting."""
     claimed = client.claim(name)
@@ -207,7 +225,7 @@ def run_one(client: ServiceClient, settings: Settings, name: str) -> bool:
     job = Claimed(claimed["job_id"], claimed["lease"], claimed["spec"], claimed["attempts"])
     out = settings.jobs_dir / job.id
     try:
-        step = prepare(client, job, claimed["files"], out)
+        step = fetch(client, job, claimed["files"], out, claimed["heartbeat_seconds"])
     except LeaseLost:
         log.warning("job %s: lease lost while fetching its checkpoint", job.id)
         return True

@@ -1,0 +1,101 @@
+"""A box that resumes a job fetches its checkpoint first; on a slow link that takes longer than the lease, and the
+box keeps the job only because it goes on sending heartbeats meanwhile (a real service with its lease reaper,
+reached through a relay that throttles what the service sends)."""
+
+from __future__ import annotations
+
+import contextlib
+import io
+import os
+import socket
+import threading
+import time
+from pathlib import Path
+
+import numpy as np
+
+from tests.helpers import served, settings_for, tiny
+from wakeyard.api.app import create_app
+from wakeyard.api.auth import create_token
+from wakeyard.core.store import Claimed
+from wakeyard.worker.remote import fetch
+from wakeyard.worker.service_client import ServiceClient
+
+BLOCK, PAUSE = 32 * 1024, 0.2  # at most this many bytes per pause from the service, on each connection
+
+
+class SlowLink:
+    """A TCP relay to the service: the box's requests pass at once, the service's answers at BLOCK per PAUSE."""
+
+    def __init__(self, upstream: int):
+        self.upstream = upstream
+        self.listener = socket.create_server(("127.0.0.1", 0))
+        self.port = self.listener.getsockname()[1]
+        threading.Thread(target=self._accept, daemon=True).start()
+
+    def _accept(self) -> None:
+        while True:
+            try:
+                client, _ = self.listener.accept()
+            except OSError:
+                return
+            server = socket.create_connection(("127.0.0.1", self.upstream))
+            threading.Thread(target=self._pipe, args=(client, server, 0.0), daemon=True).start()
+            threading.Thread(target=self._pipe, args=(server, client, PAUSE), daemon=True).start()
+
+    @staticmethod
+    def _pipe(src: socket.socket, dst: socket.socket, pause: float) -> None:
+        try:
+            while block := src.recv(BLOCK):
+                dst.sendall(block)
+                time.sleep(pause)
+        except OSError:
+            pass
+        for s in (src, dst):
+            with contextlib.suppress(OSError):
+                s.shutdown(socket.SHUT_RDWR)
+            s.close()
+
+    def close(self) -> None:
+        self.listener.close()
+
+
+def test_a_slow_checkpoint_download_keeps_the_lease(tmp_path: Path) -> None:
+    lease_seconds = 1.5
+    settings = settings_for(
+        tmp_path / "service", "wakeyard-fetch", broker="", lease_seconds=lease_seconds, reaper_seconds=0.2
+    )
+    app = create_app(settings)
+    store = app.state.store
+    job_id = store.create("ana", tiny(), []).id
+    token = create_token(store, "box", kind="worker")
+    buffer = io.BytesIO()
+    np.savez(buffer, step=7, snapshots=np.array([], dtype=int), state=np.frombuffer(os.urandom(2**19), np.uint8))
+    checkpoint = tmp_path / "checkpoint.npz"
+    checkpoint.write_bytes(buffer.getvalue())  # half a MiB: 16 blocks, over three seconds on the slow link
+
+    with served(app) as port:
+        first = ServiceClient(f"http://127.0.0.1:{port}", token)
+        old = first.claim("box:1")
+        assert old is not None and old["job_id"] == job_id
+        first.upload(job_id, old["lease"], checkpoint, "checkpoint.npz")
+        first.close()
+        assert store.expire_leases(lease_seconds=0.0, max_attempts=3) == [job_id]  # that box went silent
+
+        link = SlowLink(port)
+        box = ServiceClient(f"http://127.0.0.1:{link.port}", token)
+        try:
+            claimed = box.claim("box:2")
+            assert claimed is not None and claimed["job_id"] == job_id
+            job = Claimed(job_id, claimed["lease"], claimed["spec"], claimed["attempts"])
+            out = tmp_path / "box" / job_id
+            started = time.monotonic()
+            step = fetch(box, job, claimed["files"], out, claimed["heartbeat_seconds"])
+            took = time.monotonic() - started
+        finally:
+            box.close()
+            link.close()
+        assert took > 2 * lease_seconds  # the download outlasted the lease: only the heartbeats kept the job
+        assert step == 7 and (out / "checkpoint.npz").read_bytes() == checkpoint.read_bytes()
+        assert store.lease_held(job_id, job.claim)  # still this box's: not re-queued, not given to another box
+        assert store.get(job_id).attempts == 2
