@@ -32,6 +32,7 @@ from . import (
 from .dispatch import Dispatcher
 from .docs import install_docs
 from .limits import BodyLimit
+from .listeners import Listeners
 from .metrics import Timing, registry_for
 from .page_files import PageFiles
 from .problems import RESPONSES, install
@@ -52,10 +53,11 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         )
     store = Store(settings.db_url)
     celery = make_celery(settings)
-    dispatch = Dispatcher(celery, settings.queue)
+    listeners = Listeners(store, within=settings.lease_seconds)
+    dispatch = Dispatcher(celery, settings.queue, listeners)
     reserve = DiskReserve(settings.data_dir)
     reserve.ensure()
-    reaper = Reaper(settings, store, dispatch, reserve)
+    reaper = Reaper(settings, store, dispatch, reserve, listeners)
 
     @asynccontextmanager
     async def lifespan(_: FastAPI) -> AsyncIterator[None]:

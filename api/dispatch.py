@@ -6,7 +6,8 @@ from the pool for each batch cost about as much CPU as publishing a few messages
 publish each message at once, as before). A burst of creations costs one broker round trip, not one per job.
 
 A wake-up that is lost (broker down, process killed before sending) costs only time: the job is already
-in the store, and the reaper re-sends wake-ups for queued jobs when the workers sit idle.
+in the store, and the reaper re-sends wake-ups for queued jobs when the workers sit idle. While no worker consumes
+the queue (``listeners.py``) none is sent: nothing would ever take it out of the broker.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ from __future__ import annotations
 import logging
 import queue
 import threading
+from collections.abc import Callable
 from typing import Any
 
 from celery import Celery
@@ -25,8 +27,10 @@ MAX_BATCH = 256
 
 
 class Dispatcher:
-    def __init__(self, celery: Celery, queue_name: str):
-        self.celery, self.queue_name = celery, queue_name
+    """``listeners()``: how many worker processes consume the queue now (0: the wake-ups are dropped)."""
+
+    def __init__(self, celery: Celery, queue_name: str, listeners: Callable[[], int]):
+        self.celery, self.queue_name, self.listeners = celery, queue_name, listeners
         self.producer: Any = None  # kept between batches; handed back to the pool after a failure and at the end
         self.pending: queue.SimpleQueue[str | None] = queue.SimpleQueue()
         self.thread = threading.Thread(target=self._loop, name="wakeyard-dispatch", daemon=True)
@@ -63,6 +67,9 @@ class Dispatcher:
             return
         sent = 0
         try:
+            if not self.listeners():
+                log.debug("no worker consumes the queue: %d wake-up(s) not sent", len(batch))
+                return
             if self.producer is None:
                 self.producer = self.celery.producer_pool.acquire(block=True)
             with self.producer.batch(max_size=MAX_BATCH):

@@ -1,4 +1,5 @@
-"""The lease: re-queue jobs whose worker went silent, re-send wake-ups that a broker may have lost, prune the
+"""The lease: re-queue jobs whose worker went silent, re-send wake-ups that a broker may have lost (or that were
+not sent while no worker consumed the queue, ``listeners.py``), prune the
 embedded broker's delivered messages, restore the disk reserve, run the disk sweep (``api.disk_sweep``). Runs in a
 thread of every API process, but does its work only in the one that holds the service's lead (``core.lead``)."""
 
@@ -26,8 +27,16 @@ log = logging.getLogger(__name__)
 
 
 class Reaper:
-    def __init__(self, settings: Settings, store: Store, dispatch: Callable[[str], None], reserve: DiskReserve):
+    def __init__(
+        self,
+        settings: Settings,
+        store: Store,
+        dispatch: Callable[[str], None],
+        reserve: DiskReserve,
+        listeners: Callable[[], int],
+    ):
         self.settings, self.store, self.dispatch, self.reserve = settings, store, dispatch, reserve
+        self.listeners, self.heard = listeners, False  # heard: a worker consumed the queue at the last step
         self.stop = threading.Event()
         self.thread = threading.Thread(target=self._loop, name="wakeyard-reaper", daemon=True)
         embedded = settings.celery_broker.startswith("sqla+")
@@ -65,8 +74,11 @@ class Reaper:
             return
         if not was:
             log.info("this API process (pid %d) leads: it runs the lease reaper and the disk sweep", os.getpid())
-            for job_id in self.store.queued_ids():  # messages may have been lost while no one led
+        heard = self.listeners() > 0
+        if heard and not (was and self.heard):  # lost while no one led, or not sent while no worker listened
+            for job_id in self.store.queued_ids():
                 self.dispatch(job_id)
+        self.heard = heard
         self.tick()
         if time.monotonic() - self.swept >= self.settings.disk_sweep_seconds:
             self.swept = time.monotonic()
@@ -86,11 +98,9 @@ class Reaper:
         self._prune()
 
     def wake_ups(self) -> int:
-        """How many lost wake-ups to re-send: one per worker process, this host's (``workers``) or any seen within
-        the lease (``serve --workers 0`` runs none here), and at least one, so a worker that starts later finds
-        its job."""
-        seen = self.store.workers_seen(within=self.settings.lease_seconds)
-        return max(1, self.settings.workers, seen)
+        """How many lost wake-ups to re-send: one per worker process that consumes the queue, this host's
+        (``workers``) or any seen within the lease; remote workers claim over HTTP and need none."""
+        return max(self.settings.workers, self.listeners())
 
     def _prune(self) -> None:
         """The SQLAlchemy transport keeps delivered messages forever; drop those older than an hour."""

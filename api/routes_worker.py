@@ -18,7 +18,7 @@ from starlette.concurrency import run_in_threadpool
 from starlette.requests import ClientDisconnect
 
 from wakeyard.core.states import JobState
-from wakeyard.core.store import finite
+from wakeyard.core.store import finite, remote_worker
 from wakeyard.solver.restart import RESTART_FILES
 
 from .deps import SettingsDep, StoreDep, WorkerDep
@@ -105,7 +105,7 @@ def _checked_path(path: str) -> str:
 
 @router.post("/claim", response_model=Claim, summary="Claim the next queued job (204: none is waiting)")
 def claim(wanted: ClaimRequest, store: StoreDep, settings: SettingsDep, worker: WorkerDep) -> Any:
-    name = f"{worker.name}/{wanted.worker}"
+    name = remote_worker(worker.name, wanted.worker)
     store.worker_alive(name)  # health and the lease's wake-ups count remote workers too
     job = store.claim_next(name)
     if job is None:
@@ -126,7 +126,7 @@ def claim(wanted: ClaimRequest, store: StoreDep, settings: SettingsDep, worker: 
 def heartbeat(job_id: str, beat: Beat, lease: LeaseHeader, store: StoreDep, worker: WorkerDep) -> BeatAnswer:
     ours, cancel = store.heartbeat(job_id, lease, finite(_progress(beat.progress)))
     if ours and beat.worker:  # a busy remote worker is alive too (health, the lease's wake-ups)
-        store.worker_alive(f"{worker.name}/{beat.worker}")
+        store.worker_alive(remote_worker(worker.name, beat.worker))
     return BeatAnswer(lease_held=ours, cancel=cancel)
 
 

@@ -349,7 +349,7 @@ def dispatch_costs(bursts: int = 5, burst: int = 400) -> None:
                 celery.send_task("wakeyard.run_next", args=[job_id], queue=settings.queue)
 
         def batched() -> None:
-            dispatch = Dispatcher(celery, settings.queue)
+            dispatch = Dispatcher(celery, settings.queue, lambda: 1)  # as with a worker consuming
             for job_id in ids:
                 dispatch(job_id)
             dispatch.close()

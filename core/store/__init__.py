@@ -10,7 +10,7 @@ from sqlalchemy.orm import sessionmaker
 
 from .engine import make_async_engine, make_engine
 from .jobs import Jobs, OverCap, Provenance
-from .leases import Claimed, Leases
+from .leases import Claimed, Leases, remote_worker
 from .models import Base, Job, JobTag, Study, Token, WorkerSeen
 from .studies import Studies
 from .tokens import TokenRefused, Tokens, TokenTaken, token_state
@@ -43,6 +43,7 @@ __all__ = [
     "TokenTaken",
     "WorkerSeen",
     "finite",
+    "remote_worker",
     "token_state",
     "utcnow",
 ]

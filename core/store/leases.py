@@ -28,6 +28,16 @@ _RELEASED: dict[str, Any] = {
 }
 
 
+# A remote worker (``wakeyard worker --url``) is known as TOKEN/box:pid, a broker's (Celery) worker as host:pid; a
+# token's name has no "/" (``settings.TOKEN_NAME``) and neither has a host name.
+REMOTE_MARK = "/"
+
+
+def remote_worker(token: str, process: str) -> str:
+    """The name a remote worker process is known by: its token's name and its own (box:pid)."""
+    return f"{token}{REMOTE_MARK}{process}"
+
+
 @dataclass
 class Claimed:
     id: str
@@ -189,10 +199,13 @@ class Leases(Repository):
         with self.session.begin() as s:
             s.execute(delete(WorkerSeen).where(WorkerSeen.name == name))
 
-    def workers_seen(self, within: float, host: str | None = None) -> int:
-        """Worker processes (of ``host``, or anywhere) that reported in within the last ``within`` seconds."""
+    def workers_seen(self, within: float, host: str | None = None, broker_only: bool = False) -> int:
+        """Worker processes (of ``host``, or anywhere) that reported in within the last ``within`` seconds;
+        ``broker_only``: only those that take wake-ups from the broker, not remote workers claiming over HTTP."""
         q = select(func.count()).where(WorkerSeen.seen_at >= utcnow() - timedelta(seconds=within))
         if host is not None:
             q = q.where(WorkerSeen.name.startswith(f"{host}:", autoescape=True))
+        if broker_only:
+            q = q.where(WorkerSeen.name.not_like(f"%{REMOTE_MARK}%"))
         with self.session() as s:
             return s.scalar(q) or 0

@@ -17,6 +17,8 @@ from wakeyard.core.broker import make_celery
 
 JOBS = [f"{i:032x}" for i in range(600)]  # more than one batch
 
+ONE_WORKER = 1  # worker process consuming the queue, as the dispatcher is told (these tests start none)
+
 
 def hints(bodies: list[bytes | str]) -> list[str]:
     """The job ids the messages name (Celery's protocol 2: the body is [args, kwargs, embed], base64 JSON)."""
@@ -25,7 +27,7 @@ def hints(bodies: list[bytes | str]) -> list[str]:
 
 def test_a_burst_of_wake_ups_reaches_redis_one_message_per_job(tmp_path: Path, redis_broker: str) -> None:
     settings = settings_for(tmp_path, "wakeyard-dispatch", broker=redis_broker)
-    dispatch = Dispatcher(make_celery(settings), settings.queue)
+    dispatch = Dispatcher(make_celery(settings), settings.queue, lambda: ONE_WORKER)
     for job_id in JOBS:
         dispatch(job_id)
     dispatch.close()
@@ -39,7 +41,7 @@ def test_a_burst_of_wake_ups_reaches_redis_one_message_per_job(tmp_path: Path, r
 
 def test_the_embedded_broker_gets_every_wake_up_too(tmp_path: Path) -> None:
     settings = settings_for(tmp_path, "wakeyard-dispatch", broker="")
-    dispatch = Dispatcher(make_celery(settings), settings.queue)
+    dispatch = Dispatcher(make_celery(settings), settings.queue, lambda: ONE_WORKER)
     for job_id in JOBS[:50]:
         dispatch(job_id)
     dispatch.close()

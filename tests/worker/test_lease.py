@@ -5,6 +5,7 @@ from __future__ import annotations
 import os
 import signal
 from datetime import timedelta
+from functools import partial
 from pathlib import Path
 
 import numpy as np
@@ -13,7 +14,7 @@ from sqlalchemy import update
 
 from tests.helpers import Hold, Worker, finished, settings_for, tiny, wait_for
 from wakeyard.api.app import create_app
-from wakeyard.core.store import Job, Store, utcnow
+from wakeyard.core.store import Job, Store, remote_worker, utcnow
 
 
 def _stale(store: Store, job_id: str) -> None:
@@ -86,23 +87,30 @@ def test_kill_9_of_a_pool_child_requeues_and_the_same_worker_finishes(tmp_path: 
         worker.stop()
 
 
-def test_reaper_resends_lost_wake_ups_without_local_workers(tmp_path: Path) -> None:
-    """``serve --workers 0`` (the compose API): wake-ups lost while the workers sat idle are still re-sent, one per
-    worker process seen in the store, at least one."""
+def test_reaper_resends_lost_wake_ups_only_to_workers_that_consume_the_queue(tmp_path: Path) -> None:
+    """``serve --workers 0``: while only remote boxes (claiming over HTTP) report in, no wake-up is re-sent; once
+    broker workers do (the compose API's workers), every queued job's at once, then one per worker process in each
+    idle round."""
     from wakeyard.api.reaper import Reaper
     from wakeyard.core.disk import DiskReserve
 
     settings = settings_for(tmp_path, "wakeyard-reaper", broker="", workers=0)
     store, sent = Store(settings.db_url), []
-    reaper = Reaper(settings, store, sent.append, DiskReserve(tmp_path))
+    listeners = partial(store.workers_seen, within=settings.lease_seconds, broker_only=True)
+    reaper = Reaper(settings, store, sent.append, DiskReserve(tmp_path), listeners)
     try:
         queued = [store.create("ana", tiny(), []).id for _ in range(3)]
-        reaper.tick()
-        assert sent == queued[:1]
+        store.worker_alive(remote_worker("box-2", "box:1"))
+        reaper.step()
+        reaper.step()
+        assert reaper.leading and sent == []
         store.worker_alive("box-a:1")
         store.worker_alive("box-b:2")
+        reaper.step()
+        assert sent == queued + queued[:2]
         sent.clear()
-        reaper.tick()
+        reaper.step()
         assert sent == queued[:2]
     finally:
-        reaper.broker_db.dispose()  # the reaper's thread never started: tick() ran here
+        reaper.lead.close()
+        reaper.broker_db.dispose()  # the reaper's thread never started: step() ran here
