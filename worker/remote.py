@@ -30,7 +30,7 @@ from wakeyard.solver.restart import FLOW_CHECKPOINT, RESTART_FILES
 
 from .attempt import Attempt
 from .pulse import Pulse
-from .service_client import LeaseLost, ServiceClient
+from .service_client import LeaseLost, Refused, ServiceClient
 
 log = logging.getLogger("wakeyard.remote")
 
@@ -126,7 +126,8 @@ class Uploader:
 
 class RemoteLedger:
     """The :class:`~wakeyard.worker.attempt.Ledger` of a remote worker: the service's worker endpoints. The result
-    files are uploaded before the outcome is reported."""
+    files are uploaded before the outcome is reported; results the service refuses (its upload limits) fail the
+    job, saying why, instead of leaving it to the lease and to another box that would be refused the same."""
 
     def __init__(self, client: ServiceClient, uploader: Uploader):
         self.client, self.uploader = client, uploader
@@ -144,7 +145,10 @@ class RemoteLedger:
         progress: dict[str, Any] | None = None,
     ) -> bool:
         try:
-            self.uploader.results()
+            try:
+                self.uploader.results()
+            except Refused as refused:  # over the service's upload limits: sending again would be refused again
+                state, summary, error = JobState.FAILED, None, f"the result files could not be uploaded: {refused}"
             outcome = {"state": str(state), "summary": summary, "error": error, "progress": _progress(progress or {})}
             self.client.finish(job_id, claim, outcome)
         except LeaseLost:
