@@ -48,11 +48,12 @@ def make_engine(url: str) -> Engine:
 
 
 def make_async_engine(url: str) -> AsyncEngine | None:
-    """PostgreSQL's engine for the event loop (psycopg's async connections); None for SQLite, whose reads stay in
-    threads (its driver has no async side)."""
+    """PostgreSQL's engine for the event loop (psycopg's async connections), in autocommit: it serves single
+    statements (status reads), each one round trip with no BEGIN and ROLLBACK around it. None for SQLite, whose
+    reads stay in threads (its driver has no async side)."""
     if url.startswith("sqlite"):
         return None
-    engine = create_async_engine(url, pool_size=ASYNC_POOL_SIZE, max_overflow=0)
+    engine = create_async_engine(url, pool_size=ASYNC_POOL_SIZE, max_overflow=0, isolation_level="AUTOCOMMIT")
     _ping_when_idle(engine.sync_engine)
     return engine
 
