@@ -37,6 +37,7 @@ from .page_files import PageFiles
 from .problems import RESPONSES, install
 from .quota import Quota
 from .reaper import Reaper
+from .submission import Submission
 from .text_checks import RefuseNul
 
 WEB = resources.files("wakeyard.web")  # package data: the page's files, wherever wakeyard is installed
@@ -77,6 +78,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     )
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
     app.state.reaper, app.state.reserve, app.state.quota = reaper, reserve, Quota(settings, store)
+    app.state.submission = Submission(store, settings, dispatch, app.state.quota)
     app.state.registry, latency = registry_for(settings, store, celery)
     install(app)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes, max_seconds=settings.max_body_seconds)
