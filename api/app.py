@@ -6,6 +6,7 @@ from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 from importlib import resources
 
+from anyio import to_thread
 from fastapi import FastAPI
 
 from wakeyard import solver
@@ -14,6 +15,7 @@ from wakeyard.core.disk import DiskReserve
 from wakeyard.core.migrate import head, revision
 from wakeyard.core.settings import Settings
 from wakeyard.core.store import Store
+from wakeyard.core.store.engine import REQUEST_THREADS
 from wakeyard.solver.caution import CAUTION
 
 from . import (
@@ -60,6 +62,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
 
     @asynccontextmanager
     async def lifespan(_: FastAPI) -> AsyncIterator[None]:
+        to_thread.current_default_thread_limiter().total_tokens = REQUEST_THREADS  # as many as the pool serves
         reaper.start()
         yield
         reaper.close()
