@@ -7,7 +7,7 @@ import shutil
 from datetime import datetime
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Body, Query
+from fastapi import APIRouter, Body, Query, Request
 from sqlalchemy.engine import Row
 
 from wakeyard import solver
@@ -175,10 +175,11 @@ def list_jobs(
 
 
 @router.get("/{job_id}", summary="Read one job", response_model=JobView)
-async def read_job(store: StoreDep, job_id: str, _: UserDep) -> FastJSON:
-    """On the event loop, awaiting the store (status reads are the hottest path: no thread hand-off); a read that
-    waits on a lock (a PostgreSQL table lock, a busy SQLite file) stalls no other request."""
-    job = await store.read_on_loop(job_id)
+async def read_job(request: Request, job_id: str, _: UserDep) -> FastJSON:
+    """On the event loop, awaiting the store (status reads are the hottest path: no thread hand-off, and the store
+    from the app rather than one more dependency to solve); a read that waits on a lock (a PostgreSQL table lock,
+    a busy SQLite file) stalls no other request."""
+    job = await request.app.state.store.read_on_loop(job_id)
     if job is None:
         raise NotFound("job_id", f"no job {job_id}")
     return FastJSON(view(job))  # already JSON types: skip FastAPI's re-validation (status reads are hot)
