@@ -6,6 +6,7 @@ from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 from importlib import resources
 
+from anyio import to_thread
 from fastapi import FastAPI
 
 from wakeyard import solver
@@ -14,6 +15,7 @@ from wakeyard.core.disk import DiskReserve
 from wakeyard.core.migrate import head, revision
 from wakeyard.core.settings import Settings
 from wakeyard.core.store import Store
+from wakeyard.core.store.engine import REQUEST_THREADS
 from wakeyard.solver.caution import CAUTION
 
 from . import (
@@ -38,6 +40,7 @@ from .page_files import PageFiles
 from .problems import RESPONSES, install
 from .quota import Quota
 from .reaper import Reaper
+from .submission import Submission
 from .text_checks import RefuseNul
 
 WEB = resources.files("wakeyard.web")  # package data: the page's files, wherever wakeyard is installed
@@ -61,6 +64,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
 
     @asynccontextmanager
     async def lifespan(_: FastAPI) -> AsyncIterator[None]:
+        to_thread.current_default_thread_limiter().total_tokens = REQUEST_THREADS  # as many as the pool serves
         reaper.start()
         yield
         reaper.close()
@@ -79,6 +83,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     )
     app.state.settings, app.state.store, app.state.celery, app.state.dispatch = settings, store, celery, dispatch
     app.state.reaper, app.state.reserve, app.state.quota = reaper, reserve, Quota(settings, store)
+    app.state.submission = Submission(store, settings, dispatch, app.state.quota)
     app.state.registry, latency = registry_for(settings, store, celery)
     install(app)
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes, max_seconds=settings.max_body_seconds)

@@ -78,15 +78,15 @@ async def _token_holder(store: Store, token: str) -> User:
 
 
 async def current_user(
-    request: Request,
-    store: StoreDep,
-    credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(bearer)],
+    request: Request, credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(bearer)]
 ) -> User:
     """The caller; without any token configured the service is single-user (the CLI allows that only on loopback).
 
     Its answers are almost always cached; when the database must be asked, that happens in the thread pool, never
-    on the event loop. A worker token is refused here: a compute box may only use the worker endpoints."""
-    field = "Authorization"
+    on the event loop. A worker token is refused here: a compute box may only use the worker endpoints. The store
+    comes from the app, not from a dependency: FastAPI solves each dependency of every request anew (its query,
+    header and cookie parameters too), and every route asks for the caller."""
+    field, store = "Authorization", request.app.state.store
     if credentials is not None and credentials.credentials:
         user = await _token_holder(store, credentials.credentials)
         if user.kind == WORKER:
@@ -106,13 +106,13 @@ UserDep = Annotated[User, Depends(current_user)]
 
 
 async def current_worker(
-    store: StoreDep, credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(bearer)]
+    request: Request, credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(bearer)]
 ) -> User:
     """A compute box with a worker token: always needed, even on a service that has no user tokens."""
     field = "Authorization"
     if credentials is None or not credentials.credentials:
         raise Unauthorized(field, "the worker endpoints need a worker token: Authorization: Bearer <token>")
-    user = await _token_holder(store, credentials.credentials)
+    user = await _token_holder(request.app.state.store, credentials.credentials)
     if user.kind != WORKER:
         raise Forbidden(field, f"{user.name} holds a {user.kind} token: only a worker token may call /api/v1/worker")
     return user

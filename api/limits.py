@@ -4,7 +4,6 @@ and a body that arrives too slowly (or stalls) is refused instead of holding a c
 from __future__ import annotations
 
 import asyncio
-import time
 
 from starlette.responses import JSONResponse
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
@@ -27,14 +26,15 @@ class BodyLimit:
         if declared is not None and (not declared.isdigit() or int(declared) > self.max_bytes):
             await self._refuse(scope, receive, send)
             return
-        seen, complete, deadline = 0, False, time.monotonic() + self.max_seconds
+        seen, complete, deadline = 0, False, asyncio.get_running_loop().time() + self.max_seconds
 
         async def counted() -> Message:
             nonlocal seen, complete
             if complete:  # after the body only a disconnect can come, which a streamed response waits for
                 return await receive()
-            try:
-                message = await asyncio.wait_for(receive(), max(0.0, deadline - time.monotonic()))
+            try:  # a timeout scope, not wait_for: on Python 3.11 wait_for starts a task for every body message
+                async with asyncio.timeout_at(deadline):
+                    message = await receive()
             except TimeoutError:
                 raise SpecProblems(
                     [("(body)", f"request body: not received within {self.max_seconds:g} s")], status=408

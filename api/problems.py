@@ -20,6 +20,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 from wakeyard.core.disk import disk_full
 from wakeyard.solver.spec import problems_of
 
+from .fast_json import FastJSON
 from .text_checks import NUL_MESSAGE, nul_fields
 
 Problems = list[tuple[str, str]]
@@ -118,7 +119,7 @@ def body(problems: Problems) -> dict[str, Any]:
 
 
 def respond(problems: Problems, status: int, headers: dict[str, str] | None = None) -> JSONResponse:
-    return JSONResponse(body(problems), status_code=status, headers=headers)
+    return FastJSON(body(problems), status_code=status, headers=headers)
 
 
 async def _problem(_: Request, exc: Exception) -> JSONResponse:

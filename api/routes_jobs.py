@@ -7,8 +7,7 @@ import shutil
 from datetime import datetime
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Body, Query
-from fastapi.responses import JSONResponse
+from fastapi import APIRouter, Body, Query, Request
 from sqlalchemy.engine import Row
 
 from wakeyard import solver
@@ -18,11 +17,12 @@ from wakeyard.core.store import Job, Store
 from wakeyard.solver.caution import CAUTION
 
 from .deps import ReserveDep, SettingsDep, StoreDep, User, UserDep
+from .fast_json import FastJSON
 from .problems import Conflict, Forbidden, NotFound, SpecProblems
 from .schemas import Job as JobView
 from .schemas import JobPage
+from .spec_checks import checked, validated
 from .submission import Submission, SubmissionDep
-from .text_checks import NUL_MESSAGE, nul_fields
 
 log = logging.getLogger(__name__)
 router = APIRouter(prefix="/api/v1/jobs", tags=["jobs"])
@@ -96,19 +96,6 @@ def limits(settings: Settings) -> solver.Limits:
     return solver.Limits(max_dofs=settings.max_dofs, max_steps=settings.max_steps)
 
 
-def _validated(data: dict[str, Any] | solver.JobSpec, settings: Settings) -> dict[str, Any]:
-    """The solver's checks (the geometry's too, for a spec the request body already validated) plus the service's
-    size limits; returns the normalised spec."""
-    if nul := nul_fields(data.model_dump(mode="json") if isinstance(data, solver.JobSpec) else data):
-        raise SpecProblems([(field, NUL_MESSAGE) for field in nul])
-    try:
-        spec = solver.load(data)
-        solver.check_limits(spec, limits(settings))
-    except solver.SpecError as err:
-        raise SpecProblems(err.problems) from None
-    return spec.model_dump(mode="json")
-
-
 def _check_tags(tags: list[str]) -> list[str]:
     if len(tags) > MAX_TAGS:
         raise SpecProblems([("tags", f"{len(tags)} tags, over the limit of {MAX_TAGS}")])
@@ -118,11 +105,13 @@ def _check_tags(tags: list[str]) -> list[str]:
     return tags
 
 
-def _submit(submission: Submission, user: User, spec: dict[str, Any], tags: list[str], fresh: bool) -> JSONResponse:
+def _submit(
+    submission: Submission, user: User, spec: dict[str, Any], tags: list[str], fresh: bool, digest: str | None = None
+) -> FastJSON:
     submission.check_space(user.name)
-    planned = submission.plan(spec, fresh)
+    planned = submission.plan(spec, fresh, digest=digest)
     job = submission.place(user.name, planned, tags)
-    return JSONResponse(
+    return FastJSON(
         {"id": job.id, "state": job.state, "reused_from": job.reused_from, "links": links(job.id)},
         status_code=202,
         headers={"Location": links(job.id)["self"]},
@@ -159,8 +148,9 @@ def create_job(
     spec: solver.JobSpec,
     tags: Tags = None,
     fresh: Fresh = False,
-) -> JSONResponse:
-    return _submit(submission, user, _validated(spec, submission.settings), _check_tags(tags or []), fresh)
+) -> FastJSON:
+    known = checked(spec, limits(submission.settings))
+    return _submit(submission, user, known.spec, _check_tags(tags or []), fresh, known.digest)
 
 
 @router.get("", summary="List jobs, newest first", response_model=JobPage, response_model_exclude_unset=True)
@@ -172,7 +162,7 @@ def list_jobs(
     tag: str | None = None,
     limit: Annotated[int, Query(ge=1, le=500)] = 50,
     cursor: Annotated[str | None, Query(description="next_cursor of the previous page")] = None,
-) -> JSONResponse:
+) -> FastJSON:
     before = None
     if cursor is not None:  # ASCII digits only (int() takes other scripts' digits), within the column's range
         if not (cursor.isascii() and cursor.isdigit() and int(cursor) < MAX_CURSOR):
@@ -181,17 +171,18 @@ def list_jobs(
     jobs = store.list_jobs(state, owner, tag, limit, before)
     nxt = str(jobs[-1].seq) if len(jobs) == limit else None
     # stored as written (no re-validation): a summary an older release wrote still lists, as reading one job does
-    return JSONResponse({"jobs": [view(j) for j in jobs], "next_cursor": nxt})
+    return FastJSON({"jobs": [view(j) for j in jobs], "next_cursor": nxt})
 
 
 @router.get("/{job_id}", summary="Read one job", response_model=JobView)
-async def read_job(store: StoreDep, job_id: str, _: UserDep) -> JSONResponse:
-    """On the event loop, awaiting the store (status reads are the hottest path: no thread hand-off); a read that
-    waits on a lock (a PostgreSQL table lock, a busy SQLite file) stalls no other request."""
-    job = await store.read_on_loop(job_id)
+async def read_job(request: Request, job_id: str, _: UserDep) -> FastJSON:
+    """On the event loop, awaiting the store (status reads are the hottest path: no thread hand-off, and the store
+    from the app rather than one more dependency to solve); a read that waits on a lock (a PostgreSQL table lock,
+    a busy SQLite file) stalls no other request."""
+    job = await request.app.state.store.read_on_loop(job_id)
     if job is None:
         raise NotFound("job_id", f"no job {job_id}")
-    return JSONResponse(view(job))  # already JSON types: skip FastAPI's re-validation (status reads are hot)
+    return FastJSON(view(job))  # already JSON types: skip FastAPI's re-validation (status reads are hot)
 
 
 @router.post(
@@ -228,9 +219,9 @@ def clone_job(
     edits: Annotated[Any, Body()] = None,
     tags: Tags = None,
     fresh: Fresh = False,
-) -> JSONResponse:
+) -> FastJSON:
     job = found(submission.store, job_id)
     if edits is not None and not isinstance(edits, dict):
         raise SpecProblems([("(body)", "must be a JSON object with the parts of the spec to change")])
-    spec = _validated(merge(job.spec, edits or {}), submission.settings)
+    spec = validated(merge(job.spec, edits or {}), limits(submission.settings))
     return _submit(submission, user, spec, _check_tags(tags or job.tags), fresh)

@@ -17,13 +17,12 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Annotated, Any
 
-from fastapi import Depends
+from fastapi import Depends, Request
 
 from wakeyard.core.settings import Settings
 from wakeyard.core.states import JobState
 from wakeyard.core.store import Job, OverCap, Provenance, Store
 
-from .deps import DispatchDep, QuotaDep, SettingsDep, StoreDep
 from .fingerprint import solver_fingerprint
 from .problems import NoSpace, TooManyJobs
 from .quota import Quota
@@ -60,9 +59,10 @@ class Submission:
         title: str | None = None,
         study_id: str | None = None,
         values: dict[str, float] | None = None,
+        digest: str | None = None,
     ) -> Planned:
-        """Look for a succeeded job with the same spec hash (unless ``fresh``)."""
-        digest = spec_hash(spec)
+        """Look for a succeeded job with the same spec hash (unless ``fresh``); ``digest``: the hash if known."""
+        digest = digest or spec_hash(spec)
         source = None if fresh else self.store.find_result(digest)
         title = str(spec.get("title", "")) if title is None else title
         return Planned(spec, Provenance(digest, title, source, study_id, values))
@@ -126,8 +126,9 @@ def _link_tree(source: Path, target: Path) -> None:
     shutil.copytree(source, target, copy_function=os.link)
 
 
-async def get_submission(store: StoreDep, settings: SettingsDep, dispatch: DispatchDep, quota: QuotaDep) -> Submission:
-    return Submission(store, settings, dispatch, quota)
+async def get_submission(request: Request) -> Submission:
+    """The app's one Submission (it keeps no state of its own): one dependency, not four, per creation."""
+    return request.app.state.submission
 
 
 SubmissionDep = Annotated[Submission, Depends(get_submission)]

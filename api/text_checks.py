@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from typing import Any
-from urllib.parse import unquote_to_bytes
 
 from starlette.responses import JSONResponse
 from starlette.types import ASGIApp, Receive, Scope, Send
@@ -34,7 +33,7 @@ class RefuseNul:
             where = None
             if "\x00" in scope["path"]:
                 where = "(path)"
-            elif b"\x00" in unquote_to_bytes(scope.get("query_string", b"")):
+            elif b"\x00" in (query := scope.get("query_string", b"")) or b"%00" in query:  # what decodes to NUL
                 where = "(query)"
             if where is not None:
                 problem = {"detail": [{"field": where, "message": NUL_MESSAGE}]}

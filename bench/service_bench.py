@@ -9,8 +9,10 @@ on two cores).
 (all by one owner, then spread over 16) and status reads/s over 32 connections, Redis broker and a PostgreSQL job
 store (``WAKEYARD_BENCH_POSTGRES_URL``, default the local server's ``postgres`` database; a schema of its own,
 dropped afterwards), for ``serve --api-processes N`` (default 1 and 2), each run ``WAKEYARD_BENCH_REPEATS`` times
-(default 2), and prints every run with the load average before it, then the best rate and the least CPU time of
-the service per request.
+(default 2), and prints every run with the load average before it, then the best rate and the least CPU time per
+request of the service and of the PostgreSQL backends serving it (when the server runs on this machine).
+``python bench/service_bench.py wrk --against OTHER/.venv/bin/python [N ...]`` alternates each run with the wakeyard
+of another checkout (e.g. main's, in a worktree of its own with its own venv) and prints the ratios, this / base.
 
 ``python bench/service_bench.py dispatch`` measures the wake-up path alone on Redis: wall and CPU time per
 wake-up for a burst sent one ``send_task`` each (the path before batching) and through ``api.dispatch.Dispatcher``
@@ -22,6 +24,7 @@ from __future__ import annotations
 import copy
 import http.client
 import json
+import math
 import os
 import signal
 import socket
@@ -31,6 +34,7 @@ import sys
 import tempfile
 import threading
 import time
+from collections.abc import Iterable
 from concurrent.futures import ThreadPoolExecutor
 from datetime import datetime
 from pathlib import Path
@@ -66,7 +70,16 @@ def case(end_time: float) -> dict[str, Any]:
 class Service:
     """``wakeyard serve`` in a child process; stopped with Ctrl-C (SIGINT) like a person would."""
 
-    def __init__(self, folder: Path, workers: int, broker: str = "", api_processes: int = 1, **env: str):
+    def __init__(
+        self,
+        folder: Path,
+        workers: int,
+        broker: str = "",
+        api_processes: int = 1,
+        python: str = sys.executable,
+        **env: str,
+    ):
+        """``python``: the interpreter of the wakeyard to serve (another checkout's venv, to compare with)."""
         with socket.socket() as s:
             s.bind(("127.0.0.1", 0))
             self.port = s.getsockname()[1]
@@ -81,7 +94,7 @@ class Service:
         self.log = folder / "serve.log"
         self.proc = subprocess.Popen(
             [
-                sys.executable,
+                python,
                 "-c",
                 "import sys; from wakeyard.cli.main import main; sys.exit(main())",
                 "serve",
@@ -202,9 +215,9 @@ def latency_and_overhead(folder: Path, broker: str, name: str) -> None:
         service.stop()
 
 
-def cpu_seconds(pid: int) -> float:
-    """CPU seconds (user + system) that process ``pid`` and its living descendants have used: a figure the other
-    loads of a shared machine barely change, unlike requests per second."""
+def cpu_seconds(pid: int) -> dict[int, float]:
+    """CPU seconds (user + system) that process ``pid`` and each of its living descendants have used: a figure the
+    other loads of a shared machine barely change, unlike requests per second."""
     parents: dict[int, int] = {}
     times: dict[int, float] = {}
     for stat in Path("/proc").glob("[0-9]*/stat"):
@@ -213,35 +226,69 @@ def cpu_seconds(pid: int) -> float:
         except OSError:  # ended meanwhile
             continue
         child = int(stat.parent.name)
-        parents[child], times[child] = int(fields[1]), (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
-    total, family = 0.0, {pid}
+        parents[child], times[child] = int(fields[1]), _ticks(fields)
+    family = {pid}
     for child in sorted(times):  # a child's pid is usually above its parent's; check the whole chain anyway
         chain = child
         while chain not in family and chain in parents and parents[chain] > 1:
             chain = parents[chain]
         if chain in family:
             family.add(child)
-            total += times[child]
-    return total
+    return {p: times[p] for p in family if p in times}
 
 
-def wrk(url: str, script: str, folder: Path, service: Service) -> tuple[float, float]:
+def used(before: dict[int, float], after: dict[int, float]) -> float:
+    """CPU seconds the processes used between two looks; NaN if one of them ended meanwhile (its last figures are
+    lost: uvicorn's process manager replaces an API process that missed its health checks)."""
+    if before.keys() - after.keys():
+        return math.nan
+    return sum(t - before.get(p, 0.0) for p, t in after.items())
+
+
+def _ticks(fields: list[str]) -> float:
+    """User + system seconds from the fields of /proc/PID/stat after the command name."""
+    return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+
+
+def database_cpu(admin: Any) -> dict[int, float]:
+    """CPU seconds of each PostgreSQL backend serving the bench's database (the service's pooled connections, which
+    live through a run): what a request costs the database server, which round trips saved show. Empty when the
+    server is not on this machine or its processes cannot be read."""
+    import sqlalchemy
+
+    with admin.connect() as conn:
+        pids = conn.scalars(
+            sqlalchemy.text(
+                "SELECT pid FROM pg_stat_activity WHERE datname = current_database() AND pid <> pg_backend_pid() "
+                "AND backend_type = 'client backend'"  # not autovacuum's workers, which come and go
+            )
+        ).all()
+    found = {}
+    for pid in pids:
+        try:
+            found[pid] = _ticks(Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split())
+        except OSError:  # ended meanwhile, another machine's, or not ours to read
+            continue
+    return found
+
+
+def wrk(url: str, script: str, folder: Path, service: Service, admin: Any) -> tuple[float, float, float]:
     """Requests per second that ``wrk`` measured (2 threads, 32 connections, 10 s), all answered 2xx, and the
-    service's CPU milliseconds per request."""
+    CPU milliseconds per request of the service and of the database's backends."""
     lua = folder / "wrk.lua"
     lua.write_text(script)
-    cpu = cpu_seconds(service.proc.pid)
+    cpu, db = cpu_seconds(service.proc.pid), database_cpu(admin)
     out = subprocess.run(
         ["wrk", "-t2", f"-c{WRK_CONNECTIONS}", f"-d{WRK_SECONDS}s", "-s", str(lua), url],
         capture_output=True,
         text=True,
         check=True,
     ).stdout
-    cpu = cpu_seconds(service.proc.pid) - cpu
+    cpu, db_cpu = used(cpu, cpu_seconds(service.proc.pid)), used(db, database_cpu(admin))
     assert "Non-2xx" not in out, out
     done = int(next(line for line in out.splitlines() if "requests in" in line).split()[0])
     per_s = float(next(line for line in out.splitlines() if line.startswith("Requests/sec:")).split()[1])
-    return per_s, 1000 * cpu / done
+    return per_s, 1000 * cpu / done, 1000 * db_cpu / done
 
 
 OWNERS = 16  # the team run: creations spread over this many tokens
@@ -262,12 +309,12 @@ end
 """
 
 
-Rate = tuple[float, float]  # requests/s, the service's CPU ms per request
+Rate = tuple[float, float, float]  # requests/s, the service's and the database's CPU ms per request
 
 
-def wrk_rates(folder: Path, api_processes: int) -> tuple[Rate, Rate, Rate]:
+def wrk_rates(folder: Path, api_processes: int, python: str = sys.executable) -> tuple[Rate, Rate, Rate]:
     """(creations by one owner, creations spread over OWNERS owners, status reads) of ``serve --api-processes N
-    --workers 0`` on Redis and PostgreSQL."""
+    --workers 0`` on Redis and PostgreSQL, served by ``python``'s wakeyard."""
     import sqlalchemy
 
     from wakeyard.api.auth import create_token
@@ -278,17 +325,17 @@ def wrk_rates(folder: Path, api_processes: int) -> tuple[Rate, Rate, Rate]:
     admin = sqlalchemy.create_engine(POSTGRES_URL)
     with admin.begin() as conn:
         conn.execute(sqlalchemy.text(f"CREATE SCHEMA {schema}"))
-    service = Service(folder, workers=0, broker=REDIS_URL, api_processes=api_processes, WAKEYARD_DATABASE_URL=store_url)
+    service = Service(folder, 0, REDIS_URL, api_processes, python, WAKEYARD_DATABASE_URL=store_url)
     store = Store(store_url)
     try:
         tokens = [create_token(store, f"engineer{i}") for i in range(OWNERS)]
         body = json.dumps(case(0.3))
-        alone = wrk(f"{service.url}/api/v1/jobs", creation_script(body, tokens[:1]), folder, service)
-        team = wrk(f"{service.url}/api/v1/jobs", creation_script(body, tokens), folder, service)
+        alone = wrk(f"{service.url}/api/v1/jobs", creation_script(body, tokens[:1]), folder, service, admin)
+        team = wrk(f"{service.url}/api/v1/jobs", creation_script(body, tokens), folder, service, admin)
         bearer = {"Authorization": f"Bearer {tokens[0]}"}
         job_id = httpx.get(f"{service.url}/api/v1/jobs?limit=1", headers=bearer).json()["jobs"][0]["id"]
         script = f"wrk.headers['Authorization'] = 'Bearer {tokens[0]}'"
-        reads = wrk(f"{service.url}/api/v1/jobs/{job_id}", script, folder, service)
+        reads = wrk(f"{service.url}/api/v1/jobs/{job_id}", script, folder, service, admin)
     finally:
         service.stop()
         store.engine.dispose()
@@ -302,34 +349,54 @@ def load_average() -> str:
     return "load average " + " ".join(Path("/proc/loadavg").read_text().split()[:3])
 
 
-def wrk_main(processes: list[int], repeats: int) -> None:
+def wrk_main(processes: list[int], repeats: int, against: str | None = None) -> None:
     """Each figure is the best of ``repeats`` runs (the machine is shared: the best is the least disturbed), with
-    the load average before each run and the service's CPU per request, which the other loads barely change."""
+    the load average before each run and the CPU per request, which the other loads barely change. ``against``:
+    another wakeyard's interpreter, run alternately with this one (so both meet the same machine), and the ratios."""
+    builds = {"this": sys.executable} if against is None else {"base": against, "this": sys.executable}
     r = redis.Redis.from_url(REDIS_URL)
     print(f"wakeyard API with wrk on {os.cpu_count()} cores: Redis broker, PostgreSQL store, no workers")
     names = ("creations by one owner", f"creations by {OWNERS} owners", "status reads")
     targets = (500, 500, 2000)
     with tempfile.TemporaryDirectory() as tmp:
         for n in processes:
-            runs = []
+            runs: dict[str, list[tuple[Rate, Rate, Rate]]] = {build: [] for build in builds}
             for i in range(repeats):
-                r.flushdb()
-                load = load_average()
-                runs.append(wrk_rates(Path(tmp) / f"api{n}-{i}", n))
-                print(
-                    f"  --api-processes {n}, run {i + 1} ({load}): "
-                    + ", ".join(f"{rate:.0f}/s ({ms:.2f} ms CPU)" for rate, ms in runs[-1]),
-                    flush=True,
-                )
-            print(f"--api-processes {n}, best of {repeats}:")
-            for k, (name, target) in enumerate(zip(names, targets, strict=True)):
-                rate = max(run[k][0] for run in runs)
-                print(
-                    f"    {name:28s} {rate:6.0f}/s  {min(run[k][1] for run in runs):5.2f} ms CPU per request"
-                    f"  (target >= {target}/s)",
-                    flush=True,
-                )
+                for build, python in builds.items():
+                    r.flushdb()
+                    load = load_average()
+                    runs[build].append(wrk_rates(Path(tmp) / f"api{n}-{build}-{i}", n, python))
+                    print(
+                        f"  --api-processes {n}, {build} run {i + 1} ({load}): "
+                        + ", ".join(
+                            f"{rate:.0f}/s ({ms:.2f} ms CPU, {db:.2f} ms DB)" for rate, ms, db in runs[build][-1]
+                        ),
+                        flush=True,
+                    )
+            best = {build: [_best(found, k) for k in range(len(names))] for build, found in runs.items()}
+            for build in builds:
+                print(f"--api-processes {n}, {build}, best of {repeats}:")
+                for (name, target), (rate, cpu, db) in zip(zip(names, targets, strict=True), best[build], strict=True):
+                    print(
+                        f"    {name:28s} {rate:6.0f}/s  {cpu:5.2f} ms CPU per request, database {db:5.2f} ms"
+                        f"  (target >= {target}/s)",
+                        flush=True,
+                    )
+            if against is not None:
+                print(f"--api-processes {n}, this / base:")
+                for name, (rate, cpu, db), (rate0, cpu0, db0) in zip(names, best["this"], best["base"], strict=True):
+                    shown = f"x{db / db0:.2f}" if db0 and not math.isnan(db / db0) else "-"
+                    print(f"    {name:28s} rate x{rate / rate0:.2f}, CPU x{cpu / cpu0:.2f}, database CPU {shown}")
     r.flushdb()
+
+
+def _best(runs: list[tuple[Rate, Rate, Rate]], k: int) -> Rate:
+    """The best rate and the least CPU times of figure ``k`` over ``runs`` (NaN where no run had them)."""
+    return max(run[k][0] for run in runs), _least(run[k][1] for run in runs), _least(run[k][2] for run in runs)
+
+
+def _least(values: Iterable[float]) -> float:
+    return min((v for v in values if not math.isnan(v)), default=math.nan)
 
 
 def dispatch_costs(bursts: int = 5, burst: int = 400) -> None:
@@ -378,7 +445,10 @@ def main() -> None:
         return
     if sys.argv[1:2] == ["wrk"]:
         repeats = int(os.environ.get("WAKEYARD_BENCH_REPEATS", "2"))
-        wrk_main([int(n) for n in sys.argv[2:]] or [1, 2], repeats)
+        args, against = sys.argv[2:], None
+        if args[:1] == ["--against"]:
+            against, args = args[1], args[2:]
+        wrk_main([int(n) for n in args] or [1, 2], repeats, against)
         return
     r = redis.Redis.from_url(REDIS_URL)
     r.flushdb()

@@ -24,6 +24,7 @@ class Store(Jobs, Studies, Tokens, Leases, Usage):
     def __init__(self, url: str):
         """Connect only: the schema is brought up to date once, by ``core.migrate`` (``wakeyard migrate``)."""
         self.engine = make_engine(url)
+        self.single = self.engine.execution_options(isolation_level="AUTOCOMMIT")
         self.async_engine = make_async_engine(url)
         self.session = sessionmaker(self.engine, expire_on_commit=False)
         self._token_users = {}

@@ -10,10 +10,14 @@ from sqlalchemy.engine import Engine
 from sqlalchemy.ext.asyncio import AsyncEngine, create_async_engine
 from sqlalchemy.pool import ConnectionPoolEntry, PoolProxiedConnection
 
-# Every request thread (anyio's default limit is 40) and the reaper may each hold a connection at once. The pool
+# The API's request threads (api.app sets anyio's limit, 40 by default, to this): on a few cores more threads add
+# no throughput, only switching and database connections, and PostgreSQL allows 100 in all by default.
+REQUEST_THREADS = 16
+# Every request thread and the lead's threads (reaper, disk sweep) may each hold a connection at once. The pool
 # keeps POOL_SIZE of them open: a connection beyond the pool is closed when returned, so a pool smaller than the
 # usual number of concurrent requests would open (a PostgreSQL backend, a login) and close one per request.
-MAX_CONNECTIONS, POOL_SIZE = 48, 24
+POOL_SIZE = REQUEST_THREADS + 4
+MAX_CONNECTIONS = POOL_SIZE + 4
 # The event loop's own connections (status reads with PostgreSQL): a read waiting for one awaits, blocking nothing.
 ASYNC_POOL_SIZE = 8
 # A connection unused for this long is pinged before use (a restarted server drops them all). A busy pool skips
@@ -48,11 +52,12 @@ def make_engine(url: str) -> Engine:
 
 
 def make_async_engine(url: str) -> AsyncEngine | None:
-    """PostgreSQL's engine for the event loop (psycopg's async connections); None for SQLite, whose reads stay in
-    threads (its driver has no async side)."""
+    """PostgreSQL's engine for the event loop (psycopg's async connections), in autocommit: it serves single
+    statements (status reads), each one round trip with no BEGIN and ROLLBACK around it. None for SQLite, whose
+    reads stay in threads (its driver has no async side)."""
     if url.startswith("sqlite"):
         return None
-    engine = create_async_engine(url, pool_size=ASYNC_POOL_SIZE, max_overflow=0)
+    engine = create_async_engine(url, pool_size=ASYNC_POOL_SIZE, max_overflow=0, isolation_level="AUTOCOMMIT")
     _ping_when_idle(engine.sync_engine)
     return engine
 

@@ -53,8 +53,13 @@ _RESULT = (
 )
 _ACTIVE = select(func.count()).where(Job.owner == bindparam("owner"), Job.state.in_(ACTIVE))
 _SLOTS = select(JOBS.c.slot).where(JOBS.c.owner == bindparam("owner"), HOLDS_SLOT)  # from the unique index alone
+_HELD = select(func.count()).select_from(JOBS).where(JOBS.c.owner == bindparam("owner"), HOLDS_SLOT)
 # a creation that keeps meeting others on the slots it picks gives up (each such meeting is another job created)
 SLOT_TRIES = 64
+FEW_SLOTS = 256  # a cap up to this many: a miss reads the held slots at once
+# the operating system's randomness: the same in no two processes (a forked copy of a generator would pick the
+# same slots as its parent), and never made repeatable by seeding the global generator (as test tools do)
+PICK = random.SystemRandom()
 
 
 def _into_free_slot(new: postgresql.Insert | sqlite.Insert) -> ReturningInsert[Any]:
@@ -82,24 +87,34 @@ class OverCap(Exception):
 def _free_slot(held: set[int], cap: int) -> int:
     """A random slot below ``cap`` not in ``held`` (random, so that concurrent creations rarely pick the same)."""
     if 2 * len(held) < cap:
-        while (slot := random.randrange(cap)) in held:
+        while (slot := PICK.randrange(cap)) in held:
             pass
         return slot
-    return random.choice([slot for slot in range(cap) if slot not in held])
+    return PICK.choice([slot for slot in range(cap) if slot not in held])
 
 
 def _insert_capped(conn: Connection, values: dict[str, Any], cap: int) -> int:
     """Insert a queued job into a free slot of its owner's; its key, or :class:`OverCap` if all ``cap`` are held.
 
     The first try picks a slot blind (one round trip when the owner has room to spare); after a miss, the slots
-    held now are read and a free one is picked among them. Each miss is a slot another creation took meanwhile;
-    after SLOT_TRIES of them the owner counts as full."""
-    statement, held = _INTO_FREE_SLOT[conn.dialect.name], set[int]()
+    held now are read and a free one is picked among them. Under a cap of more than FEW_SLOTS they are counted
+    first, and read only if half the cap or more is held (else the next try is blind again, and misses less than
+    half the time): an owner with thousands of queued jobs would cost more to read than the creation itself.
+    Each miss is a slot another creation took meanwhile; after SLOT_TRIES of them the owner counts as full."""
+    statement, held, owner = _INTO_FREE_SLOT[conn.dialect.name], set[int](), {"owner": values["owner"]}
     for _ in range(SLOT_TRIES):
-        key = conn.execute(statement, {**values, "slot": _free_slot(held, cap)}).scalar()
+        slot = _free_slot(held, cap)
+        key = conn.execute(statement, {**values, "slot": slot}).scalar()
         if key is not None:
             return key
-        slots = conn.scalars(_SLOTS, {"owner": values["owner"]}).all()  # None: an active job of no cap's
+        held.add(slot)
+        if cap > FEW_SLOTS:
+            active = conn.scalar(_HELD, owner) or 0
+            if active >= cap:
+                raise OverCap(values["owner"], active, cap)
+            if 2 * active < cap:
+                continue
+        slots = conn.scalars(_SLOTS, owner).all()  # None: an active job of no cap's
         if len(slots) >= cap:
             raise OverCap(values["owner"], len(slots), cap)
         held = set(slots)
@@ -144,7 +159,9 @@ class Jobs(Repository):
             job.started_at = job.finished_at = now
             job.progress_fraction, job.progress_step, job.progress_time = 1.0, src.progress_step, src.progress_time
         values = {c.key: getattr(job, c.key) for c in JOBS.columns if c.key not in ("seq", "slot")}
-        with self.engine.begin() as conn:  # Core, not the unit of work: creation is a hot path
+        # Core, not the unit of work: creation is a hot path. Without tags the job is one INSERT (each try at a slot
+        # stands alone): no transaction around it
+        with self.engine.begin() if tags else self.single.connect() as conn:
             if cap is not None and job.state == JobState.QUEUED:
                 job.seq = _insert_capped(conn, values, cap)
             else:  # uncapped (a reused result, or a caller that checks no cap): holds no slot
@@ -157,7 +174,7 @@ class Jobs(Repository):
 
     def find_result(self, spec_hash: str) -> Row[Any] | None:
         """The newest succeeded job computed (not itself reused) from a spec with this hash."""
-        with self.engine.connect() as conn:
+        with self.single.connect() as conn:
             return conn.execute(_RESULT, {"spec_hash": spec_hash}).first()
 
     def get(self, job_id: str) -> Job | None:
@@ -166,8 +183,8 @@ class Jobs(Repository):
 
     def read(self, job_id: str) -> Row[Any] | None:
         """One job's columns as a read-only row (attributes named like ``Job``'s): status reads are the hottest
-        path, and a prepared Core statement costs about a third of an ORM session."""
-        with self.engine.connect() as conn:
+        path, and a prepared Core statement costs about a third of an ORM session; one statement, no transaction."""
+        with self.single.connect() as conn:
             return conn.execute(_READ, {"job_id": job_id}).first()
 
     async def read_on_loop(self, job_id: str) -> Row[Any] | None:
@@ -194,7 +211,7 @@ class Jobs(Repository):
             return list(s.scalars(q))
 
     def active_count(self, owner: str) -> int:
-        with self.engine.connect() as conn:
+        with self.single.connect() as conn:
             return conn.scalar(_ACTIVE, {"owner": owner}) or 0
 
     def cancel(self, job_id: str) -> str | None:

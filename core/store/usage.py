@@ -43,7 +43,7 @@ class Usage(Repository):
 
     def disk_use(self, owner: str) -> int:
         """Bytes of result files ``owner``'s jobs take, as last measured."""
-        with self.engine.connect() as conn:
+        with self.single.connect() as conn:
             used: int | None = conn.scalar(_USE, {"owner": owner})
             return 0 if used is None else int(used)
 

@@ -15,6 +15,7 @@ from tests.helpers import settings_for, tiny
 from wakeyard.api.app import create_app
 from wakeyard.api.submission import Submission
 from wakeyard.core.store import OverCap, Store
+from wakeyard.core.store import jobs as store_jobs
 
 CAP, TRIES = 4, 24
 
@@ -44,6 +45,47 @@ def test_concurrent_creations_in_the_store_never_pass_the_cap(store_url: str) ->
         assert all(r.active == CAP and r.cap == CAP for r in refused)
         assert store.active_count("ana") == CAP
         assert store.create("bo", tiny(), [], cap=CAP).owner == "bo"  # another owner is not held back
+    finally:
+        store.engine.dispose()
+
+
+def test_a_large_cap_is_never_passed_either(store_url: str) -> None:
+    """Over FEW_SLOTS a miss counts the held slots before reading them: near the cap, concurrent creations still
+    get exactly the room left."""
+    store, cap = Store(store_url), store_jobs.FEW_SLOTS + 20
+    try:
+        for _ in range(cap - 5):
+            store.create("ana", tiny(), [], cap=cap)
+        results = _race(lambda: store.create("ana", tiny(), [], cap=cap))
+        refused = [r for r in results if isinstance(r, OverCap)]
+        assert len(results) - len(refused) == 5, results
+        assert all(r.active == cap and r.cap == cap for r in refused)
+        assert store.active_count("ana") == cap
+    finally:
+        store.engine.dispose()
+
+
+class _Picks:
+    """Slot picks in a given order, in place of the store's random ones."""
+
+    def __init__(self, *slots: int):
+        self.slots = iter(slots)
+
+    def randrange(self, _: int) -> int:
+        return next(self.slots)
+
+
+def test_a_blind_miss_far_below_a_large_cap_tries_another_slot(store_url: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    """The slot picked is held: with most of a large cap free the creation picks another (never the same again)
+    and succeeds."""
+    store, cap = Store(store_url), store_jobs.FEW_SLOTS * 4
+    try:
+        monkeypatch.setattr(store_jobs, "PICK", _Picks(7))
+        store.create("ana", tiny(), [], cap=cap)  # holds slot 7
+        picks = _Picks(7, 7, 8)
+        monkeypatch.setattr(store_jobs, "PICK", picks)
+        assert store.create("ana", tiny(), [], cap=cap).owner == "ana"
+        assert next(picks.slots, None) is None and store.active_count("ana") == 2
     finally:
         store.engine.dispose()
 

@@ -6,6 +6,7 @@ import io
 import json
 import zipfile
 from concurrent.futures import ThreadPoolExecutor
+from pathlib import Path
 from typing import Any
 
 import pytest
@@ -13,8 +14,8 @@ from fastapi.testclient import TestClient
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from tests.helpers import TINY, tiny
-from wakeyard.api.app import WEB
+from tests.helpers import TINY, settings_for, tiny
+from wakeyard.api.app import WEB, create_app
 from wakeyard.api.auth import create_token
 from wakeyard.solver import SpecError, load
 from wakeyard.solver.caution import CAUTION
@@ -74,6 +75,23 @@ def test_the_body_is_checked_as_the_solver_checks_a_spec_with_every_problem_at_o
         refused = operation["responses"]["4XX"]["content"]["application/json"]["schema"]
         assert refused == {"$ref": "#/components/schemas/Refused"}  # the one problem shape, FastAPI's own not shown
     assert "HTTPValidationError" not in schema["components"]["schemas"]
+
+
+def test_a_spec_sent_again_is_the_same_job_spec_and_still_meets_each_services_limits(
+    offline: TestClient, tmp_path: Path
+) -> None:
+    """Accepted specs are remembered (api.spec_checks): the same spec again gives the same normalised spec, a
+    service with a lower unknowns limit still refuses it, and a refused one stays refused."""
+    first, again = (offline.post("/api/v1/jobs", json=tiny()).json()["id"] for _ in range(2))
+    assert first != again
+    spec = offline.get(f"/api/v1/jobs/{first}").json()["spec"]
+    assert offline.get(f"/api/v1/jobs/{again}").json()["spec"] == spec == load(tiny()).model_dump(mode="json")
+    with TestClient(create_app(settings_for(tmp_path, "wakeyard-small", broker="", max_dofs=100))) as small:
+        refused = small.post("/api/v1/jobs", json=tiny())
+        assert refused.status_code == 422 and fields(refused) == ["mesh"]
+        assert "over the limit of 100" in refused.json()["detail"][0]["message"]
+    bad = {**TINY, "bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": -1}]}
+    assert [offline.post("/api/v1/jobs", json=bad).status_code for _ in range(2)] == [422, 422]
 
 
 def test_malformed_json_is_422_not_500(offline: TestClient) -> None:
