@@ -102,6 +102,7 @@ export class CaseForm {
           h("a", {href: "#/studies", class: "btn", id: "study-this-case"}, "Build a study on this case…"))));
     this.drawing = new CaseDrawing(this.drawingHost, {onMove: (i, dx, dy) => this.moveBody(i, dx, dy)});
     this.fields.append(h("p", {class: "hint"}, "Loading the examples…"));
+    this.loaded = false; // a case applied (JSON, file, a job to re-run) before the examples arrive is kept
     this.start();
   }
 
@@ -117,7 +118,7 @@ export class CaseForm {
     }
     this.exampleSelect.append(...this.examples.map((ex) => h("option", {value: ex.name}, ex.title)));
     const first = this.examples.find((ex) => ex.name === STARTER) ?? this.examples[0];
-    this.load(first ? first.spec : {});
+    if (!this.loaded) this.load(first ? first.spec : {});
   }
 
   /** A field's value: the spec's, else the service's for it (the latest normalised spec), else undefined. */
@@ -139,6 +140,7 @@ export class CaseForm {
 
   /** Load a spec (from an example, JSON, a file or a job to re-run) into the form. */
   load(spec, {from = null} = {}) {
+    this.loaded = true;
     this.spec = stripNulls(clone(spec));
     this.from = from;
     this.fromNote.hidden = !from;

@@ -364,6 +364,29 @@ def test_json_spec_round_trip_and_upload(page, base_url, tmp_path) -> None:
     assert json.loads(box.input_value()) == pier
 
 
+def test_a_case_applied_before_the_examples_arrive_is_kept(page) -> None:
+    """On a busy service the examples can arrive after someone has applied a case of their own: the starting
+    example must not replace it (it did, and a study was then built on the wrong case)."""
+    held = []
+    page.route("**/api/v1/examples", lambda route: held.append(route))  # hold the examples' answer back
+    page.goto("/#/new")
+    page.wait_for_function("() => document.querySelector('#example')")
+    page.locator("#spec-json").fill(
+        json.dumps({"title": "My own pier", "bodies": [{"shape": "circle", "radius": 0.02, "center": [0.3, 0.05]}]})
+    )
+    page.get_by_role("button", name="Apply JSON to form").click()
+    expect(page.locator("#f-title")).to_have_value("My own pier")
+    for _ in range(200):  # the page asked for them as it started; the handler runs while Playwright waits
+        if held:
+            break
+        page.wait_for_timeout(50)
+    assert len(held) == 1
+    held[0].continue_()
+    expect(page.locator("#example option")).not_to_have_count(1)  # the examples are offered now
+    expect(page.locator("#f-title")).to_have_value("My own pier")
+    expect(page.locator("#f-bodies-0-radius")).to_have_value("0.02")
+
+
 def test_live_figures_come_from_the_services_preview(page, api) -> None:
     """Cells, unknowns, steps and warnings are the solver's (a dry run of its mesher, its rules), not a copy of its
     rules in the page."""
