@@ -12,9 +12,23 @@ above it amplitudes of a few hundredths.
 ``--sweep`` runs U* = 3, 4, 5, 6, 7, 8 and prints each point beside the published response at Re 100, m* = 10,
 zeta = 0 (Ahn & Kallinderis 2006, J. Comput. Phys. 219:671; Prasanth & Mittal 2008, J. Fluid Mech. 594:463): the
 values in ``RECALLED`` are read off remembered figures, recalled from memory and rough (not read from the papers);
-treat them as a band, not as reference values. About 12 CPU minutes a point at --scale 1.5 and --end 180, so the
-whole curve takes over an hour. Not yet run in full: a smoke run (--end 6 --scale 3, U* 3 and 8, 108 and 52 steps,
-20 and 12 CPU seconds) only showed the sweep's machinery works (6 D/U is too short for shedding: A/D 0.000).
+treat them as a band, not as reference values. About 8-10 CPU minutes a point at --scale 1.5 and --end 180, so
+the whole curve takes over an hour (two processes of three points each).
+
+Measured (--sweep --scale 1.5 --end 180, from rest; CPU seconds with other work on the machine):
+
+    U*   A/D    f/f_n   steps  CPU s     published, recalled (A/D, f/f_n)
+    3    0.007  0.513   3291   515       0.01, 0.50
+    4    0.021  0.692   3272   511       0.03, 0.70
+    5    0.555  0.976   3663   597       0.6,  1.0
+    6    0.487  0.993   3520   550       0.5,  1.0
+    7    0.315  1.006   3294   483       0.35, 1.05
+    8    0.063  1.401   3256   486       0.02, 1.3
+
+Lock-in (f/f_n within 3 % of 1, A/D about 0.3-0.56) spans U* = 5 to 7 and not 4 or 8, as published; outside it the
+body follows the shedding (f/f_n = 0.51, 0.69, 1.40 = St U* with St 0.17-0.18). At U* = 8 the swing, 0.06 D, is
+larger than the recalled 0.02 D, and the peak, 0.555 D at U* = 5, a little below the recalled 0.6 D; the points
+are 1 apart, so the true peak and the edges of lock-in may lie between them.
 
 Measured (--scale 1.5, U* = 5, one core shared with other work): the shedding set in after about 40 D/U and the
 amplitude grew through 0.25 D at 80 D/U; with --end 120: A/D = 0.501 (still growing), f/f_n = 0.959, 2251 steps,
