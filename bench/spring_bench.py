@@ -26,7 +26,7 @@ Measured (--sweep --scale 1.5 --end 180, from rest; CPU seconds with other work 
     8    0.063  1.401   3256   486       0.02, 1.3
 
 Lock-in (f/f_n within 3 % of 1, A/D about 0.3-0.56) spans U* = 5 to 7 and not 4 or 8, as published; outside it the
-body follows the shedding (f/f_n = 0.51, 0.69, 1.40 = St U* with St 0.17-0.18). At U* = 8 the swing, 0.06 D, is
+body follows the shedding (f/f_n = 0.51, 0.69, 1.40 = St U* with St 0.171-0.175). At U* = 8 the swing, 0.06 D, is
 larger than the recalled 0.02 D, and the peak, 0.555 D at U* = 5, a little below the recalled 0.6 D; the points
 are 1 apart, so the true peak and the edges of lock-in may lie between them.
 
