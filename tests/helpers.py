@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+import contextlib
 import copy
 import itertools
 import os
 import signal
+import socket
 import subprocess
 import sys
 import threading
@@ -166,3 +168,52 @@ def wait_until(what: str, check: Callable[[], Any], timeout: float, logs: list[P
 
 def finished(job: dict[str, Any]) -> bool:
     return job["state"] in ("succeeded", "failed", "cancelled")
+
+
+class Relay:
+    """A TCP relay on a free loopback port to the service at ``upstream``, as a network link between a box and the
+    service would be; subclasses say how each direction passes (``to_service``, ``to_box``: plain copies here)."""
+
+    def __init__(self, upstream: int):
+        self.upstream, self.connections = upstream, 0
+        self.listener = socket.create_server(("127.0.0.1", 0))
+        self.port = self.listener.getsockname()[1]
+        threading.Thread(target=self._accept, daemon=True).start()
+
+    def _accept(self) -> None:
+        while True:
+            try:
+                client, _ = self.listener.accept()
+            except OSError:
+                return
+            self.connections += 1
+            server = socket.create_connection(("127.0.0.1", self.upstream))
+            for pass_on, src, dst in ((self.to_service, client, server), (self.to_box, server, client)):
+                threading.Thread(target=self._pipe, args=(pass_on, src, dst, self.connections), daemon=True).start()
+
+    @staticmethod
+    def _pipe(
+        pass_on: Callable[[socket.socket, socket.socket, int], None],
+        src: socket.socket,
+        dst: socket.socket,
+        number: int,
+    ) -> None:
+        with contextlib.suppress(OSError):
+            pass_on(src, dst, number)
+        for s in (src, dst):
+            with contextlib.suppress(OSError):
+                s.shutdown(socket.SHUT_RDWR)
+            s.close()
+
+    def to_service(self, src: socket.socket, dst: socket.socket, number: int) -> None:
+        """Pass the box's bytes of connection ``number`` (1 the first) on to the service."""
+        while block := src.recv(65536):
+            dst.sendall(block)
+
+    def to_box(self, src: socket.socket, dst: socket.socket, number: int) -> None:
+        """Pass the service's answers back to the box."""
+        while block := src.recv(65536):
+            dst.sendall(block)
+
+    def close(self) -> None:
+        self.listener.close()

@@ -5,17 +5,15 @@ Result files the service refuses (its upload limits) fail the job with the reaso
 
 from __future__ import annotations
 
-import contextlib
 import io
 import os
 import socket
-import threading
 import time
 from pathlib import Path
 
 import numpy as np
 
-from tests.helpers import served, settings_for, tiny
+from tests.helpers import Relay, served, settings_for, tiny
 from wakeyard.api.app import create_app
 from wakeyard.api.auth import create_token
 from wakeyard.core.store import Claimed
@@ -25,40 +23,13 @@ from wakeyard.worker.service_client import ServiceClient
 BLOCK, PAUSE = 32 * 1024, 0.2  # at most this many bytes per pause from the service, on each connection
 
 
-class SlowLink:
-    """A TCP relay to the service: the box's requests pass at once, the service's answers at BLOCK per PAUSE."""
+class SlowLink(Relay):
+    """The box's requests pass at once, the service's answers at BLOCK per PAUSE."""
 
-    def __init__(self, upstream: int):
-        self.upstream = upstream
-        self.listener = socket.create_server(("127.0.0.1", 0))
-        self.port = self.listener.getsockname()[1]
-        threading.Thread(target=self._accept, daemon=True).start()
-
-    def _accept(self) -> None:
-        while True:
-            try:
-                client, _ = self.listener.accept()
-            except OSError:
-                return
-            server = socket.create_connection(("127.0.0.1", self.upstream))
-            threading.Thread(target=self._pipe, args=(client, server, 0.0), daemon=True).start()
-            threading.Thread(target=self._pipe, args=(server, client, PAUSE), daemon=True).start()
-
-    @staticmethod
-    def _pipe(src: socket.socket, dst: socket.socket, pause: float) -> None:
-        try:
-            while block := src.recv(BLOCK):
-                dst.sendall(block)
-                time.sleep(pause)
-        except OSError:
-            pass
-        for s in (src, dst):
-            with contextlib.suppress(OSError):
-                s.shutdown(socket.SHUT_RDWR)
-            s.close()
-
-    def close(self) -> None:
-        self.listener.close()
+    def to_box(self, src: socket.socket, dst: socket.socket, number: int) -> None:
+        while block := src.recv(BLOCK):
+            dst.sendall(block)
+            time.sleep(PAUSE)
 
 
 def test_a_slow_checkpoint_download_keeps_the_lease(tmp_path: Path) -> None:

@@ -3,69 +3,42 @@ not sent again from the start), and the file that lands in the job's folder is t
 
 from __future__ import annotations
 
-import contextlib
 import hashlib
 import os
 import socket
-import threading
 import time
 from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
 
-from tests.helpers import served, settings_for, tiny
+from tests.helpers import Relay, served, settings_for, tiny
 from wakeyard.api.app import create_app
 from wakeyard.api.auth import create_token
 from wakeyard.core.store import Store
 from wakeyard.worker.service_client import ServiceClient
 
 
-class CuttingProxy:
-    """A TCP relay to the service that breaks its first connection after ``cut`` bytes from the client, as a
-    dropped link would; it counts every byte the client sends."""
+class CuttingProxy(Relay):
+    """Breaks its first connection after ``cut`` bytes from the box, as a dropped link would; counts every byte
+    the box sends."""
 
     def __init__(self, upstream: int, cut: int):
-        self.upstream, self.cut = upstream, cut
-        self.sent, self.connections = 0, 0
-        self.listener = socket.create_server(("127.0.0.1", 0))
-        self.port = self.listener.getsockname()[1]
-        threading.Thread(target=self._accept, daemon=True).start()
+        self.cut, self.sent = cut, 0
+        super().__init__(upstream)
 
-    def _accept(self) -> None:
-        while True:
-            try:
-                client, _ = self.listener.accept()
-            except OSError:
-                return
-            self.connections += 1
-            server = socket.create_connection(("127.0.0.1", self.upstream))
-            limit = self.cut if self.connections == 1 else None
-            threading.Thread(target=self._pipe, args=(client, server, limit), daemon=True).start()
-            threading.Thread(target=self._pipe, args=(server, client, None, False), daemon=True).start()
-
-    def _pipe(self, src: socket.socket, dst: socket.socket, limit: int | None, count: bool = True) -> None:
+    def to_service(self, src: socket.socket, dst: socket.socket, number: int) -> None:
+        limit = self.cut if number == 1 else None
         passed = 0
-        try:
-            while block := src.recv(65536):
-                if limit is not None and passed + len(block) >= limit:
-                    dst.sendall(block[: limit - passed])
-                    self.sent += limit - passed
-                    time.sleep(0.3)  # let the service take in what arrived before the line goes dead
-                    break
-                dst.sendall(block)
-                passed += len(block)
-                if count:
-                    self.sent += len(block)
-        except OSError:
-            pass
-        for s in (src, dst):
-            with contextlib.suppress(OSError):
-                s.shutdown(socket.SHUT_RDWR)
-            s.close()
-
-    def close(self) -> None:
-        self.listener.close()
+        while block := src.recv(65536):
+            if limit is not None and passed + len(block) >= limit:
+                dst.sendall(block[: limit - passed])
+                self.sent += limit - passed
+                time.sleep(0.3)  # let the service take in what arrived before the line goes dead
+                return
+            dst.sendall(block)
+            passed += len(block)
+            self.sent += len(block)
 
 
 @pytest.fixture
