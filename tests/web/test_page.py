@@ -641,16 +641,17 @@ def test_placeholders_drawing_and_footer_follow_the_service(page, api) -> None:
     page.locator("#f-channel-height").fill("")
     expect(page.locator("#f-channel-height")).to_have_attribute("placeholder", str(spec.channel.height))
     assert "height" not in json.loads(page.locator("#spec-json").input_value())["channel"]
-    # until the case's new preview answers, the drawing keeps the height the last one gave (0.15 m): wait for it
+    # until the case's new preview answers, the drawing keeps the height the last one gave (0.15 m): wait for it.
+    # The size is read in the same call that sees it settle: the drawing is rebuilt on every preview and resize,
+    # and a rectangle read a moment later may already be detached (its box is then 0 by 0).
     ratio = spec.channel.height / 0.4
-    page.wait_for_function(
+    settled = page.wait_for_function(
         """r => { const b = document.querySelector(".case-svg .fluid-area").getBBox();
-                  return Math.abs(b.height / b.width - r) < 0.01 * r; }""",
+                  return Math.abs(b.height / b.width - r) < 0.01 * r && {width: b.width, height: b.height}; }""",
         arg=ratio,
-    )
-    bbox = "e => { const b = e.getBBox(); return {width: b.width, height: b.height}; }"
-    channel = page.locator(".case-svg .fluid-area").evaluate(bbox)
-    assert channel["height"] / channel["width"] == pytest.approx(ratio, rel=0.01)
+    ).json_value()
+    assert settled["width"] > 0
+    assert settled["height"] / settled["width"] == pytest.approx(ratio, rel=0.01)
     expect(page.locator("#caution-foot")).to_have_text(CAUTION)
 
 
