@@ -64,6 +64,16 @@ def pixel(page, host: str) -> tuple[float, float]:
     return (get("x1") - get("x0")) / get("plot-width"), (get("y1") - get("y0")) / get("plot-height")
 
 
+def boxes(page, *selectors: str) -> list[dict[str, float]]:
+    """The drawn boxes of the first element of each selector, read in one call: the drawing is rebuilt on every
+    preview and resize, and an element read on its own a moment later may already be detached (0 by 0)."""
+    return page.evaluate(
+        """qs => qs.map(q => { const b = document.querySelector(q).getBBox();
+                              return {x: b.x, width: b.width, height: b.height}; })""",
+        list(selectors),
+    )
+
+
 def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
     page.goto("/#/new")
     expect(page.locator("#case-heading")).to_have_text("New case")
@@ -98,9 +108,7 @@ def test_form_case_queues_runs_and_shows_results(page, api, pair) -> None:
     expect(page.locator('dd[data-figure="Blockage ratio"]')).to_contain_text("24.4 %")
     expect(page.locator('dd[data-figure="Time steps"]')).to_contain_text("60")
     # the drawing is to scale: the circle spans 0.1 / 1.0 of the channel's drawn length
-    bbox = "e => { const b = e.getBBox(); return {width: b.width, height: b.height}; }"
-    channel = page.locator(".case-svg .fluid-area").evaluate(bbox)
-    circle = page.locator(".case-svg g.body path").evaluate(bbox)
+    channel, circle = boxes(page, ".case-svg .fluid-area", ".case-svg g.body path")
     assert circle["width"] / channel["width"] == pytest.approx(0.1, rel=0.03)
     assert circle["height"] / channel["height"] == pytest.approx(0.1 / 0.41, rel=0.03)
     # the JSON view is the spec the API receives
@@ -675,12 +683,10 @@ def test_the_drawing_shows_the_solvers_outline(page, api) -> None:
     # the SVG's y axis points down
     for (x0, y0), (x1, y1) in zip(unit(drawn, True), unit(outline, False)):
         assert abs(x0 - x1) < 0.01 and abs(y0 - y1) < 0.01
-    # moving it by the keyboard moves the solver's outline with it before the service answers again
-    channel = page.locator(".case-svg .fluid-area")
 
+    # moving it by the keyboard moves the solver's outline with it before the service answers again
     def place() -> tuple[float, float]:  # the outline's left end and width, as shares of the channel's length
-        bbox = "e => { const b = e.getBBox(); return {x: b.x, width: b.width}; }"
-        box, ch = path.evaluate(bbox), channel.evaluate(bbox)
+        box, ch = boxes(page, ".case-svg g.body path", ".case-svg .fluid-area")
         return (box["x"] - ch["x"]) / ch["width"], box["width"] / ch["width"]
 
     before = place()
