@@ -15,8 +15,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from tests.helpers import TINY, settings_for, tiny
+from wakeyard import solver
 from wakeyard.api.app import WEB, create_app
 from wakeyard.api.auth import create_token
+from wakeyard.api.spec_checks import checked
 from wakeyard.solver import SpecError, load
 from wakeyard.solver.caution import CAUTION
 
@@ -92,6 +94,16 @@ def test_a_spec_sent_again_is_the_same_job_spec_and_still_meets_each_services_li
         assert "over the limit of 100" in refused.json()["detail"][0]["message"]
     bad = {**TINY, "bodies": [{"shape": "circle", "center": [0.2, 0.2], "radius": -1}]}
     assert [offline.post("/api/v1/jobs", json=bad).status_code for _ in range(2)] == [422, 422]
+
+
+def test_a_remembered_spec_is_each_callers_own_copy() -> None:
+    """A caller that changes the normalised spec it got does not change what the next request with that spec gets."""
+    limits = solver.Limits()
+    first = checked(load(tiny()), limits).spec
+    first["channel"]["height"] = 99.0
+    first["bodies"].clear()
+    again = checked(load(tiny()), limits)
+    assert again.spec == load(tiny()).model_dump(mode="json")
 
 
 def test_malformed_json_is_422_not_500(offline: TestClient) -> None:
