@@ -8,6 +8,8 @@ Every call about a job names its lease (the claim's fencing token, header ``Leas
 from __future__ import annotations
 
 import re
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
 from functools import partial
 from typing import Annotated, Any, Literal
 
@@ -24,7 +26,7 @@ from wakeyard.solver.restart import RESTART_FILES
 from .deps import SettingsDep, StoreDep, WorkerDep
 from .problems import BadRequest, Conflict, LengthRequired, NotFound, Problem, TooLarge, Unprocessable
 from .upload_stream import timed
-from .uploads import LeaseEnded, Uploads, path_problem
+from .uploads import LeaseEnded, OverJobLimit, Uploads, path_problem
 
 router = APIRouter(prefix="/api/v1/worker", tags=["worker"])
 LeaseHeader = Annotated[str, Header(alias="Lease", description="the lease from the claim", max_length=64)]
@@ -146,8 +148,10 @@ async def received(
     "upload, `Content-Range: bytes START-END/TOTAL` with START the bytes the service has (GET "
     "`/uploads/{path}`). 202 with `received` while incomplete; 201 once the whole file arrived with that hash and "
     "is in the job's folder; 422 on a hash mismatch (the bytes are discarded). 413 over the per-file "
-    "(`MAX_UPLOAD_MB`) or per-job (`MAX_JOB_UPLOAD_MB`) limit, 408 when the body stalls (`UPLOAD_IDLE_SECONDS`) or "
-    "takes too long (`MAX_UPLOAD_SECONDS`); a refused upload's part is removed, the stored file stays as it was.",
+    "(`MAX_UPLOAD_MB`) or per-job (`MAX_JOB_UPLOAD_MB`) limit: the job's stored files and each of its uploads in "
+    "progress count at their full TOTAL from the start, so uploads at once cannot together go over. 408 when the "
+    "body stalls (`UPLOAD_IDLE_SECONDS`) or takes too long (`MAX_UPLOAD_SECONDS`). A refused upload's part is "
+    "removed, the stored file stays as it was.",
 )
 async def upload(
     job_id: str,
@@ -184,48 +188,66 @@ async def upload(
     have = uploads.received(job_id, lease, path)
     if start not in (0, have):
         raise Conflict("Content-Range", f"the service has {have} bytes of {path}: continue from byte {have}")
-    others = await run_in_threadpool(uploads.others, job_id, lease, path)
-    if others + total > settings.max_job_upload_bytes:
+    async with _room(uploads, settings, job_id, lease, path, total, sized):
+        try:
+            f = await run_in_threadpool(uploads.open_part, job_id, lease, path, start)
+        except CLASH:
+            raise Conflict("path", f"{path} clashes with a file or folder of the same name in the upload") from None
+        got = 0
+        try:
+            async for chunk in timed(request.stream(), settings.upload_idle_seconds, settings.max_upload_seconds):
+                got += len(chunk)
+                if got > length:
+                    raise BadRequest("(body)", f"more than the {length} bytes Content-Length declared")
+                await run_in_threadpool(f.write, chunk)
+        except ClientDisconnect:  # the bytes so far stay: the worker continues from them
+            pass
+        except Problem:  # refused on the way: nothing of it stays
+            f.close()
+            await run_in_threadpool(uploads.drop_part, job_id, lease, path)
+            raise
+        finally:
+            f.close()
+        have = uploads.received(job_id, lease, path)
+        if have < total:
+            return JSONResponse({"path": path, "received": have}, status_code=202)
+        try:  # a lease lost during the transfer: the file does not go into the job
+            held = partial(store.lease_held, job_id, lease)
+            found = await run_in_threadpool(uploads.publish, job_id, lease, path, sha256, held)
+        except CLASH:
+            raise Conflict("path", f"{path} clashes with a file or folder of the same name in the job") from None
+        except LeaseEnded:
+            raise Conflict(
+                "Lease", f"job {job_id} is no longer running under this lease: {path} was discarded"
+            ) from None
+        if found is not None:
+            raise Unprocessable(
+                "Content-SHA256", f"the {have} bytes received hash to {found}, not {sha256}: discarded, send it again"
+            )
+        return JSONResponse({"path": path, "size": have, "sha256": sha256}, status_code=201)
+
+
+@asynccontextmanager
+async def _room(
+    uploads: Uploads, settings: SettingsDep, job_id: str, lease: str, path: str, total: int, sized: str
+) -> AsyncIterator[None]:
+    """Room for the upload's ``total`` bytes under the per-job limit while it is received: checked and kept in one
+    step (uploads at once cannot together go over), given back however the request ends (published, refused or
+    broken off; a part left to be continued then counts by its bytes). 413 naming ``sized`` when it does not fit."""
+    limit = settings.max_job_upload_bytes
+    try:
+        ticket = await run_in_threadpool(uploads.reserve, job_id, lease, path, total, limit)
+    except OverJobLimit as over:
         await run_in_threadpool(uploads.drop_part, job_id, lease, path)
         raise TooLarge(
             sized,
-            f"{total:,} bytes beside the {others:,} job {job_id} holds: over the per-job upload limit of "
-            f"{settings.max_job_upload_bytes:,} bytes",
-        )
+            f"{total:,} bytes beside the {over.others:,} job {job_id} holds or is receiving: over the per-job "
+            f"upload limit of {limit:,} bytes",
+        ) from None
     try:
-        f = await run_in_threadpool(uploads.open_part, job_id, lease, path, start)
-    except CLASH:
-        raise Conflict("path", f"{path} clashes with a file or folder of the same name in the upload") from None
-    got = 0
-    try:
-        async for chunk in timed(request.stream(), settings.upload_idle_seconds, settings.max_upload_seconds):
-            got += len(chunk)
-            if got > length:
-                raise BadRequest("(body)", f"more than the {length} bytes Content-Length declared")
-            await run_in_threadpool(f.write, chunk)
-    except ClientDisconnect:  # the bytes so far stay: the worker continues from them
-        pass
-    except Problem:  # refused on the way: nothing of it stays
-        f.close()
-        await run_in_threadpool(uploads.drop_part, job_id, lease, path)
-        raise
+        yield
     finally:
-        f.close()
-    have = uploads.received(job_id, lease, path)
-    if have < total:
-        return JSONResponse({"path": path, "received": have}, status_code=202)
-    try:  # a lease lost during the transfer: the file does not go into the job
-        held = partial(store.lease_held, job_id, lease)
-        found = await run_in_threadpool(uploads.publish, job_id, lease, path, sha256, held)
-    except CLASH:
-        raise Conflict("path", f"{path} clashes with a file or folder of the same name in the job") from None
-    except LeaseEnded:
-        raise Conflict("Lease", f"job {job_id} is no longer running under this lease: {path} was discarded") from None
-    if found is not None:
-        raise Unprocessable(
-            "Content-SHA256", f"the {have} bytes received hash to {found}, not {sha256}: discarded, send it again"
-        )
-    return JSONResponse({"path": path, "size": have, "sha256": sha256}, status_code=201)
+        await run_in_threadpool(uploads.release, job_id, lease, path, ticket)
 
 
 @router.get("/jobs/{job_id}/files/{path:path}", summary="Download a file an earlier attempt uploaded")

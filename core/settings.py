@@ -60,7 +60,10 @@ class Settings(BaseSettings):
         8192.0, gt=0, description="the largest file a remote worker (`wakeyard worker --url`) may upload"
     )
     max_job_upload_mb: float = Field(
-        16384.0, gt=0, description="the bytes remote workers may upload into one job, its stored files and parts"
+        16384.0,
+        gt=0,
+        description="the bytes remote workers may upload into one job: its stored files and its uploads in progress, "
+        "each at its full size",
     )
     upload_idle_seconds: float = Field(
         60.0, gt=0, description="an upload that sends nothing for this long is refused and its part removed"
