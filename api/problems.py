@@ -63,7 +63,11 @@ class LengthRequired(Problem):
 
 
 class TimedOut(Problem):
+    """The request body stalled or took too long. The connection is closed with the answer (RFC 9110, 408): the rest
+    of that body may still be on its way, and the client's next request must not follow it on the same line."""
+
     status = 408
+    headers = {"Connection": "close"}
 
 
 class TooLarge(Problem):

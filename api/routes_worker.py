@@ -150,8 +150,8 @@ async def received(
     "is in the job's folder; 422 on a hash mismatch (the bytes are discarded). 413 over the per-file "
     "(`MAX_UPLOAD_MB`) or per-job (`MAX_JOB_UPLOAD_MB`) limit: the job's stored files and each of its uploads in "
     "progress count at their full TOTAL from the start, so uploads at once cannot together go over. 408 when the "
-    "body stalls (`UPLOAD_IDLE_SECONDS`) or takes too long (`MAX_UPLOAD_SECONDS`). A refused upload's part is "
-    "removed, the stored file stays as it was.",
+    "body stalls (`UPLOAD_IDLE_SECONDS`) or takes too long (`MAX_UPLOAD_SECONDS`), with `Connection: close`; send "
+    "the file again from byte 0. A refused upload's part is removed, the stored file stays as it was.",
 )
 async def upload(
     job_id: str,

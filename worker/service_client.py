@@ -1,8 +1,9 @@
 """The service's worker endpoints as a remote worker calls them (``/api/v1/worker``, a worker token): claims,
 heartbeats, outcomes, and files moved in both directions, resumable and checked by size and SHA-256.
 
-Network trouble is retried with back-off (a compute box on a flaky link keeps its job while its lease lasts); a
-refusal that names the lease raises :class:`LeaseLost` at once.
+Network trouble is retried with back-off (a compute box on a flaky link keeps its job while its lease lasts), and so
+is an upload the service timed out (408: a link that stalled or crawled); a refusal that names the lease raises
+:class:`LeaseLost` at once.
 """
 
 from __future__ import annotations
@@ -23,6 +24,7 @@ log = logging.getLogger(__name__)
 T = TypeVar("T")
 CHUNK = 1 << 20
 RETRIES = 8  # network tries per call, with back-off from 0.5 s doubling up to 10 s (about a minute in all)
+TIMED_OUT = 408  # the service gave up on a stalled or too slow upload body and dropped what had arrived of it
 
 
 class LeaseLost(Exception):
@@ -65,7 +67,7 @@ class ServiceClient:
             except httpx.TransportError as err:
                 if attempt == RETRIES - 1:
                     raise
-                wait = min(10.0, 0.5 * 2**attempt)
+                wait = _backoff(attempt)
                 log.warning("%s: %s; trying again in %.1f s", what, err, wait)
                 time.sleep(wait)
         raise AssertionError("unreachable")
@@ -122,7 +124,8 @@ class ServiceClient:
 
     def upload(self, job_id: str, lease: str, local: Path, remote: str) -> str:
         """Send ``local`` as the job's ``remote`` file; after a broken connection continue from the bytes the
-        service has. Returns the file's SHA-256 (the service checked it)."""
+        service has, after a timeout (408) from the start (the service dropped them). Returns the file's SHA-256
+        (the service checked it)."""
         size, sha = local.stat().st_size, sha256_of(local)
         headers = {"Lease": lease, "Content-SHA256": sha}
         for attempt in range(RETRIES):
@@ -136,12 +139,17 @@ class ServiceClient:
             except httpx.TransportError as err:
                 if attempt == RETRIES - 1:
                     raise
-                wait = min(10.0, 0.5 * 2**attempt)
+                wait = _backoff(attempt)
                 log.warning("upload of %s broke off (%s); continuing in %.1f s", remote, err, wait)
                 time.sleep(wait)
                 continue
             if r.status_code == 201:
                 return sha
+            if r.status_code == TIMED_OUT and attempt < RETRIES - 1:  # one stall must not lose a result
+                wait = _backoff(attempt)
+                log.warning("upload of %s: %s; sending it again in %.1f s", remote, Refused(r), wait)
+                time.sleep(wait)
+                continue
             if r.status_code == 422 and attempt < RETRIES - 1:  # hash mismatch: the service discarded it, resend
                 log.warning("upload of %s: %s; sending it again", remote, Refused(r))
                 continue
@@ -154,6 +162,12 @@ class ServiceClient:
             lambda: self.http.get(f"/jobs/{job_id}/uploads/{remote}", headers={"Lease": lease}), "upload offset"
         )
         return int(self._checked(r).json()["received"])
+
+
+def _backoff(attempt: int) -> float:
+    """Seconds to wait before the next try: 0.5 doubling up to 10 (a link that recovers is soon used again, one
+    that does not is not hammered)."""
+    return min(10.0, 0.5 * 2**attempt)
 
 
 def _read_from(path: Path, start: int) -> Iterator[bytes]:
