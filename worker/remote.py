@@ -30,7 +30,7 @@ from wakeyard.solver.restart import FLOW_CHECKPOINT, RESTART_FILES
 
 from .attempt import Attempt
 from .pulse import Pulse
-from .service_client import LeaseLost, Refused, ServiceClient
+from .service_client import LeaseLost, Refused, ServiceClient, Stopped
 
 log = logging.getLogger("wakeyard.remote")
 
@@ -39,7 +39,7 @@ TOKEN_VARIABLE = "WAKEYARD_WORKER_TOKEN"
 POLL_VARIABLE = "WAKEYARD_POLL_SECONDS"
 STAGING = ".staging"  # copies of a checkpoint waiting to be uploaded (hidden: never a result file)
 
-SHUTDOWN = threading.Event()  # SIGTERM: the running job stops at its next step and is handed back
+SHUTDOWN = threading.Event()  # SIGTERM: the job stops at its next step (or download block) and is handed back
 
 
 class Uploader:
@@ -185,7 +185,8 @@ def _progress(values: dict[str, Any]) -> dict[str, Any] | None:
 
 def prepare(client: ServiceClient, job: Claimed, files: list[dict[str, Any]], out: Path) -> int | None:
     """A clean job folder holding the checkpoint an earlier attempt uploaded, with its field snapshots; returns
-    the checkpoint's step, or None when the job starts from the beginning."""
+    the checkpoint's step, or None when the job starts from the beginning. Raises :class:`Stopped` when SIGTERM
+    comes during a download (the rest of the checkpoint is not waited for)."""
     shutil.rmtree(out, ignore_errors=True)  # what this box may have left of an earlier attempt is not the service's
     out.mkdir(parents=True)
     uploaded = {f["path"]: f for f in files}
@@ -193,14 +194,14 @@ def prepare(client: ServiceClient, job: Claimed, files: list[dict[str, Any]], ou
         return None
     for name in RESTART_FILES:
         if name in uploaded:
-            client.download(job.id, job.claim, name, out / name, uploaded[name]["sha256"])
+            client.download(job.id, job.claim, name, out / name, uploaded[name]["sha256"], SHUTDOWN)
     with np.load(out / FLOW_CHECKPOINT, allow_pickle=False) as ck:
         snapshots = [int(k) for k in ck["snapshots"]]
         step = int(ck["step"])
     for k in snapshots:
         name = f"fields/step_{k:06d}.npz"
         if name in uploaded:
-            client.download(job.id, job.claim, name, out / name, uploaded[name]["sha256"])
+            client.download(job.id, job.claim, name, out / name, uploaded[name]["sha256"], SHUTDOWN)
     return step
 
 
@@ -232,6 +233,10 @@ def run_one(client: ServiceClient, settings: Settings, name: str) -> bool:
         step = fetch(client, job, claimed["files"], out, claimed["heartbeat_seconds"])
     except LeaseLost:
         log.warning("job %s: lease lost while fetching its checkpoint", job.id)
+        return True
+    except Stopped:  # hand it back now: another box can take it at once instead of after the lease
+        client.release(job.id, job.claim)
+        log.warning("job %s handed back to the queue: this worker stopped while fetching its checkpoint", job.id)
         return True
     except Exception:  # its checkpoint could not be fetched: another box (or a later try) may do better
         log.exception("job %s: could not fetch its checkpoint; handing it back", job.id)

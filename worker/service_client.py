@@ -3,13 +3,14 @@ heartbeats, outcomes, and files moved in both directions, resumable and checked 
 
 Network trouble is retried with back-off (a compute box on a flaky link keeps its job while its lease lasts), and so
 is an upload the service timed out (408: a link that stalled or crawled); a refusal that names the lease raises
-:class:`LeaseLost` at once.
+:class:`LeaseLost` at once. A download given a stop event gives up between blocks once it is set (:class:`Stopped`).
 """
 
 from __future__ import annotations
 
 import logging
 import os
+import threading
 import time
 from collections.abc import Callable, Iterator
 from pathlib import Path
@@ -33,6 +34,10 @@ class LeaseLost(Exception):
 
 class TransferFailed(Exception):
     """A file did not arrive whole (after the retries)."""
+
+
+class Stopped(Exception):
+    """The worker is stopping: a download was abandoned part way (its partial file removed), not failed."""
 
 
 class Refused(Exception):
@@ -60,7 +65,8 @@ class ServiceClient:
     def close(self) -> None:
         self.http.close()
 
-    def _retried(self, call: Callable[[], T], what: str) -> T:
+    def _retried(self, call: Callable[[], T], what: str, stop: threading.Event | None = None) -> T:
+        """``call()``, tried again after network trouble; a set ``stop`` ends the back-off early (:class:`Stopped`)."""
         for attempt in range(RETRIES):
             try:
                 return call()
@@ -69,7 +75,10 @@ class ServiceClient:
                     raise
                 wait = _backoff(attempt)
                 log.warning("%s: %s; trying again in %.1f s", what, err, wait)
-                time.sleep(wait)
+                if stop is None:
+                    time.sleep(wait)
+                elif stop.wait(wait):
+                    raise Stopped(what) from err
         raise AssertionError("unreachable")
 
     def _checked(self, response: httpx.Response) -> httpx.Response:
@@ -102,10 +111,15 @@ class ServiceClient:
     def release(self, job_id: str, lease: str) -> None:
         self._checked(self.http.post(f"/jobs/{job_id}/release", headers={"Lease": lease}))
 
-    def download(self, job_id: str, lease: str, remote: str, local: Path, sha256: str) -> None:
-        """Fetch an uploaded file; it replaces ``local`` only once its hash matches."""
+    def download(
+        self, job_id: str, lease: str, remote: str, local: Path, sha256: str, stop: threading.Event | None = None
+    ) -> None:
+        """Fetch an uploaded file; it replaces ``local`` only once its hash matches. Once ``stop`` is set the
+        download is abandoned at the next block (:class:`Stopped`): a stopping worker must not wait minutes for a
+        slow link to deliver the rest. A partial file is never left behind (a download starts again from zero)."""
         local.parent.mkdir(parents=True, exist_ok=True)
         tmp = local.with_name(f".{local.name}.download")
+        what = f"download of {remote}"
 
         def fetch() -> None:
             with self.http.stream("GET", f"/jobs/{job_id}/files/{remote}", headers={"Lease": lease}) as r:
@@ -113,13 +127,20 @@ class ServiceClient:
                     r.read()
                     self._checked(r)
                 with open(tmp, "wb") as f:
-                    for block in r.iter_bytes(CHUNK):
+                    for block in r.iter_bytes():  # as they arrive, not gathered into CHUNKs: a stop is seen soon
+                        if stop is not None and stop.is_set():
+                            raise Stopped(what)
                         f.write(block)
 
-        self._retried(fetch, f"download of {remote}")
-        if (found := sha256_of(tmp)) != sha256:
+        try:
+            self._retried(fetch, what, stop)
+            found = sha256_of(tmp)
+        except BaseException:
+            tmp.unlink(missing_ok=True)
+            raise
+        if found != sha256:
             tmp.unlink()
-            raise TransferFailed(f"download of {remote}: its bytes hash to {found}, not {sha256}")
+            raise TransferFailed(f"{what}: its bytes hash to {found}, not {sha256}")
         os.replace(tmp, local)
 
     def upload(self, job_id: str, lease: str, local: Path, remote: str) -> str:

@@ -1,8 +1,10 @@
 """A remote worker (``wakeyard worker --url``) that is stopped hands its running job back to the service at once
-(not after the lease), and the next box resumes it from the checkpoint the first one uploaded."""
+(not after the lease), and the next box resumes it from the checkpoint the first one uploaded; so does one stopped
+while it is still fetching that checkpoint over a slow link."""
 
 from __future__ import annotations
 
+import itertools
 import os
 import signal
 import socket
@@ -12,11 +14,19 @@ import time
 from pathlib import Path
 
 import httpx
+import numpy as np
+import pytest
 
-from tests.helpers import tiny, wait_until
+from tests.helpers import Relay, served, settings_for, tiny, wait_until
+from wakeyard.api.app import create_app
+from wakeyard.api.auth import create_token
+from wakeyard.solver import Cancelled, run
+from wakeyard.solver.restart import FLOW_CHECKPOINT
+from wakeyard.worker.service_client import ServiceClient
 
 MAIN = "import sys; from wakeyard.cli.main import main; sys.exit(main())"
 SPEC = tiny(end_time=3.0, output_interval=0.5, checkpoint_interval=10)
+BLOCK, PAUSE = 2048, 0.2  # the slow link: at most this many bytes per pause from the service, on each connection
 
 
 def _env(**values: str) -> dict[str, str]:
@@ -92,3 +102,94 @@ def test_a_stopped_box_hands_its_job_back_and_the_next_box_resumes_it(tmp_path: 
                 except subprocess.TimeoutExpired:
                     os.killpg(proc.pid, signal.SIGKILL)
                     proc.wait()
+
+
+class SlowLink(Relay):
+    """The box's requests pass at once, the service's answers at BLOCK per PAUSE (a checkpoint takes seconds)."""
+
+    def to_box(self, src: socket.socket, dst: socket.socket, number: int) -> None:
+        while block := src.recv(BLOCK):
+            dst.sendall(block)
+            time.sleep(PAUSE)
+
+
+def _partial(folder: Path) -> list[Path]:
+    """The downloads under way in a box's data folder (``.NAME.download``, created once the answer's head came)."""
+    return list(folder.rglob(".*.download"))
+
+
+def test_a_box_stopped_while_fetching_the_checkpoint_hands_the_job_back_at_once(tmp_path: Path) -> None:
+    spec = tiny(end_time=0.5, output_interval=0.5, checkpoint_interval=10)
+    settings = settings_for(tmp_path / "service", "wakeyard-fetch-stop", broker="", lease_seconds=600.0)
+    app = create_app(settings)
+    store = app.state.store
+    job_id = store.create("ana", spec, []).id
+    token = create_token(store, "box", kind="worker")
+    first = tmp_path / "first"  # an earlier box's run, stopped after its second checkpoint
+    checks = itertools.count(1)
+    with pytest.raises(Cancelled):
+        run(spec, first, should_stop=lambda: next(checks) > 25)
+    with np.load(first / FLOW_CHECKPOINT, allow_pickle=False) as ck:
+        step, snapshots = int(ck["step"]), [f"fields/step_{int(k):06d}.npz" for k in ck["snapshots"]]
+    assert step > 0
+    logs = [tmp_path / "box-1.log", tmp_path / "box-2.log"]
+    procs: list[subprocess.Popen[bytes]] = []
+    worker_env = _env(WAKEYARD_WORKER_TOKEN=token, WAKEYARD_WORKERS="1")
+
+    with served(app) as port:
+        earlier = ServiceClient(f"http://127.0.0.1:{port}", token)
+        try:
+            claimed = earlier.claim("box:0")
+            assert claimed is not None and claimed["job_id"] == job_id
+            for name in [FLOW_CHECKPOINT, *snapshots]:
+                earlier.upload(job_id, claimed["lease"], first / name, name)
+            earlier.release(job_id, claimed["lease"])  # that box stopped: the job waits with its checkpoint
+        finally:
+            earlier.close()
+        link = SlowLink(port)
+        try:
+            box = tmp_path / "box-1"
+            procs.append(
+                _start(["worker", "--url", f"http://127.0.0.1:{link.port}", "--data", str(box)], worker_env, logs[0])
+            )
+            partial = wait_until("the checkpoint download under way", lambda: _partial(box), 120, logs[:1])
+            assert partial[0].name == f".{FLOW_CHECKPOINT}.download"
+            assert (first / FLOW_CHECKPOINT).stat().st_size * PAUSE / BLOCK > 5  # over 5 s on the slow link
+
+            stopped = time.monotonic()
+            os.killpg(procs[0].pid, signal.SIGTERM)
+            assert procs[0].wait(10) == 0
+            took = time.monotonic() - stopped
+            job = store.get(job_id)
+            assert took < 5 and job.state == "queued", (took, job)  # handed back, not left to the 600 s lease
+            assert job.attempts == 0 and job.error is None  # not counted against the job, not failed
+            assert "stopped while fetching its checkpoint" in logs[0].read_text()
+            assert not _partial(box)  # no partial file left behind
+            assert (settings.jobs_dir / job_id / FLOW_CHECKPOINT).read_bytes() == (first / FLOW_CHECKPOINT).read_bytes()
+
+            procs.append(
+                _start(
+                    ["worker", "--url", f"http://127.0.0.1:{port}", "--data", str(tmp_path / "box-2")],
+                    worker_env,
+                    logs[1],
+                )
+            )
+            done = wait_until(
+                "the job on the next box",
+                lambda: (j := store.get(job_id)).state in ("succeeded", "failed") and j,
+                240,
+                logs,
+            )
+            assert done.state == "succeeded", done.error
+            assert done.summary["resumed_from_step"] == step
+            assert f"resuming from the uploaded checkpoint of step {step}" in logs[1].read_text()
+        finally:
+            link.close()
+            for proc in procs:
+                if proc.poll() is None:
+                    os.killpg(proc.pid, signal.SIGTERM)
+                    try:
+                        proc.wait(10)
+                    except subprocess.TimeoutExpired:
+                        os.killpg(proc.pid, signal.SIGKILL)
+                        proc.wait()
