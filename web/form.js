@@ -25,6 +25,8 @@ export class CaseForm {
     this.onQueued = onQueued;
     this.spec = {};
     this.normal = null; // the latest normalised spec from the preview: the service's values for blank fields
+    this.normalAsked = {}; // the spec that preview was asked for: where it held a value, normal only echoes it
+    this.blank = null; // the normalised blank case: the service's defaults where they depend on nothing else
     this.drawn = null; // {bodies, outlines}: the bodies of the latest preview and the solver's outlines of them
     this.tags = "";
     this.from = null; // job whose spec was loaded for a re-run
@@ -112,7 +114,7 @@ export class CaseForm {
       // the examples, and the service's values for a blank case (what blank fields get before a preview answers)
       const [examples, blank] = await Promise.all([api.examples(), api.preview({})]);
       this.examples = examples.examples;
-      this.normal = blank.spec;
+      this.normal = this.blank = blank.spec;
     } catch (err) {
       toast(`The examples could not be loaded: ${err.message}`, "error");
     }
@@ -126,9 +128,17 @@ export class CaseForm {
     return getPath(this.spec, path) ?? getPath(this.normal, path);
   }
 
-  /** The channel to draw: the spec's sizes, the service's defaults for the blank ones. */
+  /** Whether the latest normalised spec's value at ``path`` only echoes a value just cleared from the form (the
+   * preview for the blank field has not answered yet): it is then no default to show. */
+  echoes(path) {
+    return getPath(this.spec, path) === undefined && getPath(this.normalAsked, path) !== undefined;
+  }
+
+  /** The channel to draw: the spec's sizes, the service's defaults for the blank ones (the channel's do not depend
+   * on the rest of the case, so the blank case's stand in for a field just cleared until its preview answers). */
   channel() {
-    const value = (k) => this.spec.channel?.[k] ?? this.normal?.channel?.[k];
+    const value = (k) => this.spec.channel?.[k]
+      ?? (this.echoes(`channel.${k}`) ? this.blank : this.normal)?.channel?.[k];
     return {length: value("length"), height: value("height"), walls: value("walls")};
   }
 
@@ -523,6 +533,7 @@ export class CaseForm {
 
   update() {
     const spec = this.currentSpec();
+    this.showDefaults();
     this.showFigures(spec);
     this.schedulePreview(spec);
     if (!this.jsonDirty && document.activeElement !== this.json) this.json.value = JSON.stringify(spec, null, 2);
@@ -546,6 +557,7 @@ export class CaseForm {
       if (p.outlines?.length) this.drawn = {bodies: clone(spec.bodies ?? []), outlines: p.outlines};
       if (p.spec) {
         this.normal = p.spec;
+        this.normalAsked = spec;
         this.lastGood = p;
       }
       // the service's problems go beside their fields while typing, as a submit would put them
@@ -612,12 +624,13 @@ export class CaseForm {
   }
 
   /** A blank field shows, as its placeholder, the value the service will use for it: the latest preview's
-   * normalised spec (so what the form shows and what is submitted agree; the page guesses no default of its own). */
+   * normalised spec (so what the form shows and what is submitted agree; the page guesses no default of its own).
+   * A field just cleared shows none until the service has answered for it blank. */
   showDefaults() {
     if (!this.normal) return;
     for (const input of this.root.querySelectorAll('input[data-kind="number"], input[data-kind="text"]')) {
       if (input.dataset.path === "title") continue;
-      const value = getPath(this.normal, input.dataset.path);
+      const value = this.echoes(input.dataset.path) ? undefined : getPath(this.normal, input.dataset.path);
       input.placeholder = typeof value === "number" || typeof value === "string" ? String(value) : "";
     }
   }

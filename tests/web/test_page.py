@@ -663,6 +663,38 @@ def test_placeholders_drawing_and_footer_follow_the_service(page, api) -> None:
     expect(page.locator("#caution-foot")).to_have_text(CAUTION)
 
 
+def test_a_field_just_cleared_shows_no_stale_value_while_its_preview_is_pending(page, api) -> None:
+    """A field just cleared must not show the value removed (as its placeholder, or in the drawing) while the
+    service's answer for it blank is on its way: the submitted spec will carry the service's default, not that."""
+    page.goto("/#/new")
+    page.locator("#example").select_option("bridge_pier")
+    pier = next(e["spec"] for e in api.get("/examples").json()["examples"] if e["name"] == "bridge_pier")
+    length, height = pier["channel"]["length"], pier["channel"]["height"]
+    default = JobSpec().channel.height
+    assert height != default
+    ratio = "r => { const b = document.querySelector('.case-svg .fluid-area').getBBox(); return Math.abs(b.height / b.width - r) < 0.01 * r; }"  # noqa: E501
+    page.wait_for_function(ratio, arg=height / length)
+    held, released = [], []
+
+    def hold(route) -> None:  # the service's answers wait until released
+        route.continue_() if released else held.append(route)
+
+    page.route("**/api/v1/previews", hold)
+    page.locator("#f-channel-height").fill("")
+    expect(page.locator("#f-channel-height")).to_have_attribute("placeholder", "")
+    page.wait_for_function(ratio, arg=default / length, timeout=5000)  # the channel's default, before any answer
+    for _ in range(100):  # the page asks once typing pauses
+        if held:
+            break
+        page.wait_for_timeout(50)
+    assert held
+    released.append(True)
+    for route in held:
+        route.continue_()
+    expect(page.locator("#f-channel-height")).to_have_attribute("placeholder", str(default))
+    assert "height" not in json.loads(page.locator("#spec-json").input_value())["channel"]
+
+
 def test_the_drawing_shows_the_solvers_outline(page, api) -> None:
     """The guide vane's airfoil is drawn from the outline the service's preview returns (the page has no airfoil
     formula): the same points, scaled to the drawing."""
