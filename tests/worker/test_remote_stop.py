@@ -48,6 +48,18 @@ def _token(data: Path, name: str, *flags: str) -> str:
     return subprocess.run(cmd, capture_output=True, text=True, env=_env(), timeout=120, check=True).stdout.strip()
 
 
+def _stop_all(procs: list[subprocess.Popen[bytes]]) -> None:
+    """Stop the worker commands still running (their process groups), killing any that take over 10 s."""
+    for proc in procs:
+        if proc.poll() is None:
+            os.killpg(proc.pid, signal.SIGTERM)
+            try:
+                proc.wait(10)
+            except subprocess.TimeoutExpired:
+                os.killpg(proc.pid, signal.SIGKILL)
+                proc.wait()
+
+
 def test_a_stopped_box_hands_its_job_back_and_the_next_box_resumes_it(tmp_path: Path) -> None:
     with socket.socket() as s:
         s.bind(("127.0.0.1", 0))
@@ -94,14 +106,7 @@ def test_a_stopped_box_hands_its_job_back_and_the_next_box_resumes_it(tmp_path: 
         resumed = done["summary"]["resumed_from_step"]
         assert resumed and f"resuming from the uploaded checkpoint of step {resumed}" in logs[2].read_text()
     finally:
-        for proc in procs:
-            if proc.poll() is None:
-                os.killpg(proc.pid, signal.SIGTERM)
-                try:
-                    proc.wait(10)
-                except subprocess.TimeoutExpired:
-                    os.killpg(proc.pid, signal.SIGKILL)
-                    proc.wait()
+        _stop_all(procs)
 
 
 class SlowLink(Relay):
@@ -185,11 +190,4 @@ def test_a_box_stopped_while_fetching_the_checkpoint_hands_the_job_back_at_once(
             assert f"resuming from the uploaded checkpoint of step {step}" in logs[1].read_text()
         finally:
             link.close()
-            for proc in procs:
-                if proc.poll() is None:
-                    os.killpg(proc.pid, signal.SIGTERM)
-                    try:
-                        proc.wait(10)
-                    except subprocess.TimeoutExpired:
-                        os.killpg(proc.pid, signal.SIGKILL)
-                        proc.wait()
+            _stop_all(procs)
