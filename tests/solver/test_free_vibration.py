@@ -55,10 +55,11 @@ def test_inside_the_lock_in_range_the_tube_keeps_a_large_swing_at_its_natural_fr
 @pytest.mark.timeout(900)
 def test_below_the_lock_in_range_the_tube_barely_moves_and_follows_the_shedding(tmp_path):
     """U* = 3: a stiff spring. Measured here (coarse, scale 3, 70 D/U): A/D 0.0074, f/f_n 0.513, St 0.171, lift
-    amplitude 0.37; on the bench's finer mesh from rest 0.007 and 0.513. The shedding runs at full strength (a lift
-    amplitude of about a third), so the small swing is the spring's doing, not a wake that has not yet begun to shed;
-    the tube swings at the shedding frequency, f/f_n = St U* (St about 0.16-0.18, Williamson 1996, recalled), far
-    from its natural frequency, with an amplitude two orders below the locked-in one."""
+    amplitude 0.37; on the bench's finer mesh from rest 0.007 and 0.513. The shedding runs at full strength (a fixed
+    cylinder's lift amplitude at Re 100 is about 0.3, Williamson 1996, recalled), so the small swing is the spring's
+    doing, not a wake that has not yet begun to shed; the tube swings at the shedding frequency, f/f_n = St U* (St
+    about 0.16-0.18, Williamson 1996, recalled), far from its natural frequency, with an amplitude two orders below
+    the locked-in one."""
     summary = run(released(3.0, 70.0, displaced=0.0, off_centre=0.5), tmp_path)
     tube = summary["bodies"][0]
     assert 0.15 < tube["strouhal_number"] < 0.19
